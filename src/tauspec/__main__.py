@@ -1,0 +1,5 @@
+"""Allow ``python -m tauspec``."""
+
+from .cli import main
+
+raise SystemExit(main())
