@@ -189,7 +189,7 @@ def test_reference_between_sweep_temperatures():
     assert mc.wlf.C2 == pytest.approx(C2r, rel=0.15)
 
 
-def test_vertical_factor_fitted_and_given_density():
+def test_vertical_factor_from_a_given_density():
     # b_T = T ρ(T)/(T_ref ρ(T_ref)) (Ferry 1980, ch. 11) with a linear thermal expansion of the density,
     # ρ = ρ0 (1 − α (T − T0)), α = 6e-4 /K (an order-of-magnitude value for polymer melts, from memory).
     def rho(T):
@@ -203,10 +203,56 @@ def test_vertical_factor_fitted_and_given_density():
     np.testing.assert_allclose(given.bT, [b_rule(T) for T in TEMPS_WLF], rtol=1e-12)
     truth = np.array([wlf_truth(T) for T in TEMPS_WLF])
     assert np.max(np.abs(given.log_aT - truth)) < 0.05
+
+
+@pytest.mark.parametrize("seed", [0, 3])
+def test_vertical_factor_fitted(seed):
+    # A vertical factor far from the density rule, b_T = (T/T_ref)^4 (invented to exercise the fit): the fitted
+    # b_T must find it (G = b_T G_ref(a_T ω), Ferry 1980 ch. 11). Fitting b_T costs precision in a_T, so the
+    # a_T tolerance here is 0.08 decade rather than 0.05.
+    def b_true(T):
+        return (T / T_REF_WLF) ** 4
+
+    sweeps = make_sweeps(TEMPS_WLF, wlf_truth, seed=seed, T_ref=T_REF_WLF, bT=b_true)
+    expected = np.array([b_true(T) for T in TEMPS_WLF])
+    assert np.max(np.abs(expected / (TEMPS_WLF / T_REF_WLF) - 1)) > 0.2  # the density rule would be far off
     fitted = superpose(sweeps, T_ref=T_REF_WLF, vertical="fit")
     assert fitted.vertical == "fit"
-    np.testing.assert_allclose(fitted.bT, [b_rule(T) for T in TEMPS_WLF], rtol=0.03)
-    assert np.max(np.abs(fitted.log_aT - truth)) < 0.05
+    np.testing.assert_allclose(fitted.bT, expected, rtol=0.03)
+    truth = np.array([wlf_truth(T) for T in TEMPS_WLF])
+    assert np.max(np.abs(fitted.log_aT - truth)) < 0.08
+    assert np.all(fitted.log_bT_se[TEMPS_WLF != T_REF_WLF] > 0)
+    assert fitted.check.simple
+
+
+@pytest.mark.parametrize("where", [0, -1])
+def test_reference_at_the_ends(where):
+    # T_ref at the coldest or hottest sweep: a_T(T_ref) = 1 exactly, the chain runs one way only, and the WLF
+    # constants refer to that T_ref (Ferry 1980, ch. 11).
+    T_ref = float(TEMPS_WLF[where])
+    sweeps = make_sweeps(TEMPS_WLF, lambda T: wlf_truth(T, T_ref), seed=1, T_ref=T_ref)
+    mc = superpose(sweeps, T_ref=T_ref)
+    truth = np.array([wlf_truth(T, T_ref) for T in TEMPS_WLF])
+    assert mc.aT[where] == 1.0 and tuple(mc.aT_ci[where]) == (1.0, 1.0)
+    assert np.max(np.abs(mc.log_aT - truth)) < 0.05
+    C1r, C2r = wlf_constants_at(T_ref)
+    assert mc.wlf.C1 == pytest.approx(C1r, rel=0.10)
+    assert mc.wlf.C2 == pytest.approx(C2r, rel=0.15)
+
+
+def test_two_temperatures_no_wlf():
+    # Two WLF constants cannot be fixed by one pairwise shift: WLF is not fitted, Arrhenius is, and a T_ref
+    # between the two sweeps is placed with the Arrhenius equation (and the result says so).
+    temps = TEMPS_WLF[:2]
+    T_ref = float(temps[0]) + 5.0
+    sweeps = make_sweeps(temps, lambda T: wlf_truth(T, T_ref), seed=1, T_ref=T_ref)
+    mc = superpose(sweeps, T_ref=T_ref)
+    assert mc.wlf is None and mc.better_fit == "arrhenius"
+    assert mc.to_dict()["wlf"] == {"C1": None, "C2": None}
+    assert any("Arrhenius" in n for n in mc.notes)
+    # The measured step between the two sweeps is kept exactly (Ferry 1980, ch. 11: shifts compose).
+    step = wlf_truth(temps[1], T_ref) - wlf_truth(temps[0], T_ref)
+    assert mc.log_aT[1] - mc.log_aT[0] == pytest.approx(step, abs=0.03)
 
 
 @pytest.mark.parametrize("seed", [0, 1, 2])
