@@ -9,6 +9,7 @@ from pathlib import Path
 from ..errors import SettingsError
 from ..io import atomic_write_text, dumps_json, read_sweep
 from ..units import temperature_kelvin
+from ._common import add_output_arguments, each_file
 
 __all__ = ["add_arguments", "run", "master_csv_text"]
 
@@ -23,10 +24,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                              "'# temperature:' lines)")
     parser.add_argument("--vertical", choices=("density", "fit"), default="density",
                         help="vertical factor b_T: from the density rule T/T_ref (default) or fitted to the overlaps")
-    parser.add_argument("--json", action="store_true", help="print one JSON object and nothing else")
-    parser.add_argument("--out", metavar="DIR", default=None, help="write master.csv and master.json into DIR")
-    parser.add_argument("--plot", action="store_true",
-                        help="write master.png (into DIR with --out, else the current folder)")
+    add_output_arguments(parser)
 
 
 def _kelvin(text: str, what: str) -> float:
@@ -49,7 +47,7 @@ def run(args: argparse.Namespace) -> int:
     """Read the files, superpose them and write the results; return the exit status."""
     from ..superpose import superpose
 
-    sweeps = [read_sweep(f) for f in args.files]
+    sweeps = [read_sweep(f) for f in each_file(args.files)]
     temperatures = None
     if args.temperatures is not None:
         parts = [p for p in args.temperatures.split(",") if p.strip()]
@@ -81,8 +79,7 @@ def run(args: argparse.Namespace) -> int:
 
         png = Path(args.out or ".") / "master.png"
         png.parent.mkdir(parents=True, exist_ok=True)
-        plot_master(result, png)
-        written.append(png)
+        written.append(plot_master(result, png))
     if args.json:
         print(dumps_json(data))
     else:
