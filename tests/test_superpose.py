@@ -282,6 +282,23 @@ def test_blend_flagged_simple_material_not(seed):
     assert "holds" in ok.check.statement
 
 
+def test_invariances():
+    # a_T is a ratio of relaxation times and b_T a ratio of moduli (Ferry 1980, ch. 11): neither may depend on the
+    # order of the files, the modulus unit (all moduli × 1000) or a common frequency factor (all ω × 2π).
+    sweeps = make_sweeps(TEMPS_WLF, wlf_truth, seed=8, T_ref=T_REF_WLF)
+    base = superpose(sweeps, T_ref=T_REF_WLF)
+    order = [3, 0, 4, 2, 1]
+    shuffled = superpose([sweeps[i] for i in order], T_ref=T_REF_WLF)
+    np.testing.assert_allclose(shuffled.log_aT, base.log_aT[order], rtol=0, atol=1e-12)
+    np.testing.assert_allclose(shuffled.omega, base.omega, rtol=1e-12)
+    scaled = superpose([s.replace(storage=1e3 * s.storage, loss=1e3 * s.loss) for s in sweeps], T_ref=T_REF_WLF)
+    np.testing.assert_allclose(scaled.log_aT, base.log_aT, rtol=0, atol=1e-6)
+    np.testing.assert_allclose(scaled.storage, 1e3 * base.storage, rtol=1e-5)
+    faster = superpose([s.replace(omega=2 * math.pi * s.omega) for s in sweeps], T_ref=T_REF_WLF)
+    np.testing.assert_allclose(faster.log_aT, base.log_aT, rtol=0, atol=1e-6)
+    assert faster.wlf.C1 == pytest.approx(base.wlf.C1, rel=1e-5)
+
+
 # --------------------------------------------------------------------------- refusals
 
 

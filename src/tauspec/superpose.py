@@ -55,6 +55,9 @@ MISFIT_THRESHOLD = 1.5
 #: Fewest points of *each* sweep that must fall inside the overlap of a pair.
 MIN_OVERLAP_POINTS = 4
 
+#: Spacing (decades) of the grid of trial shifts; a bounded Brent search refines the best node.
+GRID_STEP = 0.02
+
 #: Smallest estimated relative noise (0.1 %): no rheometer resolves the moduli better (common practice, no
 #: single source); it keeps the misfit check meaningful on noiseless synthetic data.
 NOISE_FLOOR = 1e-3
@@ -383,7 +386,7 @@ def _shift_pair(pair: _Pair, v_fixed: float | None, v_guess: float, min_overlap:
     # Stage 1: ln tan δ, which b_T does not affect.
     d_start = min(max(d0, a), b)
     pair.choose_degree(d_start, "tan", 0.0)
-    d1 = _grid_minimum(lambda t: pair.objective(t, "tan", 0.0), a, b, 0.005)
+    d1 = _grid_minimum(lambda t: pair.objective(t, "tan", 0.0), a, b, GRID_STEP)
     if not math.isfinite(d1):
         raise refuse
     se1, _ = _standard_errors(pair.fit(d1, "tan", 0.0, jacobian=True))
@@ -392,7 +395,7 @@ def _shift_pair(pair: _Pair, v_fixed: float | None, v_guess: float, min_overlap:
     half = min(max(0.3, 3.0 * se1), 1.0) if math.isfinite(se1) else 1.0
     a2, b2 = max(a, d1 - half), min(b, d1 + half)
     pair.choose_degree(d1, "mod", v_guess)
-    d = _grid_minimum(lambda t: pair.objective(t, "mod", v_fixed), a2, b2, 0.005)
+    d = _grid_minimum(lambda t: pair.objective(t, "mod", v_fixed), a2, b2, GRID_STEP)
     if not math.isfinite(d):
         d = d1
     fit = pair.fit(d, "mod", v_fixed, jacobian=True)
