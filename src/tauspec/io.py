@@ -426,7 +426,7 @@ def parse_sweeps_text(text: str, *, source: str = "<text>", default_name: str = 
             centres.append(float(t))
             groups.append([i])
     out = []
-    for g, c in zip(groups, centres):
+    for g in groups:
         idx = np.array(g)
         sub_meta = dict(meta)
         sub_meta["temperature"] = f"{float(np.mean(T[idx])):.6g} {T_unit.strip()}"
