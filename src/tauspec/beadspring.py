@@ -392,7 +392,7 @@ def _make_fit(prob: _Problem, model: str, theta: np.ndarray, **extra: Any) -> Be
     r, g0, eta, fp, fpp = prob.evaluate(theta)
     tau1, N, a = prob.unpack(theta)
     chi2 = float(r @ r)
-    k = 2 + (1 if prob.solvent else 0) + (1 if prob.a_fixed is None else 0)  # G0, τ1, N, (η_s), (a)
+    k = 3 + (1 if prob.solvent else 0) + (1 if prob.a_fixed is None else 0)  # G0, τ1, N, (η_s), (a)
     red, aic, bic = _stats(chi2, prob.n, k)
     return BeadSpringFit(model=model, form=prob.form, G0=g0, tau1=tau1, N=N, eta_s=eta, a=a,
                          a_free=prob.a_fixed is None, chi2=chi2, n_data=prob.n, n_params=k,
@@ -480,7 +480,7 @@ def _profile_side(f, x_hat: float, step: float, direction: int, limit: float, ma
         s *= 1.8
     else:
         return None
-    return optimize.brentq(f, min(x_in, x), max(x_in, x), xtol=1e-3 * step + 1e-12, maxiter=30)
+    return optimize.brentq(f, min(x_in, x), max(x_in, x), xtol=0.01 * step + 1e-12, maxiter=30)
 
 
 def add_intervals(
@@ -527,7 +527,7 @@ def add_intervals(
             flo = np.array(lo)[free] + 1e-9
             fhi = np.array(hi)[free] - 1e-9
             best = optimize.least_squares(r, np.clip(state["x"], flo, fhi), bounds=(flo, fhi), method="trf",
-                                          diff_step=1e-5, xtol=1e-9, ftol=1e-10, max_nfev=100)
+                                          diff_step=1e-5, xtol=1e-8, ftol=1e-9, max_nfev=80)
             state["x"] = best.x
             return 2 * best.cost - thr
 

@@ -270,10 +270,15 @@ def _gather(sweep: Sweep, fits: Mapping[str, bs.BeadSpringFit], general: bs.Bead
     ev.append(Evidence(test="equilibrium_modulus", value=float(gp[0] / gpp[0]),
                        expected="no low-frequency solid plateau (G_e = 0)", passed=not solid,
                        note=f"tan delta at omega_min is {gpp[0] / gp[0]:.3g}; G' slope there {s_p:.3f}"))
-    g_share = float(free.g.max() / free.g.sum()) if len(free.g) else math.nan
+    inside = (free.tau >= 1 / w[-1]) & (free.tau <= 1 / w[0])  # modes the data see (not the grid ends)
+    g_in = free.g[inside]
+    g_share = float(g_in.max() / g_in.sum()) if len(g_in) else math.nan
+    # a single mode is only told from a chain when the window reaches well beyond it
+    seen = len(g_in) > 0 and w[-1] * float(free.tau[inside][np.argmax(g_in)]) >= T["min_intermediate"]
     ev.append(Evidence(test="single_mode", value=g_share, expected=f"< {T['single_mode_share']:g} of the modulus "
-                       "in one discrete mode", passed=not (g_share >= T["single_mode_share"]),
-                       note=f"{len(free.g)} discrete modes (unregularized NNLS, Jakes 1995)"))
+                       "in one discrete mode", passed=(not (g_share >= T["single_mode_share"])) if seen else None,
+                       note=f"{len(g_in)} discrete modes with 1/omega_max <= tau <= 1/omega_min "
+                            "(unregularized NNLS, Jakes 1995)"))
 
     rouse = fits["rouse"]
     inter = w[-1] * rouse.tau1
@@ -391,11 +396,11 @@ def decide(evidence: Sequence[Evidence]) -> tuple[str, str]:
 
     1. window narrower than 2 decades → inconclusive;
     2. one power law over the whole window without a terminal zone, or a low-frequency solid plateau → gel;
-    3. a rubbery plateau over ≥ 1 decade → entangled;
-    4. one discrete mode with ≥ 90 % of the modulus → other (a single relaxation);
+    3. one discrete mode with ≥ 90 % of the modulus → other (a single relaxation);
+    4. a rubbery plateau over ≥ 1 decade → entangled;
     5. terminal slopes not reached → inconclusive (a Rouse region cannot be told from a gel or a plateau);
-    6. less than ~1.5 decades beyond the terminal crossover, or fewer than 5 chain modes → inconclusive
-       (only the terminal zone is seen);
+    6. less than ~1.5 decades beyond the terminal crossover → inconclusive (only the terminal zone is seen);
+       otherwise fewer than 5 fitted chain modes → other (too narrow a relaxation for a chain);
     7. Rouse fit adequate, a consistent with 2, Rouse BIC below Zimm's, at most one supporting test failed
        (spectrum slope, tan δ, π/(2√2) cross-check, mode ratios) → rouse;
     8. Zimm fit adequate, a consistent with 1.5 or 1.764, Zimm BIC below Rouse's, at most one supporting
@@ -407,24 +412,30 @@ def decide(evidence: Sequence[Evidence]) -> tuple[str, str]:
     def ok(name: str) -> bool:
         return e[name].passed is True
 
+    def failed(name: str) -> bool:
+        return e[name].passed is False
+
     if not ok("window_decades"):
         return "inconclusive", f"the sweep spans {e['window_decades'].value:.2f} decades; at least 2 are needed"
     terminal = ok("terminal_slope_storage") and ok("terminal_slope_loss")
-    if not ok("equilibrium_modulus"):
+    if failed("equilibrium_modulus"):
         return "gel", "G' levels off above G'' at the lowest frequencies: an equilibrium modulus G_e > 0"
-    if not ok("critical_gel_power_law") and not terminal:
+    if failed("critical_gel_power_law") and not terminal:
         return "gel", (f"G' and G'' follow one power law (n = {e['critical_gel_power_law'].value:.2f}) over the "
                        "whole window with no terminal zone")
-    if not ok("plateau"):
-        return "entangled", f"a rubbery plateau over {e['plateau'].value:.1f} decades"
-    if not ok("single_mode"):
+    if failed("single_mode"):
         return "other", "one Maxwell mode carries nearly all the modulus: a single relaxation, not a chain spectrum"
+    if failed("plateau"):
+        return "entangled", f"a rubbery plateau over {e['plateau'].value:.1f} decades"
     if not terminal:
         return "inconclusive", ("the terminal slopes (G' ∝ ω², G'' ∝ ω) are not reached inside the window, so a "
                                 "bead-spring region cannot be told from a critical gel or the onset of a plateau")
-    if not (ok("intermediate_region") and ok("chain_modes")):
+    if not ok("intermediate_region"):
         return "inconclusive", ("the window shows the terminal zone but less than about 1.5 decades of the "
                                 "bead-spring region beyond it")
+    if not ok("chain_modes"):
+        return "other", (f"the relaxation is too narrow for a chain: the best Rouse chain has only "
+                         f"{e['chain_modes'].value:.1f} modes although the window reaches far beyond the terminal zone")
     support = ["spectrum_slope", "tan_delta_intermediate", "rouse_coefficient", "terminal_mode", "mode_ratio_12",
                "mode_ratio_13"]
     failed = [s for s in support if e[s].passed is False]

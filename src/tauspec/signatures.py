@@ -123,11 +123,30 @@ def median_in(values: np.ndarray, mask: np.ndarray) -> float:
     return float(np.median(values[mask])) if np.any(mask) else math.nan
 
 
+#: nonzero NNLS grid points closer than this factor in τ are one mode (NNLS often splits one relaxation
+#: over two grid points a few steps apart; the closest Rouse modes that matter here are τ_2/τ_3 = 2.25).
+MERGE_RATIO = 1.6
+
+
+def _merge_modes(g: np.ndarray, tau: np.ndarray, ratio: float) -> tuple[np.ndarray, np.ndarray]:
+    """Merge modes (τ ascending) whose neighbours are closer than ``ratio`` in τ; strengths add, ln τ averages."""
+    groups: list[list[int]] = []
+    for i in range(len(tau)):
+        if groups and tau[i] / tau[groups[-1][-1]] < ratio:
+            groups[-1].append(i)
+        else:
+            groups.append([i])
+    gs = np.array([g[k].sum() for k in groups])
+    ts = np.array([math.exp(float(np.dot(g[k], np.log(tau[k])) / g[k].sum())) for k in groups])
+    return gs, ts
+
+
 @dataclasses.dataclass(frozen=True, kw_only=True)
 class SparseModes:
     """Discrete modes from unregularized nonnegative least squares on a fine grid (Jakeš 1995).
 
-    Adjacent nonzero grid points are merged into one mode (strengths summed, ln τ strength-weighted).
+    Nonzero grid points closer than MERGE_RATIO in τ are merged into one mode (strengths summed, ln τ
+    strength-weighted); specks below 0.1 % of Σg are dropped.
     ``chi2`` is the sum of squared relative residuals, ``n_active`` the number of nonzero coefficients
     (including η_s when nonzero).
     """
@@ -172,21 +191,7 @@ def sparse_modes(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, *, pe
     r = np.concatenate([gp / storage - 1, gpp / loss - 1])
     active = g_grid > 1e-8 * max(float(g_grid.max()), 1e-300)
     n_active = int(np.count_nonzero(active)) + (1 if eta > 0 else 0)
-    modes_g, modes_t = [], []
-    i = 0
-    while i < len(tau):
-        if not active[i]:
-            i += 1
-            continue
-        j = i
-        while j + 1 < len(tau) and active[j + 1]:
-            j += 1
-        gs = g_grid[i:j + 1]
-        modes_g.append(float(gs.sum()))
-        modes_t.append(float(np.exp(np.dot(gs, np.log(tau[i:j + 1])) / gs.sum())))
-        i = j + 1
-    modes_g = np.array(modes_g)
-    modes_t = np.array(modes_t)
+    modes_g, modes_t = _merge_modes(g_grid[active], tau[active], MERGE_RATIO)
     keep = modes_g >= 1e-3 * max(float(modes_g.sum()), 1e-300)  # drop specks that carry no modulus
     modes_g, modes_t = modes_g[keep], modes_t[keep]
     order = np.argsort(modes_t)[::-1]
