@@ -198,14 +198,29 @@ def _split_header(line: str, delim: str | None, n_data: int | None) -> list[str]
 
 
 def _choose_delimiter(header: str, data: Sequence[str]) -> str | None:
-    sample = [d for d in data[:20]]
+    """Pick the separator (``None`` is white space).
+
+    The header decides: the separator whose split of the header yields the
+    most recognized column names (ties: tab, semicolon, comma, white space).
+    When no split names a known column, the first separator that splits the
+    header and at least half of the first rows into equally many fields wins.
+    """
+    best, best_known = None, 0
+    for delim in ("\t", ";", ",", None):
+        if delim is not None and delim not in header:
+            continue
+        names = _split_header(header, delim, None)
+        known = sum(_role_of(_split_unit(f)[0]) is not None for f in names)
+        if known > best_known:
+            best, best_known = delim, known
+    if best_known:
+        return best
+    sample = list(data[:20])
     for delim in ("\t", ";", ","):
         if delim not in header:
             continue
         n = len(_split_line(header, delim))
-        if n < 2:
-            continue
-        if not sample or all(len(_split_line(d, delim)) == n for d in sample[:5]):
+        if n >= 2 and (not sample or 2 * sum(len(_split_line(d, delim)) == n for d in sample) >= len(sample)):
             return delim
     return None
 
@@ -284,7 +299,8 @@ def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "
             role = "omega_or_f"
         key = "omega" if role in ("omega", "omega_or_f") else role
         if key in roles:
-            raise SweepError(f"two columns are the {key.replace('gstar', '|G*|')} column: {roles[key][2]!r} and {field.strip()!r}",
+            what = key.replace("gstar", "|G*|")
+            raise SweepError(f"two columns are the {what} column: {roles[key][2]} and {field.strip()}",
                              source, header_line_no)
         roles[key] = (i, unit, field.strip())
         if role == "omega_or_f":
@@ -297,7 +313,8 @@ def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "
     if not (pair or polar):
         missing = [label for key, label in (("storage", "G'"), ("loss", "G''")) if key not in roles]
         raise SweepError(
-            f"header names no {' or '.join(missing)} column (nor |G*| with phase angle); expected e.g. {_EXPECTED_HEADER}",
+            f"header names no {' or '.join(missing)} column (nor |G*| with phase angle); "
+            f"expected e.g. {_EXPECTED_HEADER}",
             source,
             header_line_no,
         )
@@ -305,11 +322,12 @@ def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "
     def factor(key: str, kind: str) -> float:
         idx, unit, label = roles[key]
         if unit == "?":
-            raise SweepError(f"column {label!r} has no unit: write {label} [rad/s] or {label} [Hz]", source, header_line_no)
+            raise SweepError(f"column {label} has no unit: write {label} [rad/s] or {label} [Hz]", source,
+                             header_line_no)
         try:
             return to_si(kind, unit)
         except KeyError:
-            raise SweepError(f"unit {unit!r} of column {label!r} is not a {kind} unit tauspec knows", source,
+            raise SweepError(f"unit {unit!r} of column {label} is not a {kind} unit tauspec knows", source,
                              header_line_no) from None
 
     used = ["omega", "storage", "loss"] if pair else ["omega", "gstar", "delta"]
@@ -331,9 +349,9 @@ def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "
             cell = fields[columns[k]]
             v = _to_float(cell, decimal_comma)
             if v is None:
-                raise SweepError(f"{roles[k][2]!r} value {cell[:40]!r} is not a number", source, number)
+                raise SweepError(f"column {roles[k][2]}: value {cell[:40]!r} is not a number", source, number)
             if not math.isfinite(v):
-                raise SweepError(f"{roles[k][2]!r} value {cell[:40]!r} is not finite", source, number)
+                raise SweepError(f"column {roles[k][2]}: value {cell[:40]!r} is not finite", source, number)
             row.append(v * factors[k])
         values.append(row)
         lines.append(number)
