@@ -361,7 +361,7 @@ def fit_chain(
 
     Starts: every τ_1 estimate (terminal ratio, G' = G'' crossover and any ``tau_starts``, e.g. the
     longest time of the recovered spectrum) × scale factors 0.5, 1, 2 × N on a geometric grid from 1 to
-    N_MAX (× a ∈ {1.5, 2} when a is free) are scored by one evaluation each; the three best starts are
+    N_MAX (× a ∈ {1.5, 2} when a is free) are scored by one evaluation each; the two best starts are
     refined by trust-region least squares and the best result is kept.  Intervals are not computed here
     (see :func:`add_intervals`).
     """
@@ -384,7 +384,7 @@ def fit_chain(
                     r = prob.residuals(np.array(th))
                     candidates.append((float(r @ r), th))
     candidates.sort(key=lambda c: c[0])
-    res = _fit_from(prob, [np.array(c[1]) for c in candidates[:3]])
+    res = _fit_from(prob, [np.array(c[1]) for c in candidates[:2]])
     return _make_fit(prob, model, res.x)
 
 
@@ -491,8 +491,11 @@ def add_intervals(
     *,
     solvent: bool = True,
     level: float = 0.95,
+    params: Sequence[str] = ("tau1", "G0", "a"),
 ) -> BeadSpringFit:
     """Return ``fit`` with 95 % profile-likelihood intervals for τ_1, G0 and (when fitted) a.
+
+    Only the parameters named in ``params`` are profiled; the others keep their Jacobian (Wald) intervals.
 
     The profile χ²_p(ψ) minimises over the other parameters at fixed ψ; the interval is
     {ψ : χ²_p(ψ) ≤ χ²_min (1 + F_{1,n−k}(0.95)/(n−k))} (Bates & Watts 1988, ch. 6).  When a profile
@@ -507,8 +510,9 @@ def add_intervals(
     se = _jacobian_se(prob, fit)
     z = stats.norm.ppf(0.5 + level / 2)
     notes = list(fit.notes)
-    out: dict[str, tuple[float, float]] = {}
-    used_jacobian = []
+    wald = jacobian_intervals(fit, omega, storage, loss, solvent=solvent, level=level)
+    out: dict[str, tuple[float, float]] = {"tau1": wald.tau1_ci, "G0": wald.G0_ci, "a": wald.a_ci}
+    used_jacobian = [p for p in ("tau1", "G0", "a") if p not in params and (p != "a" or a_fixed is None)]
 
     def profile_of(index: int | None):
         """χ²_p − threshold as a function of the fixed value (index into θ, or None for ln G0)."""
@@ -538,6 +542,8 @@ def add_intervals(
     if a_fixed is None:
         specs.append(("a", 2, fit.a, se["a"], False, (lo[2], hi[2])))
     for name, index, x_hat, s, is_log, (xlo, xhi) in specs:
+        if name not in params:
+            continue
         step = min(max(s, 1e-3), 1.0)
         try:
             f = profile_of(index)
@@ -555,10 +561,12 @@ def add_intervals(
         if is_log:
             lo_v, hi_v = (math.exp(v) if math.isfinite(v) else (0.0 if v < 0 else math.inf) for v in (lo_v, hi_v))
         out[name] = (lo_v, hi_v)
+    failed = [p for p in used_jacobian if p in params]
+    if failed:
+        notes.append("the profile could not be followed for " + ", ".join(failed)
+                     + "; the Jacobian (Wald) interval is given instead")
     if used_jacobian:
         method = "profile likelihood; jacobian for " + ", ".join(used_jacobian)
-        notes.append("the profile could not be followed for " + ", ".join(used_jacobian)
-                     + "; the Jacobian (Wald) interval is given instead")
     else:
         method = "profile likelihood"
     return dataclasses.replace(fit, tau1_ci=out["tau1"], G0_ci=out["G0"], a_ci=out.get("a", (fit.a, fit.a)),

@@ -30,6 +30,7 @@ from . import beadspring as bs
 from . import signatures as sg
 from .errors import SettingsError, WeakResultWarning
 from .io import dumps_json
+from .kernels import quadrature_weights
 from .sweep import Sweep
 
 __all__ = ["Evidence", "Diagnosis", "diagnose", "decide", "VERDICTS", "SCHEMA", "THRESHOLDS"]
@@ -60,6 +61,9 @@ THRESHOLDS: Mapping[str, float] = {
 }
 
 A_ZIMM = {"zimm_theta": 1.5, "zimm_good": 3 * bs.NU_GOOD}
+#: accepted factor either side of the Rouse mode ratios 4 and 9: the unregularized NNLS modes carry errors of
+#: tens of per cent at 1–3 % noise (seen on the synthetic sweeps), so only a coarse check is possible.
+RATIO_TOL = 1.6
 
 
 @dataclasses.dataclass(frozen=True, kw_only=True)
@@ -223,16 +227,27 @@ def _intermediate_mask(omega: np.ndarray, fit: bs.BeadSpringFit) -> np.ndarray:
 
 
 def _spectrum_slope(spectrum: Any, fit: bs.BeadSpringFit) -> tuple[float, str]:
-    """Slope of ln H against ln τ over [max(τ_lo, 3τ_N), min(τ_hi, τ_1/4)] of the supported window."""
+    """Exponent −s of the recovered spectrum over the intermediate part of its supported window.
+
+    A chain with τ_p = τ_1 p^(−a) has H = s G0 (τ_1/τ)^s, s = 1/a, and so the cumulative spectrum
+    C(τ) = ∫_τ^∞ H d ln τ' = G0 (τ_1/τ)^s; for the discrete chain C counts the modes slower than τ and is on
+    average G0 (τ_1/τ)^s − G0/2 (the same end term as in G').  The slope of ln(C + G0/2) against ln τ is
+    taken over [max(τ_lo, 3τ_N), min(τ_hi, τ_1/4)]: the cumulative form averages over the peaks of the
+    first, partly resolved modes, where H itself is lumpy.  G0 and τ_N are those of ``fit``.
+    """
     tau = np.asarray(spectrum.tau)
-    H = np.asarray(spectrum.H)
+    H = np.clip(np.asarray(spectrum.H), 0.0, None)
     lo_w, hi_w = spectrum.window
     lo = max(lo_w, 3.0 * float(fit.mode_times()[-1]))
     hi = min(hi_w, fit.tau1 / 4.0)
-    sel = (tau >= lo) & (tau <= hi) & (H > 0)
+    sel = (tau >= lo) & (tau <= hi)
     if hi / lo < 10**0.6 or np.count_nonzero(sel) < 4:
         return math.nan, f"the intermediate part of the window [{_g(lo)}, {_g(hi)}] s is under 0.6 decade"
-    return sg.loglog_slope(tau[sel], H[sel])[0], f"fitted over tau in [{_g(lo)}, {_g(hi)}] s"
+    content = H * quadrature_weights(tau)
+    cumulative = np.cumsum(content[::-1])[::-1]  # ∫ from τ_j upwards
+    y = cumulative + fit.G0 / 2
+    return (sg.loglog_slope(tau[sel], y[sel])[0],
+            f"slope of ln(C + G0/2), C(tau) = cumulative spectrum, over tau in [{_g(lo)}, {_g(hi)}] s")
 
 
 def _gather(sweep: Sweep, fits: Mapping[str, bs.BeadSpringFit], general: bs.BeadSpringFit,
@@ -253,7 +268,8 @@ def _gather(sweep: Sweep, fits: Mapping[str, bs.BeadSpringFit], general: bs.Bead
     pl = sg.plateau_decades(w, gp, gpp)
     ev.append(Evidence(test="plateau", value=pl, expected=f"< {T['plateau_decades']:g} decade (no rubbery plateau)",
                        passed=pl < T["plateau_decades"],
-                       note="decades with G' > G'', G' slope in [-0.1, 0.25], G'' slope >= -0.5"))
+                       note="decades with G' > G'', G' slope in [-0.1, 0.3], G'' slope >= -0.5 "
+                            "(slopes over +-0.5 decade)"))
     pw = sg.power_law_fit(w, gp, gpp)
     gel_like = (pw["rms"] <= T["gel_rms"] and abs(pw["storage_slope"] - pw["loss_slope"]) <= T["gel_slope_diff"]
                 and pw["tan_delta_spread"] <= T["gel_tan_spread"])
@@ -331,8 +347,11 @@ def _gather(sweep: Sweep, fits: Mapping[str, bs.BeadSpringFit], general: bs.Bead
         ev.append(Evidence(test="tan_delta_intermediate", value=tan_d, expected="1 (Rouse)",
                            passed=abs(tan_d - 1) <= T["tan_tol"],
                            note="median of (G'' - eta_s omega)/(G' + G0/2) for 10/tau_1 <= omega <= 0.3/tau_N"))
-        ev.append(Evidence(test="tan_delta_zimm", value=tan_d, expected="1.732 (theta) or 1.236 (good)",
-                           passed=min(abs(tan_d - math.sqrt(3)), abs(tan_d - 1.236)) <= T["tan_tol"]))
+        # the Zimm values are approached slowly (finite N and the first modes pull tan δ down from √3), so
+        # the Zimm test asks for the band between the good-solvent and θ values rather than one of them
+        ev.append(Evidence(test="tan_delta_zimm", value=tan_d,
+                           expected="1.236 (good) to 1.732 (theta): 1.12 to 1.85",
+                           passed=1.236 - T["tan_tol"] <= tan_d <= math.sqrt(3) + T["tan_tol"]))
         # Ferry 1980 ch. 9: G'' − η_s ω = (π/(2√2)) G0 √(ω τ_R) in the Rouse region → G0 √τ_R
         est = sg.median_in(gpp_p / (sg.ROUSE_G_COEFF * np.sqrt(w)), mask)
         ratio_c = est / (rouse.G0 * math.sqrt(rouse.tau1))
@@ -372,16 +391,16 @@ def _mode_ratio_evidence(free: sg.SparseModes, rouse: bs.BeadSpringFit, omega: n
     single = [abs(math.log(gi / g[0])) <= math.log(1.6) for gi in g[1:3]]
     if len(t) >= 2 and single[0]:
         r12 = float(t[0] / t[1])
-        out.append(Evidence(test="mode_ratio_12", value=r12, expected="4 (3 to 5.3), equal strengths",
-                            passed=3.0 <= r12 <= 5.3, note=f"g2/g1 = {g[1] / g[0]:.2f}"))
+        out.append(Evidence(test="mode_ratio_12", value=r12, expected="4 (2.5 to 6.4), equal strengths",
+                            passed=4 / RATIO_TOL <= r12 <= 4 * RATIO_TOL, note=f"g2/g1 = {g[1] / g[0]:.2f}"))
     else:
         why = (f"the second discrete mode carries {g[1] / g[0]:.2f} times the first: it merges several chain modes"
                if len(t) >= 2 else "a single discrete mode in the window")
         out.append(Evidence(test="mode_ratio_12", value=None, expected="4, equal strengths", passed=None, note=why))
     if len(t) >= 3 and single[0] and single[1]:
         r13 = float(t[0] / t[2])
-        out.append(Evidence(test="mode_ratio_13", value=r13, expected="9 (6 to 13), equal strengths",
-                            passed=6.0 <= r13 <= 13.0, note=f"g3/g1 = {g[2] / g[0]:.2f}"))
+        out.append(Evidence(test="mode_ratio_13", value=r13, expected="9 (5.6 to 14.4), equal strengths",
+                            passed=9 / RATIO_TOL <= r13 <= 9 * RATIO_TOL, note=f"g3/g1 = {g[2] / g[0]:.2f}"))
     else:
         out.append(Evidence(test="mode_ratio_13", value=None, expected="9, equal strengths", passed=None,
                             note="the data do not resolve the third chain mode as a mode of its own"))
@@ -438,7 +457,12 @@ def decide(evidence: Sequence[Evidence]) -> tuple[str, str]:
                          f"{e['chain_modes'].value:.1f} modes although the window reaches far beyond the terminal zone")
     support = ["spectrum_slope", "tan_delta_intermediate", "rouse_coefficient", "terminal_mode", "mode_ratio_12",
                "mode_ratio_13"]
-    failed = [s for s in support if e[s].passed is False]
+    # the three discrete-mode tests come from one sparse solution and fail together when it splits or merges
+    # modes, so they count as one supporting test
+    failed = [s for s in support[:3] if e[s].passed is False]
+    modes_failed = [s for s in support[3:] if e[s].passed is False]
+    if modes_failed:
+        failed.append("/".join(modes_failed))
     rouse_core = ok("rouse_fit") and ok("mode_exponent") and ok("rouse_vs_zimm_bic")
     if rouse_core and len(failed) <= THRESHOLDS["max_support_failures"]:
         return "rouse", "the exact Rouse chain fits within the noise and the mode exponent is 2" + (
@@ -526,7 +550,7 @@ def diagnose(
     # The profile intervals are the costly part: compute them where the exponent test decides
     # (the rule reached its bead-spring steps), then decide again with them.
     if intervals and verdict in ("rouse", "zimm", "other"):
-        fits = {**fits, gname: bs.add_intervals(fits[gname], w, gp, gpp, solvent=solvent)}
+        fits = {**fits, gname: bs.add_intervals(fits[gname], w, gp, gpp, solvent=solvent, params=("a",))}
         evidence = _gather(sweep, fits, fits[gname], free, spectrum, spectrum_note)
         verdict, reason = decide(evidence)
     general = fits[gname]
@@ -537,13 +561,12 @@ def diagnose(
     else:
         reported = min(fits, key=lambda m: fits[m].bic)
     rep = fits[reported]
-    if rep.ci_method == "none":
-        if intervals and verdict in ("rouse", "zimm"):
-            rep = bs.add_intervals(rep, w, gp, gpp, solvent=solvent)
-        else:
-            rep = bs.jacobian_intervals(rep, w, gp, gpp, solvent=solvent)
-        fits = {**fits, reported: rep}
-    if rep.ci_method == "jacobian" and verdict not in ("rouse", "zimm"):
+    if intervals and verdict in ("rouse", "zimm"):
+        rep = bs.add_intervals(rep, w, gp, gpp, solvent=solvent, params=("tau1", "G0"))
+    elif rep.ci_method == "none":
+        rep = bs.jacobian_intervals(rep, w, gp, gpp, solvent=solvent)
+    fits = {**fits, reported: rep}
+    if verdict not in ("rouse", "zimm"):
         notes.append("the intervals are Jacobian (Wald) intervals: profile likelihood is computed only when the "
                      "verdict is rouse or zimm")
     if not intervals:

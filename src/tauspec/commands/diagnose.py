@@ -3,60 +3,53 @@
 from __future__ import annotations
 
 import argparse
-import re
 import sys
 from pathlib import Path
 
-from ..errors import SettingsError, TauspecError
+from ..errors import TauspecError
+from ._common import add_output_arguments, each_file, output_dir_for
 
 __all__ = ["add_arguments", "run"]
 
 
-def add_arguments(parser: argparse.ArgumentParser) -> None:
-    """Register the options of ``tauspec diagnose``."""
-    parser.add_argument("files", nargs="+", metavar="FILE", help="frequency-sweep files")
-    parser.add_argument("--json", action="store_true", help="print one JSON object per file and nothing else")
-    parser.add_argument("--plot", action="store_true", help="write <sample>-diagnosis.png (into --out or here)")
-    parser.add_argument("--out", metavar="DIR", help="write <sample>-diagnosis.json and .txt (and the PNG) here")
-    parser.add_argument("--no-spectrum", action="store_true",
-                        help="skip the continuous-spectrum tests (faster; they are then reported as not made)")
-
-
-def _stem(name: str) -> str:
-    return re.sub(r"[^\w.\-]+", "_", name).strip("._") or "sample"
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    """Register the options of ``diagnose``."""
+    p.add_argument("files", nargs="+", metavar="FILE", help="sweep files (text tables with a header row)")
+    add_output_arguments(p)
+    p.add_argument("--no-spectrum", action="store_true",
+                   help="skip the continuous-spectrum tests (faster; they are then listed as not made)")
+    p.add_argument("--no-solvent", dest="solvent", action="store_false", help="do not fit a solvent viscosity η_s")
 
 
 def run(args: argparse.Namespace) -> int:
-    """Diagnose each file; return 0, or 1 when any file failed."""
+    """Diagnose every file; print JSON lines or a text report; return 1 when any file failed."""
     from ..diagnosis import diagnose
     from ..io import atomic_write_text, dumps_json, read_sweep
 
-    out = Path(args.out) if args.out else None
-    if out is not None:
-        if out.exists() and not out.is_dir():
-            raise SettingsError("--out must be a folder", str(out))
-        out.mkdir(parents=True, exist_ok=True)
     status = 0
-    for path in args.files:
+    for path in each_file(args.files):
         try:
             sweep = read_sweep(path)
-            diag = diagnose(sweep, use_spectrum=not args.no_spectrum)
-            stem = _stem(sweep.name) + "-diagnosis"
-            if args.json:
-                print(dumps_json(diag.to_dict()), flush=True)
-            else:
-                print(diag.report(), flush=True)
-                print()
+            diag = diagnose(sweep, use_spectrum=not args.no_spectrum, solvent=args.solvent)
+            result = diag.to_dict()
+            out = output_dir_for(args, path)
             if out is not None:
-                atomic_write_text(out / f"{stem}.json", dumps_json(diag.to_dict(), indent=2) + "\n")
-                atomic_write_text(out / f"{stem}.txt", diag.report() + "\n")
+                out.mkdir(parents=True, exist_ok=True)
+                atomic_write_text(out / "diagnosis.json", dumps_json(result, indent=1) + "\n")
+                atomic_write_text(out / "diagnosis.txt", diag.report() + "\n")
             if args.plot:
                 from ..diagnosis_plot import plot_diagnosis
 
-                plot_diagnosis(diag, (out or Path(".")) / f"{stem}.png")
+                folder = out or Path(".")
+                plot_diagnosis(diag, folder / ("diagnosis.png" if out else f"{Path(path).stem}-diagnosis.png"))
         except TauspecError as exc:
-            if len(args.files) == 1:
-                raise
+            if exc.source is None:
+                exc = type(exc)(exc.reason, str(path), exc.line)
             print(f"tauspec: error: {exc.one_line()}", file=sys.stderr)
             status = 1
+            continue
+        if args.json:
+            print(dumps_json(result), flush=True)
+        else:
+            print(diag.report(), flush=True)
     return status
