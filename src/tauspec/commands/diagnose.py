@@ -3,11 +3,9 @@
 from __future__ import annotations
 
 import argparse
-import sys
 from pathlib import Path
 
-from ..errors import TauspecError
-from ._common import add_output_arguments, each_file, output_dir_for
+from ._common import add_output_arguments, output_dir_for, run_each_file
 
 __all__ = ["add_arguments", "run"]
 
@@ -26,30 +24,20 @@ def run(args: argparse.Namespace) -> int:
     from ..diagnosis import diagnose
     from ..io import atomic_write_text, dumps_json, read_sweep
 
-    status = 0
-    for path in each_file(args.files):
-        try:
-            sweep = read_sweep(path)
-            diag = diagnose(sweep, use_spectrum=not args.no_spectrum, solvent=args.solvent)
-            result = diag.to_dict()
-            out = output_dir_for(args, path)
-            if out is not None:
-                out.mkdir(parents=True, exist_ok=True)
-                atomic_write_text(out / "diagnosis.json", dumps_json(result, indent=1) + "\n")
-                atomic_write_text(out / "diagnosis.txt", diag.report() + "\n")
-            if args.plot:
-                from ..diagnosis_plot import plot_diagnosis
+    def work(path: str) -> tuple[dict, str]:
+        sweep = read_sweep(path)
+        diag = diagnose(sweep, use_spectrum=not args.no_spectrum, solvent=args.solvent)
+        result = diag.to_dict()
+        out = output_dir_for(args, path)
+        if out is not None:
+            out.mkdir(parents=True, exist_ok=True)
+            atomic_write_text(out / "diagnosis.json", dumps_json(result, indent=1) + "\n")
+            atomic_write_text(out / "diagnosis.txt", diag.report() + "\n")
+        if args.plot:
+            from ..diagnosis_plot import plot_diagnosis
 
-                folder = out or Path(".")
-                plot_diagnosis(diag, folder / ("diagnosis.png" if out else f"{Path(path).stem}-diagnosis.png"))
-        except TauspecError as exc:
-            if exc.source is None:
-                exc = type(exc)(exc.reason, str(path), exc.line)
-            print(f"tauspec: error: {exc.one_line()}", file=sys.stderr)
-            status = 1
-            continue
-        if args.json:
-            print(dumps_json(result), flush=True)
-        else:
-            print(diag.report(), flush=True)
-    return status
+            folder = out or Path(".")
+            plot_diagnosis(diag, folder / ("diagnosis.png" if out else f"{Path(path).stem}-diagnosis.png"))
+        return result, diag.report()
+
+    return run_each_file(args, work)
