@@ -26,6 +26,8 @@ _EXPORTS = {
     "Spectrum": "spectrum",
     "diagnose": "diagnosis",
     "Diagnosis": "diagnosis",
+    "superpose": "superpose",
+    "MasterCurve": "superpose",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]
