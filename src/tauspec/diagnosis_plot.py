@@ -61,7 +61,7 @@ def plot_diagnosis(diag, path: str | os.PathLike[str]) -> None:
     if sp is not None:
         tau = np.asarray(sp.tau)
         H = np.asarray(sp.H)
-        pos = H > 0
+        pos = H > 1e-4 * max(float(H.max()), 1e-300)  # hide the numerically zero tail
         ax.loglog(tau[pos], H[pos], "-", label="H(τ)")
         lo, hi = sp.window
         if lo < hi:
