@@ -122,6 +122,18 @@ def test_log_normal_spectra_are_not_rouse(seed):
     assert d.verdict not in ("rouse", "zimm")
 
 
+def test_network_with_an_equilibrium_modulus_is_a_gel():
+    # A post-gel solid: G' = G_e + Rouse chain (Winter & Chambon 1986: G_e > 0 beyond the gel point).
+    rng = np.random.default_rng(5)
+    w = np.geomspace(0.01, 300, 40)
+    gp, gpp = rouse_moduli(w, 100.0, 1.0, 40, eta_s=0.1)
+    sw = Sweep(omega=w, storage=(gp + 300.0) * (1 + 0.02 * rng.standard_normal(40)),
+               loss=gpp * (1 + 0.02 * rng.standard_normal(40)), name="solid")
+    d = _run(sw)
+    assert d.verdict == "gel"
+    assert d.evidence_by_name()["equilibrium_modulus"].passed is False
+
+
 def test_rouse_sweep_without_its_terminal_zone_is_inconclusive():
     # Only the ω^(1/2) region: indistinguishable from a critical gel with n = 1/2 (Winter & Chambon 1986).
     rng = np.random.default_rng(7)
@@ -205,3 +217,19 @@ def test_statement_is_one_plain_sentence(rouse_results):
     for _, _, d in rouse_results[:2]:
         assert d.statement.count(". ") == 0 and d.statement.endswith(".")
         assert not math.isnan(d.tau_R)
+
+
+@pytest.mark.slow
+def test_verdicts_on_many_unseen_sweeps():
+    # A wider statistical check over fresh seeds (generators as above, Jacobian intervals for speed):
+    # Rouse → rouse in at least 9 of 10, Zimm θ and good solvent → zimm in at least 5 of 6, and never rouse
+    # for gels, Maxwell modes and log-normal spectra.
+    rouse = [diagnose(rouse_sweep(s)[0], use_spectrum=False, intervals=False).verdict for s in range(300, 310)]
+    assert rouse.count("rouse") >= 9, rouse
+    zimm = [diagnose(zimm_sweep(s, nu)[0], use_spectrum=False, intervals=False).verdict
+            for s, nu in zip(range(310, 316), [0.5, 0.588] * 3)]
+    assert zimm.count("zimm") >= 5, zimm
+    others = [gel_sweep(320, 0.5)[0], gel_sweep(321, 0.42)[0], maxwell_sweep(322)[0], lognormal_sweep(323)[0],
+              lognormal_sweep(324)[0], bsw_sweep(325)[0]]
+    verdicts = [diagnose(sw, use_spectrum=False, intervals=False).verdict for sw in others]
+    assert "rouse" not in verdicts, verdicts
