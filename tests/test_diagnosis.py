@@ -233,3 +233,24 @@ def test_verdicts_on_many_unseen_sweeps():
               lognormal_sweep(324)[0], bsw_sweep(325)[0]]
     verdicts = [diagnose(sw, use_spectrum=False, intervals=False).verdict for sw in others]
     assert "rouse" not in verdicts, verdicts
+
+
+def test_degenerate_sweeps_get_a_verdict_not_an_exception():
+    # Data no model describes: random numbers, a Newtonian liquid, an elastic solid (a sliver of a window is
+    # test_narrow_window...).  Each must come back with a verdict, finite-or-null JSON and no warning.
+    rng = np.random.default_rng(0)
+    w = np.geomspace(1e-3, 1e3, 30)
+    cases = {
+        "random": Sweep(omega=w, storage=10 ** rng.uniform(0, 3, 30), loss=10 ** rng.uniform(0, 3, 30)),
+        "newtonian": Sweep(omega=w, storage=1e-9 * w**2, loss=1e3 * w),
+        "solid": Sweep(omega=w, storage=1e5 * np.ones(30), loss=1e2 * np.ones(30)),
+    }
+    verdicts = {}
+    for name, sw in cases.items():
+        d = _run(sw)
+        json.loads(dumps_json(d.to_dict()))
+        assert d.report()
+        verdicts[name] = d.verdict
+    assert verdicts["newtonian"] == "inconclusive"
+    assert verdicts["solid"] == "gel"
+    assert "rouse" not in verdicts.values()

@@ -454,12 +454,15 @@ def jacobian_intervals(fit: BeadSpringFit, omega: np.ndarray, storage: np.ndarra
     se = _jacobian_se(prob, fit)
     z = float(stats.norm.ppf(0.5 + level / 2))
     a_ci = (fit.a - z * se["a"], fit.a + z * se["a"]) if a_fixed is None else (fit.a, fit.a)
-    return dataclasses.replace(
-        fit,
-        tau1_ci=(fit.tau1 * math.exp(-z * se["lntau"]), fit.tau1 * math.exp(z * se["lntau"])),
-        G0_ci=(fit.G0 * math.exp(-z * se["lnG0"]), fit.G0 * math.exp(z * se["lnG0"])),
-        a_ci=a_ci, ci_method="jacobian",
-    )
+    return dataclasses.replace(fit, tau1_ci=_log_interval(fit.tau1, z * se["lntau"]),
+                               G0_ci=_log_interval(fit.G0, z * se["lnG0"]), a_ci=a_ci, ci_method="jacobian")
+
+
+def _log_interval(x: float, half_width: float) -> tuple[float, float]:
+    """(x e^(−h), x e^(h)); an undetermined parameter (h huge or not finite) gets (0, ∞)."""
+    if not math.isfinite(half_width) or half_width > 700:
+        return 0.0, math.inf
+    return x * math.exp(-half_width), x * math.exp(half_width)
 
 
 def _profile_side(f, x_hat: float, step: float, direction: int, limit: float, max_steps: int = 14):
