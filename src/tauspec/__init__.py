@@ -24,6 +24,8 @@ _EXPORTS = {
     "DroppedPointsWarning": "errors",
     "invert": "spectrum",
     "Spectrum": "spectrum",
+    "superpose": "superpose",
+    "MasterCurve": "superpose",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]
