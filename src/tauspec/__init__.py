@@ -26,6 +26,8 @@ _EXPORTS = {
     "Spectrum": "spectrum",
     "superpose": "superpose",
     "MasterCurve": "superpose",
+    "compare": "compare",
+    "Comparison": "compare",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

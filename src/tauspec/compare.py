@@ -33,6 +33,8 @@ import dataclasses
 import importlib
 import itertools
 import math
+import sys
+import types
 import warnings
 import zlib
 from collections.abc import Mapping, Sequence
@@ -61,6 +63,9 @@ __all__ = [
     "characteristic_modulus",
     "fit_power_law",
     "series_scaling",
+    "plot_overlay",
+    "overlay_figure",
+    "save_overlay",
     "SCHEMA",
     "LEVEL",
 ]
@@ -177,6 +182,11 @@ class SampleUncertainty:
     noise: float
     source: str
     dropped: int = 0
+
+    @property
+    def floor_level(self) -> float:
+        """ℓ = ln 2ε: below it H is under ε."""
+        return math.log(2 * self.floor)
 
 
 def noise_level(spectrum: Spectrum) -> float:
@@ -324,42 +334,34 @@ class ShiftFit:
     overlap: tuple[float, float]
 
 
-def _objective(alpha: float, uA, lA, vA, uB, lB, vB, need: float):
-    lo = max(uA[0] + alpha, uB[0])
-    hi = min(uA[-1] + alpha, uB[-1])
-    tol = 1e-9
-    if hi - lo < need - tol:
-        return None
-    m = (uB >= lo - tol) & (uB <= hi + tol)
-    if int(m.sum()) < 3:
-        return None
-    x = uB[m] - alpha
-    r = lB[m] - np.interp(x, uA, lA)
-    w = 1.0 / (vB[m] + np.interp(x, uA, vA))
-    beta = float(np.sum(w * r) / np.sum(w))
-    e = r - beta
-    return float(np.mean(w * e * e)), beta, float(np.sqrt(np.mean(e * e))), int(m.sum()), (lo, hi)
+def _residuals(alphas: np.ndarray, uA, lA, vA, uB, lB, vB, need: float, floors: tuple[float, float]):
+    """For each α: D², β, the unweighted rms, the number of points and the overlap (lo, hi) in u.
 
-
-def _grid_objective(alphas: np.ndarray, uA, lA, vA, uB, lB, vB, need: float) -> np.ndarray:
-    """D²(α) of :func:`_objective` for many α at once (NaN where the overlap is too small)."""
+    D² is NaN where the overlap is shorter than ``need`` or has fewer than 3 informative points.  Points
+    where both ℓ values lie at their floor (H below ε in both spectra) carry no shape and are left out.
+    """
     tol = 1e-9
     lo = np.maximum(uA[0] + alphas, uB[0])
     hi = np.minimum(uA[-1] + alphas, uB[-1])
     x = uB[None, :] - alphas[:, None]
+    lA_x = np.interp(x.ravel(), uA, lA).reshape(x.shape)
     m = (uB[None, :] >= lo[:, None] - tol) & (uB[None, :] <= hi[:, None] + tol)
-    r = lB[None, :] - np.interp(x.ravel(), uA, lA).reshape(x.shape)
+    m &= ~((lB[None, :] <= floors[1]) & (lA_x <= floors[0]))
+    r = lB[None, :] - lA_x
     w = np.where(m, 1.0 / (vB[None, :] + np.interp(x.ravel(), uA, vA).reshape(x.shape)), 0.0)
     cnt = m.sum(axis=1)
-    sw = w.sum(axis=1)
     with np.errstate(invalid="ignore", divide="ignore"):
-        beta = (w * r).sum(axis=1) / sw
-        d2 = (w * (r - beta[:, None]) ** 2).sum(axis=1) / cnt
-    return np.where((hi - lo >= need - tol) & (cnt >= 3), d2, np.nan)
+        beta = (w * r).sum(axis=1) / w.sum(axis=1)
+        e = np.where(m, r - beta[:, None], 0.0)
+        d2 = (w * e * e).sum(axis=1) / cnt
+        rms = np.sqrt((e * e).sum(axis=1) / cnt)
+    d2 = np.where((hi - lo >= need - tol) & (cnt >= 3), d2, np.nan)
+    return d2, beta, rms, cnt, lo, hi
 
 
 def fit_shift(uA: np.ndarray, lA: np.ndarray, sA: np.ndarray, uB: np.ndarray, lB: np.ndarray, sB: np.ndarray,
-              *, min_overlap: float = MIN_OVERLAP) -> ShiftFit | None:
+              *, min_overlap: float = MIN_OVERLAP,
+              floors: tuple[float, float] | None = None) -> ShiftFit | None:
     """Fit ℓ_B(u) ≈ ln b + ℓ_A(u − ln a) by weighted least squares on the overlap.
 
     With u = ln τ and ℓ = ln(H + ε) on each sample's window, for a trial α = ln a the residuals
@@ -370,7 +372,8 @@ def fit_shift(uA: np.ndarray, lA: np.ndarray, sA: np.ndarray, uB: np.ndarray, lB
         D²(α) = (1/n) Σ w_i (r_i − β)²
 
     is minimized over α by a grid search (a fifth of the grid spacing) refined by Brent's method.  Shifts
-    that leave less than ``min_overlap`` of the narrower window overlapping are not considered.
+    that leave less than ``min_overlap`` of the narrower window overlapping are not considered.  ``floors``
+    (ℓ_A, ℓ_B thresholds, ln 2ε of each) leave out the points where both spectra lie below their ε.
 
     Returns
     -------
@@ -378,6 +381,7 @@ def fit_shift(uA: np.ndarray, lA: np.ndarray, sA: np.ndarray, uB: np.ndarray, lB
         None when no shift gives enough overlap.
     """
     vA, vB = np.asarray(sA) ** 2, np.asarray(sB) ** 2
+    floors = (-math.inf, -math.inf) if floors is None else floors
     need = min_overlap * min(uA[-1] - uA[0], uB[-1] - uB[0])
     a_lo = uB[0] - uA[-1] + need
     a_hi = uB[-1] - uA[0] - need
@@ -385,28 +389,25 @@ def fit_shift(uA: np.ndarray, lA: np.ndarray, sA: np.ndarray, uB: np.ndarray, lB
         return None
     du = min(float(np.min(np.diff(uA))), float(np.min(np.diff(uB)))) / 5
     alphas = np.linspace(a_lo, a_hi, max(int(math.ceil((a_hi - a_lo) / du)) + 1, 2))
-    d2 = _grid_objective(alphas, uA, lA, vA, uB, lB, vB, need)
+    d2 = _residuals(alphas, uA, lA, vA, uB, lB, vB, need, floors)[0]
     if not np.any(np.isfinite(d2)):
         return None
-    k = int(np.nanargmin(d2))
-    best_alpha = float(alphas[k])
-    best = _objective(best_alpha, uA, lA, vA, uB, lB, vB, need)
-    if best is None:
-        return None
+    best_alpha = float(alphas[int(np.nanargmin(d2))])
+    best_d2 = float(np.nanmin(d2))
 
     def f(alpha: float) -> float:
-        out = _objective(alpha, uA, lA, vA, uB, lB, vB, need)
-        return math.inf if out is None else out[0]
+        v = float(_residuals(np.array([alpha]), uA, lA, vA, uB, lB, vB, need, floors)[0][0])
+        return v if math.isfinite(v) else math.inf
 
     step = float(alphas[1] - alphas[0]) if len(alphas) > 1 else du
     res = optimize.minimize_scalar(f, bounds=(max(best_alpha - step, a_lo), min(best_alpha + step, a_hi)),
                                    method="bounded", options={"xatol": 1e-6})
-    if res.success and math.isfinite(res.fun) and res.fun < best[0]:
+    if res.success and math.isfinite(res.fun) and res.fun < best_d2:
         best_alpha = float(res.x)
-        best = _objective(best_alpha, uA, lA, vA, uB, lB, vB, need)
-    d2, beta, rms, n, overlap = best
-    return ShiftFit(log_a=best_alpha, log_b=beta, distance2=d2, rms=rms, n=n,
-                    overlap=(math.exp(overlap[0]), math.exp(overlap[1])))
+    d2, beta, rms, cnt, lo, hi = (float(v[0]) for v in
+                                  _residuals(np.array([best_alpha]), uA, lA, vA, uB, lB, vB, need, floors))
+    return ShiftFit(log_a=best_alpha, log_b=beta, distance2=d2, rms=rms, n=int(cnt),
+                    overlap=(math.exp(lo), math.exp(hi)))
 
 
 def _null_distances(unc: SampleUncertainty, min_overlap: float) -> np.ndarray:
@@ -428,7 +429,8 @@ def _null_distances(unc: SampleUncertainty, min_overlap: float) -> np.ndarray:
             rest = np.delete(reps, [i, j], axis=0)
             sigmas[i, j] = np.sqrt(_spread(rest) + unc.noise**2)
     for (i, j), sig in sigmas.items():
-        fit = fit_shift(unc.u, reps[i], sig, unc.u, reps[j], sig, min_overlap=min_overlap)
+        fit = fit_shift(unc.u, reps[i], sig, unc.u, reps[j], sig, min_overlap=min_overlap,
+                        floors=(unc.floor_level, unc.floor_level))
         if fit is not None:
             out.append(fit.distance2)
     return np.array(out)
@@ -609,7 +611,8 @@ def _interval(center: float, values: np.ndarray) -> tuple[float, float]:
 
 def _compare_pair(name_a: str, name_b: str, ua: SampleUncertainty, ub: SampleUncertainty, null: np.ndarray,
                   level: float, min_overlap: float) -> PairComparison:
-    fit = fit_shift(ua.u, ua.ell, ua.sigma, ub.u, ub.ell, ub.sigma, min_overlap=min_overlap)
+    floors = (ua.floor_level, ub.floor_level)
+    fit = fit_shift(ua.u, ua.ell, ua.sigma, ub.u, ub.ell, ub.sigma, min_overlap=min_overlap, floors=floors)
     nan2 = (math.nan, math.nan)
     if fit is None:
         return PairComparison(a=name_a, b=name_b, time_shift=math.nan, time_shift_ci=nan2, modulus_shift=math.nan,
@@ -620,7 +623,8 @@ def _compare_pair(name_a: str, name_b: str, ua: SampleUncertainty, ub: SampleUnc
     R = min(len(ua.replicates), len(ub.replicates))
     la, lb = [], []
     for i in range(R):
-        f = fit_shift(ua.u, ua.replicates[i], ua.sigma, ub.u, ub.replicates[i], ub.sigma, min_overlap=min_overlap)
+        f = fit_shift(ua.u, ua.replicates[i], ua.sigma, ub.u, ub.replicates[i], ub.sigma, min_overlap=min_overlap,
+                      floors=floors)
         if f is not None:
             la.append(f.log_a)
             lb.append(f.log_b)
@@ -930,3 +934,79 @@ def compare(
     return Comparison(samples=tuple(samples), pairs=tuple(pairs), ranking=ranking,
                       reference=names[ref] if ref is not None else None, series=series, settings=settings,
                       spectra=tuple(spectra), notes=tuple(notes))
+
+
+# ----------------------------------------------------------------------------------------- figures
+def _shift_to_first(comparison: Comparison) -> list[tuple[float, float]]:
+    """(a, b) mapping each sample onto the reference (or the first sample): H_ref(τ) ≈ H_k(aτ)/b."""
+    names = [s["label"] for s in comparison.samples]
+    ref = names.index(comparison.reference) if comparison.reference else 0
+    shifts = [(1.0, 1.0)] * len(names)
+    for p in comparison.pairs:
+        i, j = names.index(p.a), names.index(p.b)
+        if i == ref:
+            shifts[j] = (p.time_shift, p.modulus_shift)
+        elif j == ref:
+            shifts[i] = (1.0 / p.time_shift, 1.0 / p.modulus_shift)
+    return shifts
+
+
+def plot_overlay(comparison: Comparison, ax: Any = None, *, shifted: bool = False) -> Any:
+    """Draw every spectrum of a comparison in its own supported window, raw or shifted onto the reference.
+
+    Shifted: sample k is drawn as H_k(τ)/b against τ/a, with (a, b) its shifts from the reference (or the
+    first sample), so that spectra of the same shape fall on one curve.
+    """
+    from .plots import new_axes
+
+    if ax is None:
+        _, ax = new_axes()
+    shifts = _shift_to_first(comparison)
+    for k, (s, sp) in enumerate(zip(comparison.samples, comparison.spectra)):
+        m = sp.in_window & (np.asarray(sp.H) > 0)
+        a, b = shifts[k] if shifted else (1.0, 1.0)
+        if not (math.isfinite(a) and math.isfinite(b)):
+            continue
+        ax.loglog(np.asarray(sp.tau)[m] / a, np.asarray(sp.H)[m] / b, "-", color=f"C{k % 10}", label=s["label"])
+    ref = comparison.reference or comparison.samples[0]["label"]
+    ax.set_xlabel("τ / a [s]" if shifted else "relaxation time τ [s]")
+    ax.set_ylabel("H(τ) / b [Pa]" if shifted else "H(τ) [Pa]")
+    ax.set_title(f"shifted onto {ref}" if shifted else "as measured (each in its window)", fontsize=8)
+    ax.legend(frameon=False)
+    return ax
+
+
+def overlay_figure(comparison: Comparison) -> Any:
+    """Return a figure with the raw overlay (left) beside the shifted one (right)."""
+    import matplotlib as mpl
+    from matplotlib.figure import Figure
+
+    from .plots import COLUMN_WIDTH, STYLE
+
+    with mpl.rc_context(STYLE):
+        fig = Figure(figsize=(2 * COLUMN_WIDTH, 2.6), layout="constrained")
+        ax1, ax2 = fig.subplots(1, 2)
+        plot_overlay(comparison, ax1)
+        plot_overlay(comparison, ax2, shifted=True)
+    return fig
+
+
+def save_overlay(comparison: Comparison, folder: Any, prefix: str = "", formats: tuple[str, ...] = ("png",)) -> list:
+    """Write the overlay figure ``<prefix>overlay.<fmt>`` into ``folder``; return the paths."""
+    from pathlib import Path
+
+    from .plots import _save
+
+    folder = Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    return _save(overlay_figure(comparison), folder / f"{prefix}overlay", formats)
+
+
+class _CallableModule(types.ModuleType):
+    """Lets ``tauspec.compare(...)`` work whether the name resolves to this module or to :func:`compare`."""
+
+    def __call__(self, *args: Any, **kwargs: Any) -> Comparison:
+        return compare(*args, **kwargs)
+
+
+sys.modules[__name__].__class__ = _CallableModule
