@@ -210,6 +210,32 @@ def test_characteristic_time_and_modulus_match_the_discrete_sums(series):
         assert characteristic_modulus(sp) == pytest.approx(np.sum(g * t) ** 2 / np.sum(g * t**2), rel=0.03)
 
 
+def test_series_uses_the_rouse_diagnosis_when_present(series):
+    # Stand-in diagnoses carrying the Rouse τ_R = 1e-3 M² and G0 = 1e5/M of the generator (Ferry 1980, ch. 9):
+    # with all samples diagnosed rouse the fit uses them (x = 2, z = −1 exactly); with some, both fits are given.
+    Ms, spectra, _ = series
+    diags = [SimpleNamespace(verdict="rouse", tau_R=1e-3 * M**2, G0=1e5 / M) for M in Ms]
+    out = series_scaling(spectra, list(Ms), [1.0] * len(Ms), diagnoses=diags)
+    assert out["time"].measure.startswith("tau_R")
+    assert out["time"].exponents["M"] == pytest.approx(2.0, abs=1e-9)
+    assert out["modulus"].exponents["M"] == pytest.approx(-1.0, abs=1e-9)
+    diags[0] = SimpleNamespace(verdict="other")
+    out = series_scaling(spectra, list(Ms), [1.0] * len(Ms), diagnoses=diags)
+    assert "weight-average" in out["time"].measure and out["time_rouse"].n == len(Ms) - 1
+    assert out["time_rouse"].exponents["M"] == pytest.approx(2.0, abs=1e-9)
+
+
+def test_diagnose_flag_runs_the_diagnosis_or_says_it_is_missing():
+    from tauspec.compare import _diagnose_function
+
+    A, B = shifted_pair(8)
+    c = compare([A, B], replicates=0, diagnose=True)
+    if _diagnose_function() is None:
+        assert any("diagnosis is not available" in n for n in c.notes)
+    else:
+        assert all(s["verdict"] is not None for s in c.samples)
+
+
 def test_power_law_fit_against_scipy_linregress_and_an_exact_law():
     # One variable: slope and its 95 % interval equal scipy.stats.linregress (slope ± t₀.₉₇₅,n−2 · stderr).
     from scipy import stats

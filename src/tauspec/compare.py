@@ -749,45 +749,51 @@ MODULUS_EXPECTED = {
 }
 
 
+def _series_fits(times: Sequence[float], mods: Sequence[float], M: Sequence[float | None],
+                 c: Sequence[float | None], use: Sequence[int], t_measure: str, g_measure: str,
+                 suffix: str = "") -> dict[str, PowerLaw]:
+    out: dict[str, PowerLaw] = {}
+    idx = [i for i in use if M[i] is not None and M[i] > 0]
+    fit = fit_power_law([times[i] for i in idx], {"M": [M[i] for i in idx]}, response="tau", measure=t_measure,
+                        expected=TIME_EXPECTED) if len(idx) >= 2 else None
+    if fit is not None:
+        out["time" + suffix] = fit
+    jdx = [i for i in use if (M[i] is not None or c[i] is not None)
+           and (M[i] is None or M[i] > 0) and (c[i] is None or c[i] > 0)]
+    variables: dict[str, list[float]] = {}
+    for key, values in (("c", c), ("M", M)):
+        if jdx and all(values[i] is not None for i in jdx):
+            variables[key] = [float(values[i]) for i in jdx]
+    fit = fit_power_law([mods[i] for i in jdx], variables, response="G", measure=g_measure,
+                        expected=MODULUS_EXPECTED) if variables else None
+    if fit is not None:
+        out["modulus" + suffix] = fit
+    return out
+
+
 def series_scaling(spectra: Sequence[Spectrum], M: Sequence[float | None], c: Sequence[float | None], *,
                    diagnoses: Sequence[Any] | None = None) -> dict[str, PowerLaw]:
     """Fit τ ∝ M^x and G ∝ c^y M^z over the samples whose M (and c) are known.
 
-    The time is τ_R of the Rouse diagnosis when every sample used is diagnosed ``rouse``, otherwise the
-    weight-average time τ_w of each spectrum (:func:`characteristic_time`); the modulus is G0 of the diagnosis
-    in the first case, otherwise G_w = η0/τ_w (:func:`characteristic_modulus`).  The ``measure`` field of each
-    fit says which.
+    ``time`` and ``modulus`` use τ_R and G0 of the Rouse diagnosis when every sample is diagnosed ``rouse``;
+    otherwise the weight-average time τ_w of each spectrum (:func:`characteristic_time`) and G_w = η0/τ_w
+    (:func:`characteristic_modulus`), and then, when at least two samples are diagnosed ``rouse``, also
+    ``time_rouse`` and ``modulus_rouse`` over those.  The ``measure`` field of each fit says which.
     """
-    out: dict[str, PowerLaw] = {}
-    idx = [i for i, m in enumerate(M) if m is not None and m > 0]
-    all_rouse = bool(diagnoses) and bool(idx) and all(
-        diagnoses[i] is not None and getattr(diagnoses[i], "verdict", None) == "rouse" for i in idx)
-    if all_rouse:
-        times = [float(diagnoses[i].tau_R) for i in range(len(spectra))]
-        mods = [float(diagnoses[i].G0) for i in range(len(spectra))]
-        t_measure, g_measure = "tau_R of the Rouse diagnosis", "G0 of the Rouse diagnosis"
-    else:
-        times = [characteristic_time(s) for s in spectra]
-        mods = [characteristic_modulus(s) for s in spectra]
-        t_measure = "weight-average time tau_w = sum H tau^2 / sum H tau over the window"
-        g_measure = "modulus G_w = (sum H tau)^2 / sum H tau^2 over the window (1/J_e; 2.5 G0 for Rouse chains)"
-    if len(idx) >= 2:
-        fit = fit_power_law([times[i] for i in idx], {"M": [M[i] for i in idx]}, response="tau", measure=t_measure,
-                            expected=TIME_EXPECTED)
-        if fit is not None:
-            out["time"] = fit
-    jdx = [i for i in range(len(spectra)) if (M[i] is None or M[i] > 0) and (c[i] is None or c[i] > 0)
-           and (M[i] is not None or c[i] is not None)]
-    variables: dict[str, list[float]] = {}
-    if jdx and all(c[i] is not None for i in jdx):
-        variables["c"] = [float(c[i]) for i in jdx]
-    if jdx and all(M[i] is not None for i in jdx):
-        variables["M"] = [float(M[i]) for i in jdx]
-    if variables:
-        fit = fit_power_law([mods[i] for i in jdx], variables, response="G", measure=g_measure,
-                            expected=MODULUS_EXPECTED)
-        if fit is not None:
-            out["modulus"] = fit
+    n = len(spectra)
+    rouse = [i for i in range(n) if diagnoses is not None and diagnoses[i] is not None
+             and getattr(diagnoses[i], "verdict", None) == "rouse"]
+    if rouse:
+        r_times = [float(diagnoses[i].tau_R) if i in rouse else math.nan for i in range(n)]
+        r_mods = [float(diagnoses[i].G0) if i in rouse else math.nan for i in range(n)]
+        r_measures = ("tau_R of the Rouse diagnosis", "G0 of the Rouse diagnosis")
+    if len(rouse) == n:
+        return _series_fits(r_times, r_mods, M, c, range(n), *r_measures)
+    out = _series_fits([characteristic_time(s) for s in spectra], [characteristic_modulus(s) for s in spectra],
+                       M, c, range(n), "weight-average time tau_w = sum H tau^2 / sum H tau over the window",
+                       "modulus G_w = (sum H tau)^2 / sum H tau^2 over the window (1/J_e; 2.5 G0 for Rouse chains)")
+    if len(rouse) >= 2:
+        out.update(_series_fits(r_times, r_mods, M, c, rouse, *r_measures, suffix="_rouse"))
     return out
 
 
