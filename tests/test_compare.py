@@ -150,6 +150,22 @@ def test_errors_are_one_line_settings_errors():
         compare([A, sp], replicates=0)
 
 
+def test_a_band_sets_the_weights():
+    # A band (lo, hi) = H·e^(∓1.96 s) read as a 95 % interval gives σ of ln H equal to s where H ≫ ε (normal
+    # quantile 1.96 for 95 %), plus the data noise in quadrature.
+    from tauspec.compare import sample_uncertainty
+
+    sp = invert(shifted_pair(9)[0])
+    s = 0.05
+    band = SimpleNamespace(H_lo=sp.H * math.exp(-1.959963984540054 * s), H_hi=sp.H * math.exp(1.959963984540054 * s),
+                           level=0.95)
+    u = sample_uncertainty(sp, replicates=3, band=band)
+    assert u.source == "band"
+    big = np.exp(u.ell) > 50 * u.floor
+    expected = np.sqrt(s**2 + u.noise**2)
+    assert np.allclose(u.sigma[big], expected, rtol=0.03)
+
+
 # ------------------------------------------------------------------------------------------------ Rouse ratios
 def test_rouse_ratios_from_two_rouse_diagnoses():
     # Ratio of two log-normal estimates: the standard errors of the logs add in quadrature (delta method;

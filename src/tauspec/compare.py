@@ -277,9 +277,9 @@ def sample_uncertainty(spectrum: Spectrum, *, replicates: int = N_REPLICATES, se
     Each replicate is ``invert`` (same settings, same grid) of the fitted moduli multiplied by
     (1 + σ_n ε), ε standard normal, σ_n = :func:`noise_level` (Efron & Tibshirani 1993, ch. 6).  The
     uncertainty of ℓ = ln(H + ε) is the replicate standard deviation, smoothed by a three-point mean of the
-    variance, with σ_n added in quadrature as a floor.  A ``band`` (lo, hi) of H on the grid, read as a 95 %
-    interval, replaces the replicate spread in σ (the replicates are still made: they give the null
-    distribution of the shape distance).
+    variance, with σ_n added in quadrature as a floor.  A ``band`` of H on the grid — a pair (lo, hi) read as a
+    95 % interval, or an object with ``H_lo``, ``H_hi`` and ``level`` — replaces the replicate spread in σ
+    (the replicates are still made: they give the null distribution of the shape distance).
     """
     if replicates < 0:
         raise SettingsError(f"replicates must be 0 or more, not {replicates}")
@@ -307,8 +307,10 @@ def sample_uncertainty(spectrum: Spectrum, *, replicates: int = N_REPLICATES, se
         reps = reps[keep]
     floor_var = noise**2
     if band is not None:
-        lo, hi = (np.asarray(b, dtype=float)[m] for b in band)
-        z = stats.norm.ppf(0.975)
+        level = float(getattr(band, "level", 0.95))
+        pair = (band.H_lo, band.H_hi) if hasattr(band, "H_lo") else band
+        lo, hi = (np.asarray(b, dtype=float)[m] for b in pair)
+        z = stats.norm.ppf(0.5 + level / 2)
         var = ((np.log(hi + floor) - np.log(np.maximum(lo, 0) + floor)) / (2 * z)) ** 2
         source = "band"
     elif len(reps) >= 2:
@@ -846,7 +848,8 @@ def compare(
         Run the bead-spring diagnosis on every sample (when this installation has it) for the Rouse ratios
         and the series; ``diagnoses`` gives them precomputed instead.
     bands : sequence, optional
-        Per sample a (lo, hi) band of H on its grid, read as a 95 % interval, used for the weights.
+        Per sample a band of H on its grid — (lo, hi) read as a 95 % interval, or an object with ``H_lo``,
+        ``H_hi`` and ``level`` — used for the weights (None for a sample without one).
     invert_settings : mapping, optional
         Keyword arguments of :func:`tauspec.spectrum.invert` for sweeps.
     min_overlap : float
