@@ -122,18 +122,23 @@ def spectrum_from_dict(d: Mapping[str, Any], source: str = "<result>") -> Spectr
             v = obj[key]
         except KeyError:
             raise TauspecError(f"spectrum result has no {key!r}", source) from None
-        return math.nan if v is None else float(v)
+        try:
+            return math.nan if v is None else float(v)
+        except (TypeError, ValueError):
+            raise TauspecError(f"spectrum result: {key!r} is not a number", source) from None
 
     lc = d.get("lcurve")
     if not isinstance(lc, Mapping):
         raise TauspecError("spectrum result has no 'lcurve'", source)
     lcurve = LCurve(strength=arr(lc, "lambda"), residual_norm=arr(lc, "residual_norm"),
                     solution_norm=arr(lc, "solution_norm"), curvature=arr(lc, "curvature"), gcv=arr(lc, "gcv"),
-                    index=int(lc.get("index", 0)), note=str(lc.get("note", "")))
+                    index=int(num(lc, "index")) if lc.get("index") is not None else 0, note=str(lc.get("note", "")))
     tau, H = arr(d, "tau"), arr(d, "H")
     omega = arr(d, "omega")
     if len(tau) != len(H) or len(tau) < 2 or np.any(~np.isfinite(tau)) or np.any(tau <= 0):
         raise TauspecError("spectrum result: 'tau' and 'H' must be equal-length lists of positive times", source)
+    if not np.all(np.isfinite(H)):
+        raise TauspecError("spectrum result: 'H' has missing or non-finite values", source)
     window = d.get("window")
     if not (isinstance(window, Sequence) and len(window) == 2):
         raise TauspecError("spectrum result: 'window' must be [tau_lo, tau_hi]", source)
@@ -823,6 +828,7 @@ def compare(
     bands: Sequence[tuple[np.ndarray, np.ndarray] | None] | None = None,
     invert_settings: Mapping[str, Any] | None = None,
     min_overlap: float = MIN_OVERLAP,
+    reselect: bool = False,
 ) -> Comparison:
     """Compare relaxation spectra: shifts, shape distances and their test, ranking and series scaling.
 
@@ -854,6 +860,9 @@ def compare(
         Keyword arguments of :func:`tauspec.spectrum.invert` for sweeps.
     min_overlap : float
         Smallest overlap of the windows after the shift, as a fraction of the narrower window.
+    reselect : bool
+        Re-choose the strength on every replicate (dropping replicates a decade off) instead of keeping each
+        sample's own strength (the default; see docs/compare.md).
 
     Returns
     -------
@@ -914,7 +923,8 @@ def compare(
         raise SettingsError("diagnoses must have one entry per sample")
 
     band_list = list(bands) if bands is not None else [None] * n
-    unc = [sample_uncertainty(s, replicates=replicates, seed=seed, band=b) for s, b in zip(spectra, band_list)]
+    unc = [sample_uncertainty(s, replicates=replicates, seed=seed, band=b, reselect=reselect)
+           for s, b in zip(spectra, band_list)]
     nulls = [_null_distances(u, min_overlap) for u in unc]
     index_pairs = [(ref, j) for j in range(n) if j != ref] if ref is not None else \
         list(itertools.combinations(range(n), 2))
@@ -939,6 +949,7 @@ def compare(
             "tau_R": getattr(d, "tau_R", None), "G0": getattr(d, "G0", None),
         })
     settings = {"replicates": replicates, "level": level, "seed": seed, "min_overlap": min_overlap,
+                "strength": "re-chosen per replicate" if reselect else "fixed at each sample's own",
                 "log_floor": LOG_FLOOR, "ci_level": CI_LEVEL, "mode": "reference" if ref is not None else "all pairs"}
     return Comparison(samples=tuple(samples), pairs=tuple(pairs), ranking=ranking,
                       reference=names[ref] if ref is not None else None, series=series, settings=settings,

@@ -30,6 +30,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     for action in p._actions:
         if action.dest == "files":
             action.help = "sweep files, result.json files or result folders written by 'tauspec invert --out'"
+        elif action.dest == "json":
+            action.help = "print the comparison as one JSON object on stdout, nothing else"
     p.add_argument("--reference", metavar="FILE", default=None,
                    help="compare every sample against this one (one of the FILEs) instead of all pairs")
     p.add_argument("--manifest", metavar="CSV", default=None,
