@@ -82,6 +82,9 @@ N_REPLICATES = 12
 #: ε in ℓ = ln(H + ε) as a fraction of the largest H in the window (our choice; see docs/compare.md).
 LOG_FLOOR = 1e-2
 
+#: Width (standard deviation in ln τ) of the Gaussian that smooths every spectrum before comparison.
+SMOOTH = 0.3
+
 #: Smallest overlap of the two windows after the shift, as a fraction of the narrower window (our choice).
 MIN_OVERLAP = 0.5
 
@@ -153,13 +156,26 @@ def spectrum_from_dict(d: Mapping[str, Any], source: str = "<result>") -> Spectr
 
 
 # ----------------------------------------------------------------------------------------- log spectra
+def _smooth(tau: np.ndarray, H: np.ndarray, width: float | None = None) -> np.ndarray:
+    """H convolved with a normalized Gaussian of standard deviation ``width`` in ln τ (renormalized at the ends)."""
+    width = SMOOTH if width is None else width
+    if not width > 0 or len(tau) < 3:
+        return H
+    du = float(np.log(tau[1] / tau[0]))
+    half = int(math.ceil(4 * width / du))
+    k = np.exp(-0.5 * (np.arange(-half, half + 1) * du / width) ** 2)
+    num = np.convolve(H, k, mode="same")
+    den = np.convolve(np.ones_like(H), k, mode="same")
+    return num / den
+
+
 def _log_spectrum(spectrum: Spectrum, floor: float | None = None) -> tuple[np.ndarray, np.ndarray, float]:
     """Return (u, ℓ, ε): u = ln τ and ℓ = ln(H + ε) on the grid points inside the window."""
     m = spectrum.in_window
     if spectrum.window_empty or int(m.sum()) < 3:
         raise TauspecError("the supported window is empty or has fewer than 3 grid points; nothing to compare",
                            spectrum.source or spectrum.sample)
-    H = np.asarray(spectrum.H)[m]
+    H = _smooth(np.asarray(spectrum.tau), np.asarray(spectrum.H))[m]
     if floor is None:
         top = float(np.max(H))
         if not top > 0:
@@ -276,7 +292,7 @@ def _spread(reps: np.ndarray) -> np.ndarray:
 
 def sample_uncertainty(spectrum: Spectrum, *, replicates: int = N_REPLICATES, seed: int = 0,
                        band: tuple[np.ndarray, np.ndarray] | None = None,
-                       reselect: bool = False) -> SampleUncertainty:
+                       reselect: bool = True) -> SampleUncertainty:
     """Replicate spectra of one sample by parametric resampling.
 
     Each replicate is ``invert`` (same settings, same grid) of the fitted moduli multiplied by
@@ -302,7 +318,7 @@ def sample_uncertainty(spectrum: Spectrum, *, replicates: int = N_REPLICATES, se
         f_l = np.maximum(1.0 + noise * rng.standard_normal(len(spectrum.omega)), 1e-3)
         sw = _sweep_of(spectrum, spectrum.storage_fit * f_s, spectrum.loss_fit * f_l)
         H, lams[i] = _replicate_H(sw, settings)
-        reps[i] = np.log(H[m] + floor)
+        reps[i] = np.log(_smooth(np.asarray(spectrum.tau), H)[m] + floor)
     dropped = 0
     if reselect and replicates >= 3:
         # A replicate whose strength is more than a decade from the median of the replicates took another
@@ -828,7 +844,7 @@ def compare(
     bands: Sequence[tuple[np.ndarray, np.ndarray] | None] | None = None,
     invert_settings: Mapping[str, Any] | None = None,
     min_overlap: float = MIN_OVERLAP,
-    reselect: bool = False,
+    reselect: bool = True,
 ) -> Comparison:
     """Compare relaxation spectra: shifts, shape distances and their test, ranking and series scaling.
 
@@ -861,8 +877,9 @@ def compare(
     min_overlap : float
         Smallest overlap of the windows after the shift, as a fraction of the narrower window.
     reselect : bool
-        Re-choose the strength on every replicate (dropping replicates a decade off) instead of keeping each
-        sample's own strength (the default; see docs/compare.md).
+        Re-choose the strength on every replicate by the sample's own rule (the default), dropping replicates
+        whose strength lies a decade from the replicates' median; False keeps each sample's own strength
+        (see docs/compare.md).
 
     Returns
     -------

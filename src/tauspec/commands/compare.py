@@ -41,6 +41,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="replicate spectra per sample for the shape test and the intervals (default 12; 0: none)")
     p.add_argument("--level", type=float, default=None, help="level of the shape test (default 0.05)")
     p.add_argument("--seed", type=int, default=0, help="seed of the resampling (default 0)")
+    p.add_argument("--fixed-strength", action="store_true",
+                   help="keep each sample's own strength λ in its replicates instead of re-choosing it (faster)")
     p.add_argument("--diagnose", action="store_true",
                    help="run the bead-spring diagnosis for Rouse parameter ratios and τ_R in the series")
 
@@ -159,7 +161,8 @@ def run(args: argparse.Namespace) -> int:
         reference = matches[0]
     result = compare(spectra, labels=labels, reference=reference, metadata=metadata,
                      replicates=N_REPLICATES if args.replicates is None else args.replicates,
-                     level=LEVEL if args.level is None else args.level, seed=args.seed, diagnose=args.diagnose)
+                     level=LEVEL if args.level is None else args.level, seed=args.seed, diagnose=args.diagnose,
+                     reselect=not args.fixed_strength)
     data = result.to_dict()
     if args.out is not None:
         out = Path(args.out)
