@@ -83,6 +83,18 @@ def test_shifted_copy_same_shape_in_90_percent_of_noise_seeds():
     assert sum(results) >= 18, results
 
 
+def test_a_shift_beyond_the_admissible_overlap_is_flagged():
+    # ℓ_B is ℓ_A shifted by 4 in u on windows 6 wide: a shift of 4 would leave 2 < 3 (half the window) overlapping,
+    # so the best admissible shift is the edge, α = 3, and the fit says it is at the edge (a parabola in ln H, the
+    # log of a log-normal spectrum, REFERENCES.md).
+    u = np.linspace(0.0, 6.0, 61)
+    fit = fit_shift(u, -((u - 3.0) ** 2), np.full(61, 0.05), u, -((u - 7.0) ** 2), np.full(61, 0.05))
+    assert fit.log_a == pytest.approx(3.0, abs=0.03)
+    assert fit.at_edge
+    inside = fit_shift(u, -((u - 3.0) ** 2), np.full(61, 0.05), u, -((u - 4.0) ** 2), np.full(61, 0.05))
+    assert inside.log_a == pytest.approx(1.0, abs=1e-4) and not inside.at_edge
+
+
 def test_rouse_against_bsw_entangled_is_a_different_shape():
     # Rouse chain (Rouse 1953) against a BSW-form entangled spectrum (Baumgaertel, Schausberger & Winter 1990).
     gp, gpp = rouse_moduli(W60, 1e3, 1.0, 30)

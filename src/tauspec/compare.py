@@ -355,6 +355,7 @@ class ShiftFit:
     rms: float
     n: int
     overlap: tuple[float, float]
+    at_edge: bool = False
 
 
 def _residuals(alphas: np.ndarray, uA, lA, vA, uB, lB, vB, need: float, floors: tuple[float, float]):
@@ -429,8 +430,9 @@ def fit_shift(uA: np.ndarray, lA: np.ndarray, sA: np.ndarray, uB: np.ndarray, lB
         best_alpha = float(res.x)
     d2, beta, rms, cnt, lo, hi = (float(v[0]) for v in
                                   _residuals(np.array([best_alpha]), uA, lA, vA, uB, lB, vB, need, floors))
+    edge = min(best_alpha - a_lo, a_hi - best_alpha) <= step / 2
     return ShiftFit(log_a=best_alpha, log_b=beta, distance2=d2, rms=rms, n=int(cnt),
-                    overlap=(math.exp(lo), math.exp(hi)))
+                    overlap=(math.exp(lo), math.exp(hi)), at_edge=bool(edge))
 
 
 def _null_distances(unc: SampleUncertainty, min_overlap: float) -> np.ndarray:
@@ -661,6 +663,10 @@ def _compare_pair(name_a: str, name_b: str, ua: SampleUncertainty, ub: SampleUnc
         p = p_emp = math.nan
         same = None
         notes.append("too few replicates for the shape test (need at least 3 replicate pairs)")
+    if fit.at_edge:
+        notes.append(f"the best shift lies at the edge of the admissible range (overlap down to {min_overlap:.0%} of "
+                     "the narrower window): either the shapes differ, or the samples are too far apart in τ for these "
+                     "windows; a and b are not reliable, and the shape test only covers the shifts allowed")
     return PairComparison(
         a=name_a, b=name_b,
         time_shift=math.exp(fit.log_a), time_shift_ci=_interval(fit.log_a, np.array(la)),
