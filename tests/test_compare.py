@@ -360,6 +360,30 @@ def test_cli_manifest_and_reference(tmp_path, capsys):
     assert d["samples"][0]["T"] == pytest.approx(298.15)
 
 
+def test_cli_reads_batch_results_with_their_stored_diagnosis(tmp_path, capsys):
+    # A batch result folder wraps the spectrum and its diagnosis ({"schema": "tauspec.batch/1", "status": ...,
+    # "spectrum": {...}, "diagnosis": {...}}); the stored Rouse parameters give the ratios without re-diagnosing.
+    A, B = shifted_pair(12)
+    for name, sw, tau_R, G0 in (("a", A, 1.0, 100.0), ("b", B, 3.0, 250.0)):
+        (tmp_path / name).mkdir()
+        result = {"schema": "tauspec.batch/1", "file": f"{name}.csv", "status": "ok", "error": None,
+                  "spectrum": invert(sw).to_dict(),
+                  "diagnosis": {"verdict": "rouse", "tau_R": tau_R, "tau_R_ci": [0.9 * tau_R, 1.1 * tau_R], "G0": G0,
+                                "G0_ci": [0.9 * G0, 1.1 * G0]}}
+        (tmp_path / name / "result.json").write_text(json.dumps(result))
+    assert main(["compare", str(tmp_path / "a"), str(tmp_path / "b"), "--json", "--replicates", "0"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    assert d["pairs"][0]["rouse"]["tau_R_ratio"] == pytest.approx(3.0)
+    assert d["pairs"][0]["rouse"]["G0_ratio"] == pytest.approx(2.5)
+    assert [s["verdict"] for s in d["samples"]] == ["rouse", "rouse"]
+    (tmp_path / "c").mkdir()
+    (tmp_path / "c" / "result.json").write_text(json.dumps({"schema": "tauspec.batch/1", "status": "failed",
+                                                            "error": "row 4 has 2 values"}))
+    assert main(["compare", str(tmp_path / "a"), str(tmp_path / "c"), "--replicates", "0"]) == 1
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "holds no spectrum (status 'failed': row 4 has 2 values)" in err[0]
+
+
 @pytest.mark.parametrize("args, message", [
     (["nofolder/"], "no such file"),
     (["EMPTY"], "folder has no result.json"),

@@ -59,6 +59,7 @@ __all__ = [
     "ShiftFit",
     "sample_uncertainty",
     "spectrum_from_dict",
+    "diagnosis_from_dict",
     "characteristic_time",
     "characteristic_modulus",
     "fit_power_law",
@@ -108,6 +109,11 @@ def spectrum_from_dict(d: Mapping[str, Any], source: str = "<result>") -> Spectr
     """
     if not isinstance(d, Mapping):
         raise TauspecError("not a spectrum result (expected a JSON object)", source)
+    if d.get("schema") != SPECTRUM_SCHEMA and "status" in d:  # a batch result folder wraps the spectrum
+        if not isinstance(d.get("spectrum"), Mapping):
+            raise TauspecError(f"the stored result holds no spectrum (status {d.get('status')!r}"
+                               + (f": {d['error']}" if d.get("error") else "") + ")", source)
+        d = d["spectrum"]
     schema = d.get("schema")
     if schema != SPECTRUM_SCHEMA:
         raise TauspecError(f"not a spectrum result (schema {schema!r}, expected {SPECTRUM_SCHEMA!r})", source)
@@ -153,6 +159,30 @@ def spectrum_from_dict(d: Mapping[str, Any], source: str = "<result>") -> Spectr
         sample=str(d.get("sample", "sample")), source=str(d.get("source", source)),
         meta=dict(d.get("meta") or {}), warnings=tuple(d.get("warnings") or ()), settings=dict(d.get("settings") or {}),
     )
+
+
+def diagnosis_from_dict(d: Mapping[str, Any]) -> Any:
+    """The stored bead-spring diagnosis of a result (``result["diagnosis"]``) as an object, or None.
+
+    Only the fields the comparison uses are kept: ``verdict``, ``tau_R``, ``tau_R_ci``, ``G0``, ``G0_ci``.
+    """
+    diag = d.get("diagnosis") if isinstance(d, Mapping) else None
+    if not isinstance(diag, Mapping) or "verdict" not in diag:
+        return None
+
+    def value(key: str) -> float:
+        v = diag.get(key)
+        return math.nan if v is None else float(v)
+
+    def interval(key: str) -> tuple[float, float]:
+        ci = diag.get(key) or [None, None]
+        return tuple(math.nan if v is None else float(v) for v in ci[:2])
+
+    try:
+        return types.SimpleNamespace(verdict=str(diag["verdict"]), tau_R=value("tau_R"), tau_R_ci=interval("tau_R_ci"),
+                                     G0=value("G0"), G0_ci=interval("G0_ci"))
+    except (TypeError, ValueError):
+        return None
 
 
 # ----------------------------------------------------------------------------------------- log spectra

@@ -47,9 +47,13 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="run the bead-spring diagnosis for Rouse parameter ratios and τ_R in the series")
 
 
-def load_result(path: str, settings: dict[str, Any]) -> Any:
-    """Return a Spectrum from a sweep file (inverted), a result.json, or a folder that holds one."""
-    from ..compare import spectrum_from_dict
+def load_result(path: str, settings: dict[str, Any]) -> tuple[Any, Any]:
+    """Return (Spectrum, stored diagnosis or None) from a sweep file (inverted), a result.json, or its folder.
+
+    A result.json is either a spectrum (``tauspec invert --out``) or a batch result wrapping one (with its
+    diagnosis, when the batch made one).
+    """
+    from ..compare import diagnosis_from_dict, spectrum_from_dict
     from ..spectrum import invert
 
     p = Path(path)
@@ -66,8 +70,8 @@ def load_result(path: str, settings: dict[str, Any]) -> Any:
             raise TauspecError(f"cannot read ({exc})", str(p)) from None
         except json.JSONDecodeError as exc:
             raise TauspecError(f"not valid JSON ({exc.msg})", str(p), exc.lineno) from None
-        return spectrum_from_dict(data, str(p))
-    return invert(read_sweep(path), **settings)
+        return spectrum_from_dict(data, str(p)), diagnosis_from_dict(data)
+    return invert(read_sweep(path), **settings), None
 
 
 def _number(text: str, what: str, source: str, line: int) -> float | None:
@@ -138,14 +142,18 @@ def run(args: argparse.Namespace) -> int:
     if len(files) < 2:
         raise SettingsError("compare needs at least two files")
     settings = invert_command.invert_settings(args)
-    spectra = []
+    spectra, stored = [], []
     for f in files:
         try:
-            spectra.append(load_result(f, settings))
+            spectrum, diagnosis = load_result(f, settings)
         except TauspecError as exc:
             if exc.source is None:
                 exc = type(exc)(exc.reason, f, exc.line)
             raise exc from None
+        spectra.append(spectrum)
+        stored.append(diagnosis)
+    # stored diagnoses (batch results) are used unless --diagnose asks for fresh ones
+    diagnoses = stored if any(d is not None for d in stored) and not args.diagnose else None
     manifest = read_manifest(args.manifest) if args.manifest else {}
     entries = [_manifest_entry(manifest, f) for f in files]
     metadata = [{k: e.get(k) for k in ("M", "c", "T")} for e in entries]
@@ -162,6 +170,7 @@ def run(args: argparse.Namespace) -> int:
     result = compare(spectra, labels=labels, reference=reference, metadata=metadata,
                      replicates=N_REPLICATES if args.replicates is None else args.replicates,
                      level=LEVEL if args.level is None else args.level, seed=args.seed, diagnose=args.diagnose,
+                     diagnoses=diagnoses,
                      reselect=not args.fixed_strength)
     data = result.to_dict()
     if args.out is not None:
