@@ -28,6 +28,8 @@ _EXPORTS = {
     "Diagnosis": "diagnosis",
     "superpose": "superpose",
     "MasterCurve": "superpose",
+    "compare": "compare",
+    "Comparison": "compare",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]
