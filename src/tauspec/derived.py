@@ -95,6 +95,14 @@ class _Set:
         keep = ~self.outside
         return dataclasses.replace(self, g=self.g[keep], tau=self.tau[keep])
 
+    def without(self, side: str) -> _Set:
+        """The set without the part beyond the window on one side ("long" or "short" times)."""
+        if self.window is None:
+            return self
+        lo, hi = self.window
+        drop = self.tau > max(hi, lo) if side == "long" else self.tau < min(lo, hi)
+        return dataclasses.replace(self, g=self.g[~drop], tau=self.tau[~drop])
+
 
 def _as_set(obj: Any) -> _Set:
     """Turn Modes (``g``, ``tau``) or a Spectrum-like object (``tau``, ``H``) into a discrete set."""
@@ -106,7 +114,7 @@ def _as_set(obj: Any) -> _Set:
         kind = "modes"
     elif hasattr(obj, "H") and hasattr(obj, "tau"):
         tau = np.asarray(obj.tau, dtype=float)
-        g = np.asarray(obj.H, dtype=float) * quadrature_weights(tau)
+        g = np.asarray(obj.H, dtype=float)
         kind = "spectrum"
     else:
         raise SettingsError("expected Maxwell modes (g, tau) or a spectrum (tau, H)")
@@ -114,6 +122,10 @@ def _as_set(obj: Any) -> _Set:
         raise SettingsError(f"{kind}: strengths and relaxation times differ in shape")
     if not (np.all(np.isfinite(g)) and np.all(np.isfinite(tau)) and np.all(tau > 0)):
         raise SettingsError(f"{kind}: relaxation times must be positive and all values finite")
+    if kind == "spectrum":
+        if tau.size > 1 and np.any(np.diff(tau) <= 0):
+            raise SettingsError("spectrum: the tau grid must be strictly increasing")
+        g = g * quadrature_weights(tau)
     if np.any(g < 0) or eta_s < 0 or G_e < 0:
         raise SettingsError(f"{kind}: strengths, eta_s and G_e must be nonnegative")
     keep = g > 0
@@ -191,17 +203,13 @@ def _bracketed_root(F: Any, a: float, b: float) -> float:
     """Root of a function decreasing from +∞ (just above a) to a negative value or −∞ (just below b)."""
     from scipy.optimize import brentq
 
-    def h(s: float) -> float:
-        return F(a + (b - a) * s)
-
-    lo, hi = 1e-15, 1.0 - 1e-15
-    f_lo, f_hi = h(lo), h(hi)
-    if f_lo <= 0.0:  # the root sits within 1e-15 of the pole at a
-        return a + (b - a) * lo
-    if f_hi >= 0.0:
-        return a + (b - a) * hi
-    s = brentq(h, lo, hi, xtol=1e-300, rtol=4 * np.finfo(float).eps, maxiter=400)
-    return a + (b - a) * s
+    lo = max(a + (b - a) * 1e-15, float(np.nextafter(a, math.inf)))
+    hi = min(b - (b - a) * 1e-15, float(np.nextafter(b, -math.inf)))
+    if F(lo) <= 0.0:  # the root sits within rounding of the pole at a
+        return lo
+    if F(hi) >= 0.0:
+        return hi
+    return float(brentq(F, lo, hi, xtol=1e-300, rtol=4 * np.finfo(float).eps, maxiter=400))
 
 
 def retardation_spectrum(g: np.ndarray, tau: np.ndarray, *, eta_s: float = 0.0, G_e: float = 0.0) -> Retardation:
@@ -327,6 +335,8 @@ class Derived:
         |Q − Q_in|/|Q| for each quantity.
     flags : mapping
         True where the share exceeds :data:`FLAG_SHARE`.
+    outside_side : mapping
+        For each quantity, which side of the window contributes more: ``"long"`` or ``"short"`` times.
     """
 
     basis: str
@@ -341,11 +351,12 @@ class Derived:
     window: tuple[float, float] | None
     outside_share: Mapping[str, float]
     flags: Mapping[str, bool]
+    outside_side: Mapping[str, str] = dataclasses.field(default_factory=dict)
     notes: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "outside_share", MappingProxyType(dict(self.outside_share)))
-        object.__setattr__(self, "flags", MappingProxyType(dict(self.flags)))
+        for name in ("outside_share", "flags", "outside_side"):
+            object.__setattr__(self, name, MappingProxyType(dict(getattr(self, name))))
 
     def to_dict(self) -> dict[str, Any]:
         """Return the ``derived`` object of the JSON output."""
@@ -388,6 +399,8 @@ def derive(obj: Any) -> Derived:
     full = _scalars(s)
     inside = _scalars(s.inside_part())
     share = {k: _share(full[k], inside[k]) for k in full}
+    no_long, no_short = _scalars(s.without("long")), _scalars(s.without("short"))
+    side = {k: "long" if _share(full[k], no_long[k]) >= _share(full[k], no_short[k]) else "short" for k in full}
     notes: list[str] = []
     if s.window is None:
         notes.append("no supported window known (no frequencies given); nothing is flagged")
@@ -396,7 +409,7 @@ def derive(obj: Any) -> Derived:
         notes.append("an equilibrium modulus G_e > 0 makes this a solid: eta0 is infinite and Je0 undefined")
     flags = {k: bool(v > FLAG_SHARE) for k, v in share.items()}
     return Derived(basis=s.kind, eta_s=s.eta_s, G_e=s.G_e, window=s.window, outside_share=share, flags=flags,
-                   notes=tuple(notes), **full)
+                   outside_side=side, notes=tuple(notes), **full)
 
 
 def side_by_side(*results: Derived) -> str:
@@ -418,11 +431,12 @@ def side_by_side(*results: Derived) -> str:
             lo, hi = r.window
             lines.append(f"from {r.basis}: supported window {lo:.4g} s to {hi:.4g} s (Davies & Anderssen 1997)")
         for key, (words, _) in _SCALAR_WORDS.items():
-            if r.flags.get(key):
-                lines.append(f"from {r.basis}: {100 * r.outside_share[key]:.0f} % of the {words} comes from "
-                             f"outside the supported window; the data do not determine it"
-                             + (" (no terminal zone in the data)" if key in ("eta0", "Je0", "tau_longest",
-                                                                            "tau_w") else ""))
+            if r.flags.get(key) and key != "Je0_polymer":
+                why = ("relaxation times longer than the window: the data have no terminal zone"
+                       if r.outside_side.get(key, "long") == "long" else
+                       "relaxation times shorter than the window: faster than the highest frequency")
+                lines.append(f"from {r.basis}: {100 * r.outside_share[key]:.0f} % of the {words} comes from outside "
+                             f"the supported window ({why}); the data do not determine it")
         lines.extend(f"from {r.basis}: {n}" for n in r.notes)
     return "\n".join(lines)
 

@@ -174,7 +174,8 @@ class Modes:
         if self.plateau:
             lines.append(f"equilibrium modulus G_e = {self.G_e:.5g} Pa (± {self.G_e_se:.3g})")
         counts = ", ".join(
-            f"{c.n_modes}: p={c.p_value:.3g}{'' if c.resolved else ' (not resolved)'}" for c in self.candidates
+            f"{c.n_modes}" + ("" if math.isnan(c.p_value) else f": p={c.p_value:.3g}")
+            + ("" if c.resolved else " (not resolved)") for c in self.candidates
         )
         lines.append(f"mode count by F-test (alpha {self.alpha:g}); tried {counts}")
         lines.extend(f"warning: {w}" for w in self.warnings)

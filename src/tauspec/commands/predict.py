@@ -1,0 +1,185 @@
+"""``tauspec predict``: relaxation modulus, creep compliance or steady-shear viscosity predicted from a sweep.
+
+The sweep is represented by discrete Maxwell modes (:func:`tauspec.modes.fit_modes`),
+or by the continuous spectrum with ``--basis spectrum``; the predicted curve is
+written as CSV (and PNG with ``--plot``), each point with the share of its value
+that comes from relaxation times outside the supported window.
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import sys
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from ..errors import SettingsError, TauspecError
+
+QUANTITIES = ("relaxation", "creep", "viscosity")
+_POINTS = 50
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """Register the options of ``tauspec predict``."""
+    parser.add_argument("files", nargs="+", metavar="FILE", help="frequency-sweep file(s)")
+    parser.add_argument("--quantity", required=True, choices=QUANTITIES,
+                        help="relaxation: G(t); creep: J(t); viscosity: steady-shear viscosity by the Cox-Merz rule")
+    parser.add_argument("--times", metavar="SPEC",
+                        help="times in s for relaxation/creep: 'a,b,c' or 'start:stop:n' (log-spaced); "
+                             "default 1/omega_max to 1/omega_min")
+    parser.add_argument("--rates", metavar="SPEC",
+                        help="shear rates in 1/s for viscosity: 'a,b,c' or 'start:stop:n' (log-spaced); "
+                             "default the measured frequency range")
+    parser.add_argument("--basis", choices=("modes", "spectrum"), default="modes",
+                        help="predict from the fitted Maxwell modes (default) or the continuous spectrum")
+    parser.add_argument("--no-solvent", dest="solvent", action="store_false",
+                        help="fit no solvent viscosity eta_s")
+    parser.add_argument("--plateau", action="store_true", help="fit an equilibrium modulus G_e")
+    parser.add_argument("--out", metavar="PATH",
+                        help="CSV file to write (or a folder for several inputs); default <sample>.<quantity>.csv "
+                             "in the current folder")
+    parser.add_argument("--plot", action="store_true", help="also write a PNG beside the CSV")
+    parser.add_argument("--json", action="store_true", help="print one JSON object per file and nothing else")
+
+
+def parse_points(spec: str, what: str) -> np.ndarray:
+    """Parse ``'a,b,c'`` or ``'start:stop:n'`` (n log-spaced points) into positive floats."""
+    text = spec.strip()
+    try:
+        if ":" in text:
+            parts = text.split(":")
+            if len(parts) != 3:
+                raise ValueError
+            start, stop, n = float(parts[0]), float(parts[1]), int(parts[2])
+            if n < 1 or not (start > 0 and stop > 0) or not (math.isfinite(start) and math.isfinite(stop)):
+                raise ValueError
+            values = np.geomspace(start, stop, n)
+        else:
+            values = np.array([float(v) for v in text.split(",") if v.strip()], dtype=float)
+    except ValueError:
+        raise SettingsError(f"--{what} {spec!r}: give positive numbers 'a,b,c' or 'start:stop:n'") from None
+    if values.size == 0 or not np.all(np.isfinite(values)) or np.any(values <= 0):
+        raise SettingsError(f"--{what} {spec!r}: every value must be a positive finite number")
+    return values
+
+
+def _output_paths(args: argparse.Namespace, stem: str, several: bool) -> tuple[Path, Path]:
+    name = f"{stem}.{args.quantity}.csv"
+    if args.out is None:
+        csv = Path(name)
+    else:
+        out = Path(args.out)
+        if several or out.is_dir() or str(args.out).endswith(("/", "\\")):
+            csv = out / name
+        else:
+            csv = out
+    return csv, csv.with_suffix(".png")
+
+
+def _basis(sweep: Any, args: argparse.Namespace) -> tuple[Any, Any]:
+    from ..modes import fit_modes
+
+    spectrum = None
+    if args.basis == "spectrum":
+        try:
+            from ..spectrum import invert
+        except ImportError:
+            raise SettingsError("--basis spectrum needs the continuous inversion, which this build lacks") from None
+        spectrum = invert(sweep, solvent=args.solvent, plateau=args.plateau)
+    modes = fit_modes(sweep, spectrum, solvent=args.solvent, plateau=args.plateau)
+    return modes, spectrum
+
+
+def _plot(curve: Any, path: Path, title: str) -> None:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(5.5, 4.0), dpi=120)
+    try:
+        ax.loglog(curve.x, curve.y, "-", color="C0", label=f"{curve.y_name} from {curve.basis}")
+        flags = curve.flags
+        if flags.any():
+            ax.loglog(curve.x[flags], curve.y[flags], "o", mfc="none", color="C3", ms=4,
+                      label="> 5 % from outside the supported window")
+        ax.set_xlabel(f"{curve.x_name} [{curve.x_unit}]")
+        ax.set_ylabel(f"{curve.y_name} [{curve.y_unit}]")
+        ax.set_title(title, fontsize=9)
+        ax.legend(fontsize=8)
+        fig.tight_layout()
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fig.savefig(path)
+    finally:
+        plt.close(fig)
+
+
+def predict_file(path: str, args: argparse.Namespace, several: bool) -> dict[str, Any]:
+    """Predict one file's curve, write the CSV (and PNG); return the JSON object."""
+    from .. import derived as dv
+    from ..io import read_sweep
+
+    sweep = read_sweep(path)
+    modes, spectrum = _basis(sweep, args)
+    source = modes if spectrum is None else spectrum
+    w = sweep.omega
+    if args.quantity == "viscosity":
+        x = parse_points(args.rates, "rates") if args.rates else np.geomspace(w[0], w[-1], _POINTS)
+        curve = dv.shear_viscosity(source, x)
+    else:
+        x = parse_points(args.times, "times") if args.times else np.geomspace(1.0 / w[-1], 1.0 / w[0], _POINTS)
+        curve = (dv.relaxation_modulus if args.quantity == "relaxation" else dv.creep_compliance)(source, x)
+    stem = Path(path).stem
+    csv, png = _output_paths(args, stem, several)
+    try:
+        curve.write_csv(csv)
+        if args.plot:
+            _plot(curve, png, f"{sweep.name}: {curve.method}"[:90])
+    except OSError as exc:
+        raise TauspecError(f"cannot write the prediction ({exc.strerror or exc})", str(csv)) from None
+    derived = dv.derive(source)
+    return {
+        "sample": sweep.name,
+        "source": sweep.source,
+        "quantity": args.quantity,
+        "curve": curve.to_dict(),
+        "modes": modes.to_dict(),
+        "derived": derived.to_dict(),
+        "files": {"csv": str(csv), "png": str(png) if args.plot else None},
+        "_text": "\n".join([modes.report(), curve.report(), dv.side_by_side(derived),
+                            f"wrote {csv}" + (f" and {png}" if args.plot else "")]),
+    }
+
+
+def run(args: argparse.Namespace) -> int:
+    """Run ``tauspec predict``; return the exit status."""
+    from ..io import dumps_json
+
+    if args.quantity == "viscosity" and args.times:
+        raise SettingsError("--times belongs to --quantity relaxation or creep; use --rates for viscosity")
+    if args.quantity != "viscosity" and args.rates:
+        raise SettingsError("--rates belongs to --quantity viscosity; use --times for relaxation or creep")
+    # check the point lists before any fitting
+    for what in ("times", "rates"):
+        if getattr(args, what):
+            parse_points(getattr(args, what), what)
+    several = len(args.files) > 1
+    status = 0
+    for path in args.files:
+        try:
+            result = predict_file(path, args, several)
+        except TauspecError as exc:
+            if not several:
+                raise
+            print(f"tauspec: error: {exc.one_line()}", file=sys.stderr)
+            status = 1
+            continue
+        text = result.pop("_text")
+        if args.json:
+            print(dumps_json(result))
+        else:
+            print(text)
+    return status
