@@ -41,8 +41,11 @@ __all__ = ["Modes", "fit_modes", "write_modes_csv", "ModeCandidate"]
 #: the data is dropped and the fit repeated.
 _NEGLIGIBLE = 1e-4
 
-#: Relaxation times are kept within this factor beyond the measured 1/ω range.
+#: Relaxation times are kept within this factor beyond the measured 1/ω range ...
 _TAU_MARGIN = 100.0
+#: ... or within this factor on the side where a solvent viscosity (or a plateau) is fitted, since
+#: a mode beyond it cannot be told apart from η_s (or G_e).
+_NEAR = 10.0
 
 
 @dataclasses.dataclass(frozen=True, kw_only=True)
@@ -572,7 +575,10 @@ def fit_modes(
     prob = _Problem(
         omega=omega, storage=storage, loss=loss, solvent=solvent, plateau=plateau,
         eta_ref=float(loss[-1] / omega[-1]), G_ref=float(storage[0]),
-        ln_tau_bounds=(math.log(1.0 / (_TAU_MARGIN * omega[-1])), math.log(_TAU_MARGIN / omega[0])),
+        # a mode much faster than 1/ω_max is a solvent viscosity, one much slower than 1/ω_min a plateau:
+        # when η_s (G_e) is fitted, modes stay within one decade of the measured range on that side
+        ln_tau_bounds=(math.log(1.0 / ((_NEAR if solvent else _TAU_MARGIN) * omega[-1])),
+                       math.log((_NEAR if plateau else _TAU_MARGIN) / omega[0])),
         # a mode cannot carry more than the data allow at τ = τ_min (g ωτ ≤ G''), nor be far below the data
         ln_g_bounds=(math.log(1e-8 * float(min(storage.min(), loss.min()))),
                      math.log(_TAU_MARGIN * 100.0 * float(max(storage.max(), loss.max())))),
