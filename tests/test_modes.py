@@ -75,7 +75,8 @@ def test_standard_errors_are_of_the_size_of_the_scatter():
 
 def test_fixed_mode_count_and_determinism():
     sw = three_mode_sweep(7)
-    a = fit_modes(sw, n_modes=2)
+    with pytest.warns(WeakResultWarning, match="fit the data poorly"):  # two modes cannot fit three
+        a = fit_modes(sw, n_modes=2)
     assert a.n_modes == 2
     b, c = fit_modes(sw), fit_modes(sw)
     np.testing.assert_array_equal(b.g, c.g)
@@ -123,6 +124,26 @@ def test_plateau_fitted_when_asked():
     assert m.G_e == pytest.approx(500.0, rel=0.05)
     assert m.eta_s == 0.0
     assert np.isinf(derive(m).eta0)
+
+
+def test_kelvin_voigt_data_need_no_mode():
+    # Kelvin–Voigt solid G' = G_e, G'' = η_s ω (Ferry 1980, ch. 1): no Maxwell mode improves on G_e and η_s,
+    # so the F-test against the zero-mode set keeps none.
+    w = np.geomspace(1e-2, 1e2, 31)
+    sw = noisy_sweep(w, np.full(w.size, 500.0), 2.0 * w, seed=4)
+    with pytest.warns(WeakResultWarning, match="no Maxwell mode improves significantly on eta_s and G_e"):
+        m = fit_modes(sw, plateau=True)
+    assert m.n_modes == 0 and m.candidates[0].n_modes == 0
+    assert m.G_e == pytest.approx(500.0, rel=0.01) and m.eta_s == pytest.approx(2.0, rel=0.01)
+    assert creep_compliance(m, [0.25]).y[0] == pytest.approx((1 - math.exp(-0.25 * 500 / 2.0)) / 500, rel=0.02)
+
+
+def test_garbage_is_reported_as_a_poor_fit():
+    rng = np.random.default_rng(11)
+    w = np.geomspace(1e-2, 1e2, 25)
+    sw = Sweep(omega=w, storage=10 ** rng.uniform(0, 5, w.size), loss=10 ** rng.uniform(0, 5, w.size))
+    with pytest.warns(WeakResultWarning, match="fit the data poorly"):
+        fit_modes(sw)
 
 
 def test_to_dict_keys_and_modes_csv(tmp_path):

@@ -33,8 +33,8 @@ References
 ----------
 Ferry, J. D. (1980). *Viscoelastic Properties of Polymers*, 3rd ed., Wiley, ch. 3 and 9.
 Cox, W. P. & Merz, E. H. (1958). J. Polym. Sci. 28, 619 (an empirical rule; common practice).
-Tschoegl, N. W. (1989). *The Phenomenological Theory of Linear Viscoelastic Behavior*, Springer, ch. 4
-(interconversion of discrete spectra through the zeros of the operator modulus).
+Tschoegl, N. W. (1989). *The Phenomenological Theory of Linear Viscoelastic Behavior*, Springer
+(interconversion of discrete spectra through the zeros of the operator modulus; chapter from memory).
 """
 
 from __future__ import annotations
@@ -238,7 +238,7 @@ def retardation_spectrum(g: np.ndarray, tau: np.ndarray, *, eta_s: float = 0.0, 
     References
     ----------
     Tschoegl, N. W. (1989). *The Phenomenological Theory of Linear Viscoelastic Behavior*,
-    Springer, ch. 4 (discrete spectra, interconversion through the zeros and poles).
+    Springer (discrete spectra, interconversion through the zeros and poles; chapter from memory).
     Ferry, J. D. (1980). *Viscoelastic Properties of Polymers*, 3rd ed., ch. 3
     (∫₀ᵗ G(s) J(t − s) ds = t).
     """
@@ -557,7 +557,7 @@ def creep_compliance(obj: Any, t: Any) -> Curve:
     """
     return _curve(obj, t, "times", _J_of_t, quantity="creep", x_name="t", x_unit="s", y_name="J(t)",
                   y_unit="1/Pa", method="exact interconversion via the retardation spectrum: zeros of the "
-                  "operator modulus Q(s) = s G(s) (Tschoegl 1989, ch. 4)")
+                  "operator modulus Q(s) = s G(s) (Tschoegl 1989)")
 
 
 def complex_viscosity(obj: Any, omega: Any) -> Curve:

@@ -19,7 +19,8 @@ References
 Ferry, J. D. (1980). *Viscoelastic Properties of Polymers*, 3rd ed., Wiley, ch. 3.
 Jakeš, J. (1995). Collect. Czech. Chem. Commun. 60, 1815.
 Baumgaertel, M. & Winter, H. H. (1989). Rheol. Acta 28, 511.
-Seber, G. A. F. & Wild, C. J. (1989). *Nonlinear Regression*, Wiley, §5.3 (F-test for nested models).
+Seber, G. A. F. & Wild, C. J. (1989). *Nonlinear Regression*, Wiley, §5.3
+(F-test for nested models; section from memory).
 """
 
 from __future__ import annotations
@@ -431,6 +432,21 @@ def _run_fit(prob: _Problem, g0: np.ndarray, t0: np.ndarray, eta0: float, ge0: f
     return None
 
 
+def _no_modes(prob: _Problem) -> _Fit:
+    """The fit with no modes at all: η_s and/or G_e alone by nonnegative linear least squares."""
+    from scipy.optimize import nnls
+
+    w = prob.omega
+    cols = []
+    if prob.solvent:
+        cols.append(np.concatenate([np.zeros_like(w), prob.eta_ref * w / prob.loss]))
+    if prob.plateau:
+        cols.append(np.concatenate([prob.G_ref / prob.storage, np.zeros_like(w)]))
+    x, _ = nnls(np.column_stack(cols), np.ones(2 * w.size))
+    _, _, eta_s, G_e = prob.unpack(x)
+    return _Fit(np.array([]), np.array([]), float(eta_s), float(G_e), float(np.sum(prob.residuals(x) ** 2)), x)
+
+
 def _not_duplicate(tau: np.ndarray) -> np.ndarray:
     """False for a mode within 1 % in τ of an earlier one (the pair is one mode)."""
     keep = np.ones(tau.size, dtype=bool)
@@ -547,7 +563,7 @@ def fit_modes(
     ----------
     Ferry, J. D. (1980). *Viscoelastic Properties of Polymers*, 3rd ed., ch. 3.
     Jakeš, J. (1995). Collect. Czech. Chem. Commun. 60, 1815.
-    Seber, G. A. F. & Wild, C. J. (1989). *Nonlinear Regression*, Wiley, §5.3.
+    Seber, G. A. F. & Wild, C. J. (1989). *Nonlinear Regression*, Wiley, §5.3 (section from memory).
     Davies, A. R. & Anderssen, R. S. (1997). J. Non-Newtonian Fluid Mech. 73, 163.
     """
     import warnings
@@ -637,8 +653,12 @@ def fit_modes(
                                         p_value=math.nan, resolved=ok))
     else:
         prev: _Fit | None = None
+        if n_extra:  # the set with no mode at all (η_s and/or G_e alone) is the first candidate
+            prev = _no_modes(prob)
+            candidates.append(ModeCandidate(n_modes=0, rss=prev.rss, n_params=n_extra, f_stat=math.nan,
+                                            p_value=math.nan, resolved=True))
         for m in range(1, m_max + 1):
-            fit, ok = best_fit(m, prev)
+            fit, ok = best_fit(m, prev if prev is not None and prev.n_modes else None)
             if fit is None:
                 break
             p_new = 2 * m + n_extra
@@ -659,12 +679,14 @@ def fit_modes(
                 break
             prev = fit
         else:
-            if m_max > 1 or prev is not None:
-                loud.append(f"the mode count reached its resolution limit ({m_max} modes for "
-                             f"{decades:.2g} decades); more modes might still improve the fit")
+            loud.append(f"the mode count reached its resolution limit ({m_max} modes for {decades:.2g} "
+                        f"decades); more modes might still improve the fit")
         chosen = prev
         if chosen is None:
             raise SettingsError("no Maxwell-mode fit converged for these data", source)
+        if chosen.n_modes == 0:
+            alone = " and ".join(n for n, on in (("eta_s", solvent), ("G_e", plateau)) if on)
+            loud.append(f"no Maxwell mode improves significantly on {alone} alone; the result has no modes")
 
     cov = _covariance(prob, chosen)
     m = chosen.n_modes
@@ -683,6 +705,8 @@ def fit_modes(
     outside = outside_mask(chosen.tau, window)
     gp, gpp = modes_moduli(omega, chosen.g, chosen.tau, eta_s=chosen.eta_s, G_e=chosen.G_e)
     rms = float(math.sqrt(chosen.rss / n_data))
+    if rms > 0.1:
+        loud.append(f"the modes fit the data poorly (relative rms residual {100 * rms:.0f} %)")
     if outside.any():
         notes.append(f"{int(outside.sum())} of {m} mode(s) lie outside the supported window "
                      f"{window[0]:.3g}–{window[1]:.3g} s; the data do not determine them")
