@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from synthetic_modes import lognormal_H, lognormal_sweep, rouse_sweep, rouse_times
+from synthetic import lognormal_H, lognormal_sweep, rouse_sweep, rouse_times
 from tauspec.derived import (
     complex_viscosity,
     creep_compliance,
@@ -62,7 +62,7 @@ def test_rouse_viscosity_and_compliance_from_noisy_sweeps(seed):
     # J_e⁰ → 2/(5 G0); with a solvent J_e⁰ = (2/5G0)((η0 − η_s)/η0)² (Ferry 1980 ch. 9, dilute solutions,
     # form from memory; the same follows from J_e⁰ = ∫ t G dt / η0², checked below against J(t)).
     G0, tau1, N, eta_s = 1e3, 10.0, 200, 3000.0
-    m = fit_modes(rouse_sweep(W6, G0, tau1, N, eta_s, seed))
+    m = fit_modes(rouse_sweep(seed, G0=G0, tau_1=tau1, N=N, eta_s=eta_s))
     d = derive(m)
     assert d.eta0 - m.eta_s == pytest.approx(math.pi**2 / 6 * G0 * tau1, rel=0.05)
     assert d.Je0_polymer == pytest.approx(2 / (5 * G0), rel=0.05)
@@ -78,7 +78,7 @@ def test_rouse_viscosity_and_compliance_from_noisy_sweeps(seed):
 def test_lognormal_viscosity_and_compliance_from_noisy_sweeps(seed):
     # Log-normal spectrum, σ = 1.2 (REFERENCES.md, checked above): η0 = 2.054433 G_t τ_m, J_e⁰ G_t = 4.220696.
     G_t, tau_m = 1e4, 1.0
-    m = fit_modes(lognormal_sweep(W6, G_t, tau_m, 1.2, seed))
+    m = fit_modes(lognormal_sweep(seed, G_t=G_t, tau_m=tau_m, sigma=1.2))
     d = derive(m)
     assert d.eta0 == pytest.approx(2.054433 * G_t * tau_m, rel=0.05)
     assert d.Je0 == pytest.approx(4.220696 / G_t, rel=0.05)
@@ -95,7 +95,7 @@ def test_lognormal_from_the_continuous_spectrum_and_side_by_side():
     # τ_n = τ_m e^(σ²/2), τ_w = τ_m e^(3σ²/2) (log-normal moments)
     assert ds.tau_n == pytest.approx(math.exp(1.2**2 / 2), rel=1e-5)
     assert ds.tau_w == pytest.approx(math.exp(1.5 * 1.2**2), rel=1e-5)
-    dm = derive(fit_modes(lognormal_sweep(W6, 1e4, 1.0, 1.2, 4)))
+    dm = derive(fit_modes(lognormal_sweep(4)))
     text = side_by_side(dm, ds)
     assert "from modes" in text and "from spectrum" in text
     assert dm.tau_w == pytest.approx(ds.tau_w, rel=0.1)
@@ -156,7 +156,7 @@ def test_convolution_identity(g, tau, eta_s, G_e):
 
 
 def test_convolution_identity_for_fitted_modes():
-    m = fit_modes(lognormal_sweep(W6, 1e4, 1.0, 1.2, 9))
+    m = fit_modes(lognormal_sweep(9))
     assert _convolution_error(m.g, m.tau, m.eta_s, m.G_e, [0.01, 1.0, 30.0]) < 1e-6
 
 

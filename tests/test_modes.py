@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pytest
 
-from synthetic_modes import lognormal_H, lognormal_sweep, noisy_sweep
+from synthetic import lognormal_H, lognormal_sweep, noisy_sweep
 from tauspec.derived import creep_compliance, derive, relaxation_modulus
 from tauspec.errors import SettingsError, WeakResultWarning
 from tauspec.kernels import modes_moduli
@@ -21,7 +21,7 @@ THREE_TAU = np.array([0.01, 1.0, 100.0])
 
 def three_mode_sweep(seed, omega=W6):
     gp, gpp = modes_moduli(omega, THREE_G, THREE_TAU)
-    return noisy_sweep(omega, gp, gpp, seed)
+    return noisy_sweep(omega, gp, gpp, 0.01, seed)
 
 
 # Generalized Maxwell model with one mode and a Newtonian solvent (Ferry 1980, ch. 3): a single dominant mode.
@@ -30,7 +30,7 @@ def test_single_maxwell_mode_plus_solvent_recovered(seed):
     g, tau, eta_s = 1e3, 1.0, 0.5
     w = np.geomspace(1e-2, 1e2, 41)
     gp, gpp = modes_moduli(w, [g], [tau], eta_s=eta_s)
-    m = fit_modes(noisy_sweep(w, gp, gpp, seed))
+    m = fit_modes(noisy_sweep(w, gp, gpp, 0.01, seed))
     k = int(np.argmax(m.g))
     assert abs(m.tau[k] / tau - 1) < 0.03
     assert m.g[k] >= 0.9 * m.g.sum()
@@ -108,7 +108,7 @@ def test_start_from_a_continuous_spectrum():
         eta_s = 0.0
         G_e = 0.0
 
-    sw = lognormal_sweep(W6, G_t, tau_m, sigma, seed=5)
+    sw = lognormal_sweep(5, G_t=G_t, tau_m=tau_m, sigma=sigma)
     m = fit_modes(sw, _Spec())
     assert m.start == "spectrum"
     d = derive(m)
@@ -120,7 +120,7 @@ def test_plateau_fitted_when_asked():
     # A solid: one mode plus an equilibrium modulus G_e (generalized Maxwell model with a spring, Ferry 1980 ch. 3).
     w = np.geomspace(1e-2, 1e2, 41)
     gp, gpp = modes_moduli(w, [1e4], [1.0], G_e=500.0)
-    m = fit_modes(noisy_sweep(w, gp, gpp, 2), plateau=True, solvent=False)
+    m = fit_modes(noisy_sweep(w, gp, gpp, 0.01, 2), plateau=True, solvent=False)
     assert m.G_e == pytest.approx(500.0, rel=0.05)
     assert m.eta_s == 0.0
     assert np.isinf(derive(m).eta0)
@@ -130,7 +130,7 @@ def test_kelvin_voigt_data_need_no_mode():
     # Kelvin–Voigt solid G' = G_e, G'' = η_s ω (Ferry 1980, ch. 1): no Maxwell mode improves on G_e and η_s,
     # so the F-test against the zero-mode set keeps none.
     w = np.geomspace(1e-2, 1e2, 31)
-    sw = noisy_sweep(w, np.full(w.size, 500.0), 2.0 * w, seed=4)
+    sw = noisy_sweep(w, np.full(w.size, 500.0), 2.0 * w, 0.01, 4)
     with pytest.warns(WeakResultWarning, match="no Maxwell mode improves significantly on eta_s and G_e"):
         m = fit_modes(sw, plateau=True)
     assert m.n_modes == 0 and m.candidates[0].n_modes == 0

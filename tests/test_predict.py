@@ -8,7 +8,7 @@ import json
 import numpy as np
 import pytest
 
-from synthetic_modes import noisy_sweep
+from synthetic import noisy_sweep
 from tauspec.commands import predict
 from tauspec.derived import creep_compliance, relaxation_modulus
 from tauspec.errors import SettingsError, SweepError
@@ -28,7 +28,7 @@ def sweep_file(tmp_path):
     # invented two-mode fluid, 1 % noise
     w = np.geomspace(1e-2, 1e2, 41)
     gp, gpp = modes_moduli(w, [1e4, 1e3], [0.1, 5.0])
-    sw = noisy_sweep(w, gp, gpp, seed=3)
+    sw = noisy_sweep(w, gp, gpp, 0.01, 3)
     path = tmp_path / "fluid.csv"
     write_csv(path, ["omega [rad/s]", "G' [Pa]", "G'' [Pa]"], [sw.omega, sw.storage, sw.loss])
     return path

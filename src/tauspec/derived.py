@@ -50,10 +50,11 @@ import numpy as np
 from .errors import SettingsError
 from .io import write_csv
 from .kernels import modes_moduli, quadrature_weights
-from .window import outside_mask, supported_window
+from .spectrum import supported_window
 
 __all__ = [
     "FLAG_SHARE",
+    "outside_mask",
     "Retardation",
     "retardation_spectrum",
     "Derived",
@@ -74,6 +75,18 @@ LONGEST_SHARE = 0.01
 
 
 # --------------------------------------------------------------------------- a discrete set from either input
+
+
+def outside_mask(tau: np.ndarray, window: tuple[float, float]) -> np.ndarray:
+    """True where ``tau`` lies outside the supported ``window`` (everywhere when the window is empty).
+
+    The complement of ``Spectrum.in_window`` on the same grid.
+    """
+    tau = np.asarray(tau, dtype=float)
+    lo, hi = window
+    if not lo < hi:
+        return np.ones(tau.shape, dtype=bool)
+    return (tau < lo) | (tau > hi)
 
 
 @dataclasses.dataclass(frozen=True)

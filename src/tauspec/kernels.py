@@ -45,8 +45,11 @@ def _safe_storage(x: np.ndarray) -> np.ndarray:
 def loss_kernel(x: np.ndarray) -> np.ndarray:
     """Return K''(x) = x/(1 + x²) with x = ωτ, computed without overflow."""
     x = np.asarray(x, dtype=float)
-    with np.errstate(over="ignore", divide="ignore"):
-        return np.where(x > 1.0, (1.0 / x) / (1.0 + 1.0 / (x * x)), x / (1.0 + x * x))
+    big = x > 1.0
+    safe = np.where(big, x, 2.0)  # no division by 0 or overflow in either branch
+    small = np.where(big, 0.0, x)
+    inv = 1.0 / safe
+    return np.where(big, inv / (1.0 + inv * inv), small / (1.0 + small * small))
 
 
 def log_grid(tau_min: float, tau_max: float, n: int) -> np.ndarray:

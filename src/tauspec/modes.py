@@ -31,10 +31,11 @@ from typing import Any
 
 import numpy as np
 
+from .derived import outside_mask
 from .errors import SettingsError, WeakResultWarning
 from .io import atomic_write_text
 from .kernels import loss_kernel, modes_moduli, quadrature_weights, storage_kernel
-from .window import outside_mask, supported_window
+from .spectrum import supported_window
 
 __all__ = ["Modes", "fit_modes", "write_modes_csv", "ModeCandidate"]
 
@@ -414,7 +415,7 @@ def _run_fit(prob: _Problem, g0: np.ndarray, t0: np.ndarray, eta0: float, ge0: f
         lower, upper = prob.bounds(g0.size)
         x0 = np.clip(x0, lower, upper)
         res = least_squares(prob.residuals, x0, jac=prob.jacobian, bounds=(lower, upper), method="trf",
-                            x_scale="jac", xtol=1e-10, ftol=1e-12, gtol=1e-10, max_nfev=200 * (x0.size + 1))
+                            x_scale="jac", xtol=1e-8, ftol=1e-10, gtol=1e-8, max_nfev=200 * (x0.size + 1))
         g, tau, eta_s, G_e = prob.unpack(res.x)
         # a bound approached from inside (η_s or G_e → 0) is the bound itself
         eta_s = 0.0 if eta_s < 1e-9 * prob.eta_ref else eta_s

@@ -1,0 +1,134 @@
+"""Inversion speed, side by side in one run, as ratios against baselines.
+
+    python benchmarks/bench_invert.py [--quick] [--json FILE]
+
+Times tauspec's automatic inversion (path of strengths, L-curve and GCV, 60
+frequencies, 150 τ points) against, on the same problem and the same
+strengths:
+
+(a) a plain loop of ``scipy.optimize.nnls`` on the augmented system [A; λL],
+(b) a cvxpy problem rebuilt for every strength,
+(c) cvxpy compiled once with λ as a DPP parameter,
+(d) the unconstrained Cholesky solve per strength (no nonnegativity): the floor.
+
+It checks the optimum against (a) at every strength (relative objective) and
+reports the relative L2 error of H inside the window, so a faster path that is
+less accurate shows it.  Set OPENBLAS_NUM_THREADS=1 for figures comparable with
+docs/benchmarks.md.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import statistics
+import sys
+import time
+import warnings
+from pathlib import Path
+
+import numpy as np
+from scipy import linalg
+from scipy.optimize import nnls
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
+from synthetic import lognormal_H, lognormal_sweep  # noqa: E402
+from tauspec.regularize import TikhonovPath, objective, solve_cvxpy  # noqa: E402
+from tauspec.spectrum import build_problem, default_grid, invert  # noqa: E402
+
+
+def _best(fn, repeats):
+    times = []
+    out = None
+    for _ in range(repeats):
+        t = time.perf_counter()
+        out = fn()
+        times.append(time.perf_counter() - t)
+    return statistics.median(times), min(times), max(times), out
+
+
+def nnls_loop(A, b, L, lams):
+    zeros = np.zeros(L.shape[0])
+    return np.array([nnls(np.vstack([A, lam * L]), np.concatenate([b, zeros]), maxiter=50 * A.shape[1])[0]
+                     for lam in lams])
+
+
+def cholesky_scan(A, b, L, lams):
+    AtA, LtL, Atb = A.T @ A, L.T @ L, A.T @ b
+    return np.array([linalg.cho_solve(linalg.cho_factor(AtA + lam * lam * LtL), Atb) for lam in lams])
+
+
+def cvxpy_rebuilt(A, b, L, lams):
+    return np.vstack([solve_cvxpy(A, b, L, [lam]) for lam in lams])
+
+
+def run(quick: bool = False) -> dict:
+    """Run the benchmark; return the figures as a dict."""
+    warnings.simplefilter("ignore")
+    repeats = 3 if quick else 7
+    sweep = lognormal_sweep(3, n=60)
+    n_grid = 150
+    med, lo, hi, sp = _best(lambda: invert(sweep, grid=n_grid), repeats)
+    lams = sp.lcurve.strength
+    tau = default_grid(sweep.omega, n_grid)
+    pb = build_problem(sweep, tau)
+    A, b, L = pb.A, pb.b, pb.L
+    rows = {"tauspec invert (auto: path + L-curve + GCV)": (med, lo, hi)}
+    med_fast, lo_f, hi_f, path_sol = _best(lambda: TikhonovPath(A, b, L).path(lams), repeats)
+    rows["fast exact path alone"] = (med_fast, lo_f, hi_f)
+    med_a, lo_a, hi_a, X_nnls = _best(lambda: nnls_loop(A, b, L, lams), repeats)
+    rows["(a) scipy nnls loop"] = (med_a, lo_a, hi_a)
+    med_d, lo_d, hi_d, _ = _best(lambda: cholesky_scan(A, b, L, lams), repeats)
+    rows["(d) unconstrained Cholesky scan"] = (med_d, lo_d, hi_d)
+    cv_lams = lams if not quick else lams[::5]
+    scale = len(lams) / len(cv_lams)
+    med_c, lo_c, hi_c, X_cvx = _best(lambda: solve_cvxpy(A, b, L, cv_lams), 1)
+    rows["(c) cvxpy, λ as parameter"] = (med_c * scale, lo_c * scale, hi_c * scale)
+    med_b, lo_b, hi_b, _ = _best(lambda: cvxpy_rebuilt(A, b, L, cv_lams), 1)
+    rows["(b) cvxpy rebuilt per λ"] = (med_b * scale, lo_b * scale, hi_b * scale)
+
+    rel_obj = max(abs(objective(A, b, L, x, lam) - objective(A, b, L, xr, lam)) / objective(A, b, L, xr, lam)
+                  for lam, x, xr in zip(lams, path_sol.x, X_nnls))
+    worse = max((objective(A, b, L, x, lam) - objective(A, b, L, xr, lam)) / objective(A, b, L, xr, lam)
+                for lam, x, xr in zip(lams, path_sol.x, X_nnls))
+    m = sp.in_window
+    Ht = lognormal_H(sp.tau, 1e4)
+    err = float(np.linalg.norm(sp.H[m] - Ht[m]) / np.linalg.norm(Ht[m]))
+    return {
+        "problem": {"frequencies": len(sweep), "grid": n_grid, "strengths": len(lams)},
+        "rows": {k: {"median_s": v[0], "min_s": v[1], "max_s": v[2]} for k, v in rows.items()},
+        "ratios": {
+            "invert / nnls loop": med / med_a,
+            "nnls loop / fast path": med_a / med_fast,
+            "cvxpy rebuilt / invert": rows["(b) cvxpy rebuilt per λ"][0] / med,
+            "cvxpy parameter / invert": rows["(c) cvxpy, λ as parameter"][0] / med,
+            "invert / Cholesky floor": med / med_d,
+            "fast path / Cholesky floor": med_fast / med_d,
+        },
+        "max_rel_objective_vs_nnls": rel_obj,
+        "max_rel_objective_excess_vs_nnls": worse,
+        "spectrum_rel_L2_error_in_window": err,
+    }
+
+
+def main() -> int:
+    p = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    p.add_argument("--quick", action="store_true")
+    p.add_argument("--json", type=Path)
+    args = p.parse_args()
+    res = run(args.quick)
+    pr = res["problem"]
+    print(f"problem: {pr['frequencies']} frequencies, {pr['grid']} τ points, {pr['strengths']} strengths")
+    for k, v in res["rows"].items():
+        print(f"  {k:45s} {1e3 * v['median_s']:9.1f} ms  (min {1e3 * v['min_s']:.1f}, max {1e3 * v['max_s']:.1f})")
+    for k, v in res["ratios"].items():
+        print(f"  {k:45s} {v:9.3f}")
+    print(f"  max relative objective difference vs nnls: {res['max_rel_objective_vs_nnls']:.2e}")
+    print(f"  relative L2 error of H in the window: {res['spectrum_rel_L2_error_in_window']:.4f}")
+    if args.json:
+        args.json.write_text(json.dumps(res, indent=1))
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
