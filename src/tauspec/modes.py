@@ -458,8 +458,12 @@ def _not_duplicate(tau: np.ndarray) -> np.ndarray:
     return keep
 
 
-def _grown_starts(prob: _Problem, prev: _Fit, step: float) -> list[tuple[np.ndarray, np.ndarray]]:
-    """Starting sets of one more mode than ``prev``: a new small mode in the widest gap or beyond either end."""
+def _grown_starts(prob: _Problem, prev: _Fit, step: float) -> tuple[list[Any], list[Any]]:
+    """Starting sets of one more mode than ``prev``.
+
+    Returns (inserts, splits): a new small mode below, above or in the widest gap; or one mode split in two
+    half a step either side of it.
+    """
     u = np.log(prev.tau)
     lo, hi = prob.ln_tau_bounds
     places = [max(lo + 1e-6, u[0] - step), min(hi - 1e-6, u[-1] + step)]
@@ -467,17 +471,17 @@ def _grown_starts(prob: _Problem, prev: _Fit, step: float) -> list[tuple[np.ndar
         gaps = np.diff(u)
         k = int(np.argmax(gaps))
         places.append(0.5 * (u[k] + u[k + 1]))
-    out = []
+    inserts = []
     for p in places:
         nearest = int(np.argmin(np.abs(u - p)))
-        out.append((np.append(prev.g, 0.1 * prev.g[nearest]), np.append(prev.tau, math.exp(p))))
-    # or split one mode into two, half a step either side
+        inserts.append((np.append(prev.g, 0.1 * prev.g[nearest]), np.append(prev.tau, math.exp(p))))
+    splits = []
+    half = math.exp(step / 2)
     for k in range(u.size):
         g = np.concatenate([np.delete(prev.g, k), [prev.g[k] / 2, prev.g[k] / 2]])
-        half = math.exp(step / 2)
         t = np.concatenate([np.delete(prev.tau, k), [prev.tau[k] / half, prev.tau[k] * half]])
-        out.append((g, t))
-    return out
+        splits.append((g, t))
+    return inserts, splits
 
 
 def _resolved(fit: _Fit, min_spacing: float) -> bool:
@@ -620,23 +624,37 @@ def fit_modes(
             c[grid.size // 2] = float(np.median(storage))
     natural = [_clusters(grid, c), _peaks(grid, c)]
 
+    def f_test(fit: _Fit, prev: _Fit) -> tuple[float, float]:
+        """F statistic and p-value of ``fit`` (two more parameters) against ``prev``."""
+        dof = n_data - (2 * fit.n_modes + n_extra)
+        drop = max(prev.rss - fit.rss, 0.0)
+        f_stat = (drop / 2.0) / (fit.rss / dof) if fit.rss > 0 else math.inf
+        return float(f_stat), (float(f_dist.sf(f_stat, 2, dof)) if math.isfinite(f_stat) else 0.0)
+
     def best_fit(m: int, prev: _Fit | None) -> tuple[_Fit | None, bool]:
-        starts = [_lumps(grid, c, m)] + [s for s in natural if s[0].size == m]
-        if prev is not None:
-            starts += _grown_starts(prob, prev, step)
-        fits = []
-        for g0, t0 in starts:
-            if g0.size == 0:
+        """Best resolved m-mode fit over the starting sets.
+
+        The splits are tried only when the other starts do not already beat ``prev`` significantly: only
+        then can they change the decision.
+        """
+        inserts, splits = _grown_starts(prob, prev, step) if prev is not None and prev.n_modes else ([], [])
+        tiers = [[_lumps(grid, c, m)] + [s for s in natural if s[0].size == m] + inserts, splits]
+        fits: list[_Fit] = []
+        best: tuple[_Fit | None, bool] = (None, False)
+        for tier in tiers:
+            for g0, t0 in tier:
+                if g0.size == 0:
+                    continue
+                fit = _run_fit(prob, g0, t0, eta_start, ge_start)
+                if fit is not None and fit.n_modes == m:
+                    fits.append(fit)
+            if not fits:
                 continue
-            fit = _run_fit(prob, g0, t0, eta_start, ge_start)
-            if fit is not None and fit.n_modes == m:
-                fits.append(fit)
-        if not fits:
-            return None, False
-        good = [f for f in fits if _resolved(f, min_spacing)]
-        if good:
-            return min(good, key=lambda f: f.rss), True
-        return min(fits, key=lambda f: f.rss), False
+            good = [f for f in fits if _resolved(f, min_spacing)]
+            best = (min(good, key=lambda f: f.rss), True) if good else (min(fits, key=lambda f: f.rss), False)
+            if prev is None or (best[1] and f_test(best[0], prev)[1] < alpha):
+                break
+        return best
 
     candidates: list[ModeCandidate] = []
     notes: list[str] = []  # recorded in the result
@@ -670,10 +688,7 @@ def fit_modes(
                 if not ok:
                     break
                 continue
-            dof = n_data - p_new
-            drop = max(prev.rss - fit.rss, 0.0)
-            f_stat = (drop / 2.0) / (fit.rss / dof) if fit.rss > 0 else math.inf
-            p_value = float(f_dist.sf(f_stat, 2, dof)) if math.isfinite(f_stat) else 0.0
+            f_stat, p_value = f_test(fit, prev)
             candidates.append(ModeCandidate(n_modes=m, rss=fit.rss, n_params=p_new, f_stat=float(f_stat),
                                             p_value=p_value, resolved=ok))
             if not ok or p_value >= alpha:

@@ -17,6 +17,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import SettingsError, TauspecError
+from ._common import add_output_arguments, each_file, output_dir_for
 
 QUANTITIES = ("relaxation", "creep", "viscosity")
 _POINTS = 50
@@ -38,11 +39,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--no-solvent", dest="solvent", action="store_false",
                         help="fit no solvent viscosity eta_s")
     parser.add_argument("--plateau", action="store_true", help="fit an equilibrium modulus G_e")
-    parser.add_argument("--out", metavar="PATH",
-                        help="CSV file to write (or a folder for several inputs); default <sample>.<quantity>.csv "
-                             "in the current folder")
-    parser.add_argument("--plot", action="store_true", help="also write a PNG beside the CSV")
-    parser.add_argument("--json", action="store_true", help="print one JSON object per file and nothing else")
+    add_output_arguments(parser)
 
 
 def parse_points(spec: str, what: str) -> np.ndarray:
@@ -66,16 +63,10 @@ def parse_points(spec: str, what: str) -> np.ndarray:
     return values
 
 
-def _output_paths(args: argparse.Namespace, stem: str, several: bool) -> tuple[Path, Path]:
-    name = f"{stem}.{args.quantity}.csv"
-    if args.out is None:
-        csv = Path(name)
-    else:
-        out = Path(args.out)
-        if several or out.is_dir() or str(args.out).endswith(("/", "\\")):
-            csv = out / name
-        else:
-            csv = out
+def _output_paths(args: argparse.Namespace, path: str) -> tuple[Path, Path]:
+    """``--out DIR``: ``DIR/<quantity>.csv`` (``DIR/<stem>/...`` for several files); else ``<stem>-<quantity>.csv``."""
+    out = output_dir_for(args, path)
+    csv = out / f"{args.quantity}.csv" if out is not None else Path(f"{Path(path).stem}-{args.quantity}.csv")
     return csv, csv.with_suffix(".png")
 
 
@@ -84,40 +75,35 @@ def _basis(sweep: Any, args: argparse.Namespace) -> tuple[Any, Any]:
 
     spectrum = None
     if args.basis == "spectrum":
-        try:
-            from ..spectrum import invert
-        except ImportError:
-            raise SettingsError("--basis spectrum needs the continuous inversion, which this build lacks") from None
+        from ..spectrum import invert
+
         spectrum = invert(sweep, solvent=args.solvent, plateau=args.plateau)
     modes = fit_modes(sweep, spectrum, solvent=args.solvent, plateau=args.plateau)
     return modes, spectrum
 
 
 def _plot(curve: Any, path: Path, title: str) -> None:
-    import matplotlib
+    """Draw the curve on log axes in the house style, flagged points marked, and save it as PNG."""
+    import matplotlib as mpl
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+    from ..plots import STYLE, _save, new_axes
 
-    fig, ax = plt.subplots(figsize=(5.5, 4.0), dpi=120)
-    try:
-        ax.loglog(curve.x, curve.y, "-", color="C0", label=f"{curve.y_name} from {curve.basis}")
+    with mpl.rc_context(STYLE):
+        fig, ax = new_axes()
+        ax.loglog(curve.x, curve.y, "-", color="#1f5f9e", label=f"{curve.y_name} from {curve.basis}")
         flags = curve.flags
         if flags.any():
-            ax.loglog(curve.x[flags], curve.y[flags], "o", mfc="none", color="C3", ms=4,
-                      label="> 5 % from outside the supported window")
+            ax.loglog(curve.x[flags], curve.y[flags], "o", mfc="none", color="#c2501b",
+                      label="> 5 % from outside the window")
         ax.set_xlabel(f"{curve.x_name} [{curve.x_unit}]")
         ax.set_ylabel(f"{curve.y_name} [{curve.y_unit}]")
-        ax.set_title(title, fontsize=9)
-        ax.legend(fontsize=8)
-        fig.tight_layout()
+        ax.set_title(title, fontsize=8)
+        ax.legend(frameon=False)
         path.parent.mkdir(parents=True, exist_ok=True)
-        fig.savefig(path)
-    finally:
-        plt.close(fig)
+        _save(fig, path.with_suffix(""), ("png",))
 
 
-def predict_file(path: str, args: argparse.Namespace, several: bool) -> dict[str, Any]:
+def predict_file(path: str, args: argparse.Namespace) -> dict[str, Any]:
     """Predict one file's curve, write the CSV (and PNG); return the JSON object."""
     from .. import derived as dv
     from ..io import read_sweep
@@ -132,12 +118,11 @@ def predict_file(path: str, args: argparse.Namespace, several: bool) -> dict[str
     else:
         x = parse_points(args.times, "times") if args.times else np.geomspace(1.0 / w[-1], 1.0 / w[0], _POINTS)
         curve = (dv.relaxation_modulus if args.quantity == "relaxation" else dv.creep_compliance)(source, x)
-    stem = Path(path).stem
-    csv, png = _output_paths(args, stem, several)
+    csv, png = _output_paths(args, path)
     try:
         curve.write_csv(csv)
         if args.plot:
-            _plot(curve, png, f"{sweep.name}: {curve.method}"[:90])
+            _plot(curve, png, f"{sweep.name}: {curve.y_name}")
     except OSError as exc:
         raise TauspecError(f"cannot write the prediction ({exc.strerror or exc})", str(csv)) from None
     derived = dv.derive(source)
@@ -166,20 +151,16 @@ def run(args: argparse.Namespace) -> int:
     for what in ("times", "rates"):
         if getattr(args, what):
             parse_points(getattr(args, what), what)
-    several = len(args.files) > 1
     status = 0
-    for path in args.files:
+    for path in each_file(args.files):
         try:
-            result = predict_file(path, args, several)
+            result = predict_file(path, args)
         except TauspecError as exc:
-            if not several:
-                raise
+            if exc.source is None:
+                exc = type(exc)(exc.reason, str(path), exc.line)
             print(f"tauspec: error: {exc.one_line()}", file=sys.stderr)
             status = 1
             continue
         text = result.pop("_text")
-        if args.json:
-            print(dumps_json(result))
-        else:
-            print(text)
+        print(dumps_json(result) if args.json else text, flush=True)
     return status
