@@ -116,6 +116,17 @@ def test_start_from_a_continuous_spectrum():
     assert d.Je0 == pytest.approx(math.exp(sigma**2) / G_t, rel=0.05)
 
 
+def test_known_solvent_viscosity_is_held():
+    w = np.geomspace(1e-2, 1e2, 41)
+    gp, gpp = modes_moduli(w, [1e3], [1.0], eta_s=0.5)
+    m = fit_modes(noisy_sweep(w, gp, gpp, 0.01, 6), eta_s=0.5)
+    assert m.eta_s == 0.5 and m.eta_s_se == 0.0 and not m.solvent
+    assert m.n_modes == 1 and m.tau[0] == pytest.approx(1.0, rel=0.03)
+    assert "given, not fitted" in m.report()
+    with pytest.raises(SettingsError, match="eta_s must be a nonnegative number"):
+        fit_modes(noisy_sweep(w, gp, gpp, 0.01, 6), eta_s=-1.0)
+
+
 def test_plateau_fitted_when_asked():
     # A solid: one mode plus an equilibrium modulus G_e (generalized Maxwell model with a spring, Ferry 1980 ch. 3).
     w = np.geomspace(1e-2, 1e2, 41)

@@ -176,6 +176,8 @@ class Modes:
             lines.append(f"{i:>4}  {g:12.5g}  {gse:10.3g}  {t:12.5g}  {tse:10.3g}{flag}")
         if self.solvent:
             lines.append(f"solvent viscosity eta_s = {self.eta_s:.5g} Pa s (± {self.eta_s_se:.3g})")
+        elif self.eta_s > 0:
+            lines.append(f"solvent viscosity eta_s = {self.eta_s:.5g} Pa s (given, not fitted)")
         if self.plateau:
             lines.append(f"equilibrium modulus G_e = {self.G_e:.5g} Pa (± {self.G_e_se:.3g})")
         counts = ", ".join(
@@ -222,6 +224,7 @@ class _Problem:
     G_ref: float
     ln_tau_bounds: tuple[float, float]
     ln_g_bounds: tuple[float, float]
+    eta_known: float = 0.0
 
     @property
     def n_data(self) -> int:
@@ -245,8 +248,14 @@ class _Problem:
 
     def residuals(self, x: np.ndarray) -> np.ndarray:
         g, tau, eta_s, G_e = self.unpack(x)
-        gp, gpp = modes_moduli(self.omega, g, tau, eta_s=eta_s, G_e=G_e)
+        gp, gpp = modes_moduli(self.omega, g, tau, eta_s=eta_s + self.eta_known, G_e=G_e)
         return np.concatenate([gp / self.storage - 1.0, gpp / self.loss - 1.0])
+
+    def target(self) -> np.ndarray:
+        """Right-hand side of the linear starts: 1, less the known solvent's share of G''."""
+        b = np.ones(self.n_data)
+        b[self.omega.size:] -= self.eta_known * self.omega / self.loss
+        return b
 
     def jacobian(self, x: np.ndarray) -> np.ndarray:
         g, tau, _, _ = self.unpack(x)
@@ -325,7 +334,7 @@ def _nnls_start(prob: _Problem, per_decade_grid: float = 10.0) -> tuple[np.ndarr
     A = np.hstack(cols)
     scale = np.linalg.norm(A, axis=0)
     scale[scale == 0] = 1.0
-    sol, _ = nnls(A / scale, np.ones(A.shape[0]), maxiter=50 * A.shape[1])
+    sol, _ = nnls(A / scale, prob.target(), maxiter=50 * A.shape[1])
     sol = sol / scale
     g = sol[:n]
     k = n
@@ -443,7 +452,7 @@ def _no_modes(prob: _Problem) -> _Fit:
         cols.append(np.concatenate([np.zeros_like(w), prob.eta_ref * w / prob.loss]))
     if prob.plateau:
         cols.append(np.concatenate([prob.G_ref / prob.storage, np.zeros_like(w)]))
-    x, _ = nnls(np.column_stack(cols), np.ones(2 * w.size))
+    x, _ = nnls(np.column_stack(cols), prob.target())
     _, _, eta_s, G_e = prob.unpack(x)
     return _Fit(np.array([]), np.array([]), float(eta_s), float(G_e), float(np.sum(prob.residuals(x) ** 2)), x)
 
@@ -525,6 +534,7 @@ def fit_modes(
     n_modes: int | None = None,
     alpha: float = 0.01,
     per_decade: float = 2.0,
+    eta_s: float | None = None,
 ) -> Modes:
     """Fit nonnegative discrete Maxwell modes to a frequency sweep.
 
@@ -542,6 +552,8 @@ def fit_modes(
         Fit an equilibrium modulus G_e ≥ 0 (G' gains G_e).
     n_modes : int, optional
         Fix the number of modes instead of choosing it.
+    eta_s : float, optional
+        A known solvent viscosity (Pa·s), held fixed instead of fitted (as ``invert(eta_s=...)``).
     alpha : float
         Significance level of the F-test that decides whether one more mode
         improves the fit.
@@ -579,6 +591,10 @@ def fit_modes(
         raise SettingsError(f"alpha must lie between 0 and 1 (got {alpha!r})")
     if not per_decade > 0:
         raise SettingsError(f"per_decade must be positive (got {per_decade!r})")
+    if eta_s is not None:
+        if not (math.isfinite(eta_s) and eta_s >= 0):
+            raise SettingsError(f"eta_s must be a nonnegative number (got {eta_s!r})")
+        solvent = False  # known, not fitted
     omega = np.asarray(sweep.omega, dtype=float)
     storage = np.asarray(sweep.storage, dtype=float)
     loss = np.asarray(sweep.loss, dtype=float)
@@ -603,6 +619,7 @@ def fit_modes(
         # a mode cannot carry more than the data allow at τ = τ_min (g ωτ ≤ G''), nor be far below the data
         ln_g_bounds=(math.log(1e-8 * float(min(storage.min(), loss.min()))),
                      math.log(_TAU_MARGIN * 100.0 * float(max(storage.max(), loss.max())))),
+        eta_known=float(eta_s or 0.0),
     )
     step = math.log(10.0) / per_decade
     min_spacing = step
@@ -731,7 +748,7 @@ def fit_modes(
     for note in loud:
         warnings.warn(f"{source}: {note}" if source else note, WeakResultWarning, stacklevel=2)
     return Modes(
-        g=chosen.g, tau=chosen.tau, g_se=g_se, tau_se=tau_se, eta_s=chosen.eta_s, eta_s_se=eta_se,
+        g=chosen.g, tau=chosen.tau, g_se=g_se, tau_se=tau_se, eta_s=chosen.eta_s + prob.eta_known, eta_s_se=eta_se,
         G_e=chosen.G_e, G_e_se=ge_se, window=window, outside_window=outside, residual_rms=rms,
         omega=omega, storage=storage, loss=loss, storage_fit=gp, loss_fit=gpp, candidates=tuple(candidates),
         start=start, alpha=alpha, per_decade=per_decade, solvent=solvent, plateau=plateau,
