@@ -448,8 +448,9 @@ def side_by_side(*results: Derived) -> str:
                 why = ("relaxation times longer than the window: the data have no terminal zone"
                        if r.outside_side.get(key, "long") == "long" else
                        "relaxation times shorter than the window: faster than the highest frequency")
-                lines.append(f"from {r.basis}: {100 * r.outside_share[key]:.0f} % of the {words} comes from outside "
-                             f"the supported window ({why}); the data do not determine it")
+                lines.append(f"from {r.basis}: the {words} comes from outside the supported window to "
+                             f"{100 * r.outside_share[key]:.0f} % (it changes by that much without the part beyond "
+                             f"the window; {why}); the data do not determine it")
         lines.extend(f"from {r.basis}: {n}" for n in r.notes)
     return "\n".join(lines)
 
