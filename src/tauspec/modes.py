@@ -504,19 +504,18 @@ def _covariance(prob: _Problem, fit: _Fit) -> np.ndarray:
     """Covariance of the free parameters, s²(JᵀJ)⁻¹, with parameters at a bound held fixed."""
     J = prob.jacobian(fit.x)
     lower, upper = prob.bounds(fit.n_modes)
-    free = (fit.x > lower + 1e-10) & (fit.x < upper - 1e-10)
+    free = (fit.x > lower + 1e-8) & (fit.x < upper - 1e-8)  # pack() keeps pinned values 1e-9 inside
     dof = prob.n_data - int(free.sum())
     s2 = fit.rss / dof if dof > 0 else np.nan
     cov = np.full((fit.x.size, fit.x.size), np.nan)
-    Jf = J[:, free]
-    jtj = Jf.T @ Jf
-    try:
-        inv = np.linalg.inv(jtj)
-        if not np.all(np.isfinite(inv)) or np.linalg.cond(jtj) > 1e14:
-            raise np.linalg.LinAlgError
-    except np.linalg.LinAlgError:
-        inv = np.linalg.pinv(jtj)
-        inv[:] = np.where(np.abs(np.diag(inv))[:, None] > 0, inv, np.nan)
+    # (JᵀJ)⁻¹ = V diag(1/σ²) Vᵀ from the SVD of J; directions with σ < 1e-10 σ_max are not determined by
+    # the data, and every parameter with a sizeable part in one of them gets no standard error (NaN)
+    _, sv, Vt = np.linalg.svd(J[:, free], full_matrices=False)
+    good = sv > 1e-10 * (sv[0] if sv.size else 1.0)
+    inv = (Vt[good].T / sv[good] ** 2) @ Vt[good]
+    undetermined = np.any(np.abs(Vt[~good]) > 0.1, axis=0) if (~good).any() else np.zeros(inv.shape[0], bool)
+    inv[undetermined, :] = np.nan
+    inv[:, undetermined] = np.nan
     idx = np.flatnonzero(free)
     cov[np.ix_(idx, idx)] = s2 * inv
     # a parameter held at its bound (η_s = 0, G_e = 0) has no spread of its own
