@@ -24,6 +24,8 @@ _EXPORTS = {
     "DroppedPointsWarning": "errors",
     "invert": "spectrum",
     "Spectrum": "spectrum",
+    "diagnose": "diagnosis",
+    "Diagnosis": "diagnosis",
     "superpose": "superpose",
     "MasterCurve": "superpose",
     "supported_window": "spectrum",

@@ -10,14 +10,13 @@ from __future__ import annotations
 
 import argparse
 import math
-import sys
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
 from ..errors import SettingsError, TauspecError
-from ._common import add_output_arguments, each_file, output_dir_for
+from ._common import add_output_arguments, output_dir_for, run_each_file
 
 QUANTITIES = ("relaxation", "creep", "viscosity")
 _POINTS = 50
@@ -141,8 +140,6 @@ def predict_file(path: str, args: argparse.Namespace) -> dict[str, Any]:
 
 def run(args: argparse.Namespace) -> int:
     """Run ``tauspec predict``; return the exit status."""
-    from ..io import dumps_json
-
     if args.quantity == "viscosity" and args.times:
         raise SettingsError("--times belongs to --quantity relaxation or creep; use --rates for viscosity")
     if args.quantity != "viscosity" and args.rates:
@@ -151,16 +148,9 @@ def run(args: argparse.Namespace) -> int:
     for what in ("times", "rates"):
         if getattr(args, what):
             parse_points(getattr(args, what), what)
-    status = 0
-    for path in each_file(args.files):
-        try:
-            result = predict_file(path, args)
-        except TauspecError as exc:
-            if exc.source is None:
-                exc = type(exc)(exc.reason, str(path), exc.line)
-            print(f"tauspec: error: {exc.one_line()}", file=sys.stderr)
-            status = 1
-            continue
-        text = result.pop("_text")
-        print(dumps_json(result) if args.json else text, flush=True)
-    return status
+
+    def work(path: str) -> tuple[dict[str, Any], str]:
+        result = predict_file(path, args)
+        return result, result.pop("_text")
+
+    return run_each_file(args, work)
