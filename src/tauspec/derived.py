@@ -381,6 +381,11 @@ class Derived:
             "tau_longest": self.tau_longest,
             "flags": dict(self.flags),
             "outside_share": dict(self.outside_share),
+            "outside_side": dict(self.outside_side),
+            "Je0_polymer": self.Je0_polymer,
+            "eta_s": self.eta_s,
+            "G_e": self.G_e,
+            "window": None if self.window is None else list(self.window),
             "basis": self.basis,
         }
 
@@ -445,12 +450,13 @@ def side_by_side(*results: Derived) -> str:
             lines.append(f"from {r.basis}: supported window {lo:.4g} s to {hi:.4g} s (Davies & Anderssen 1997)")
         for key, (words, _) in _SCALAR_WORDS.items():
             if r.flags.get(key) and key != "Je0_polymer":
-                why = ("relaxation times longer than the window: the data have no terminal zone"
-                       if r.outside_side.get(key, "long") == "long" else
-                       "relaxation times shorter than the window: faster than the highest frequency")
-                lines.append(f"from {r.basis}: the {words} comes from outside the supported window to "
-                             f"{100 * r.outside_share[key]:.0f} % (it changes by that much without the part beyond "
-                             f"the window; {why}); the data do not determine it")
+                where = ("relaxation times longer than the supported window (the data have no terminal zone)"
+                         if r.outside_side.get(key, "long") == "long" else
+                         "relaxation times shorter than the supported window (faster than the highest frequency)")
+                pct = 100 * r.outside_share[key]
+                how = f"{pct:.0f} % of it comes from {where}" if pct <= 100 else \
+                    f"it changes by {pct:.0f} % without the {where}"
+                lines.append(f"from {r.basis}: {words}: {how}; the data do not determine it")
         lines.extend(f"from {r.basis}: {n}" for n in r.notes)
     return "\n".join(lines)
 
