@@ -7,7 +7,7 @@ import sys
 from pathlib import Path
 
 from ..errors import SettingsError, TauspecError
-from ..io import atomic_write_text, dumps_json, read_sweep, write_csv
+from ..io import atomic_write_text, csv_text, dumps_json, read_sweep
 from ..spectrum import Spectrum, invert
 from ._common import add_output_arguments, each_file, output_dir_for
 
@@ -52,16 +52,23 @@ def invert_settings(args: argparse.Namespace) -> dict:
     }
 
 
+def spectrum_tables(spectrum: Spectrum) -> dict[str, str]:
+    """The CSV tables of one spectrum: ``{"spectrum.csv": text, "fit.csv": text}``."""
+    return {
+        "spectrum.csv": csv_text(["tau [s]", "H [Pa]", "in_window"],
+                                 [spectrum.tau, spectrum.H, [int(v) for v in spectrum.in_window]]),
+        "fit.csv": csv_text(
+            ["omega [rad/s]", "G' [Pa]", "G'' [Pa]", "G' fit [Pa]", "G'' fit [Pa]"],
+            [spectrum.omega, spectrum.storage, spectrum.loss, spectrum.storage_fit, spectrum.loss_fit],
+        ),
+    }
+
+
 def write_spectrum_files(spectrum: Spectrum, out: Path, result: dict) -> None:
     """Write ``spectrum.csv``, ``fit.csv`` and ``result.json`` into ``out`` (each atomically)."""
     out.mkdir(parents=True, exist_ok=True)
-    write_csv(out / "spectrum.csv", ["tau [s]", "H [Pa]", "in_window"],
-              [spectrum.tau, spectrum.H, [int(v) for v in spectrum.in_window]])
-    write_csv(
-        out / "fit.csv",
-        ["omega [rad/s]", "G' [Pa]", "G'' [Pa]", "G' fit [Pa]", "G'' fit [Pa]"],
-        [spectrum.omega, spectrum.storage, spectrum.loss, spectrum.storage_fit, spectrum.loss_fit],
-    )
+    for name, text in spectrum_tables(spectrum).items():
+        atomic_write_text(out / name, text)
     atomic_write_text(out / "result.json", dumps_json(result, indent=1) + "\n")
 
 
