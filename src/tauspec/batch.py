@@ -562,12 +562,8 @@ def _worker_death_errors() -> tuple[type[BaseException], ...]:
 def _parallel(backend: str, jobs: int, scheduler: str | None) -> Iterator[dict[str, Any]]:
     """Yield the keyword arguments of :class:`joblib.Parallel` for the chosen backend."""
     if backend == "loky":
-        if scheduler:
-            raise SettingsError("--scheduler needs --backend dask")
         yield {"n_jobs": jobs, "backend": "loky"}
         return
-    if backend != "dask":
-        raise SettingsError(f"backend must be 'loky' or 'dask', not {backend!r}")
     try:
         import joblib
         from distributed import Client, LocalCluster
@@ -659,6 +655,10 @@ def run_batch(
     settings = settings or Settings()
     if not isinstance(jobs, int) or jobs < 1:
         raise SettingsError(f"--jobs must be a positive whole number, not {jobs!r}")
+    if backend not in ("loky", "dask"):
+        raise SettingsError(f"backend must be 'loky' or 'dask', not {backend!r}")
+    if scheduler and backend != "dask":
+        raise SettingsError("--scheduler needs --backend dask")
     out = Path(out)
     started = time.time()
     t0 = time.perf_counter()
