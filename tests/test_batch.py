@@ -276,3 +276,12 @@ def test_inputs_layout_manifest_and_name_clashes(tmp_path):
         ("extra/odd.sweep", "extra/odd"),
     ]
     assert [(i.file, i.key) for i in find_inputs([work / "liquids" / "m1.txt"], out)] == [("m1.txt", "m1")]
+
+
+def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
+    assert main(["demo", "--out", str(tmp_path)]) == 0  # the corrupted export is expected: still exit 0
+    first = capsys.readouterr().out
+    assert "exports/batch-22-truncated.csv:4: row has 2 values" in first and "9 computed" in first
+    assert len(read_summary(tmp_path / "results")) == 9
+    assert main(["demo", "--out", str(tmp_path)]) == 0
+    assert "(0 computed, 9 already current)" in capsys.readouterr().out

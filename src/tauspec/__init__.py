@@ -24,6 +24,7 @@ _EXPORTS = {
     "DroppedPointsWarning": "errors",
     "invert": "spectrum",
     "Spectrum": "spectrum",
+    "run_batch": "batch",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]
