@@ -302,7 +302,8 @@ def _figures(spectrum: Any) -> dict[str, bytes]:
         return {p.name: p.read_bytes() for p in save_spectrum_figures(spectrum, tmp)}
 
 
-def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | None = None) -> dict[str, Any]:
+def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | None = None,
+            input_sha256: str | None = None) -> dict[str, Any]:
     """Run the pipeline on one sweep: read, invert (then modes and diagnosis as they become available).
 
     The one function sent to the workers: top level, picklable, no global
@@ -317,18 +318,21 @@ def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | Non
     settings : Settings
     source : str, optional
         The name of the file, used in messages and results.
+    input_sha256 : str, optional
+        The sha256 of the file's bytes, recorded in the result (the resume key).
 
     Returns
     -------
     dict
         ``result`` (JSON-ready; identical for identical input and settings),
-        ``files`` (name → text or bytes to write beside it) and ``seconds``
+        ``files`` (name → text or bytes to write into the result folder, ``result.json``
+        among them, serialized here so that the workers do that work) and ``seconds``
         (time per step; kept out of ``result``).
     """
     if isinstance(sweep_or_text, Sweep):
         source = source or sweep_or_text.source or sweep_or_text.name
     source = source or "<text>"
-    result: dict[str, Any] = {"file": source, "status": "ok", "error": None, "retry": False}
+    result = _header(source, input_sha256, settings)
     files: dict[str, str | bytes] = {}
     seconds: dict[str, float] = {}
     caught: list[warnings.WarningMessage] = []
@@ -362,7 +366,16 @@ def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | Non
         result.update(status="error", error=f"{source}: internal error: {type(exc).__name__}: {exc}", retry=True)
     notes = list(dict.fromkeys(f"{w.category.__name__}: {w.message}" for w in caught))
     result["notes"] = notes
+    t = time.perf_counter()
+    files["result.json"] = dumps_json(result) + "\n"
+    seconds["json"] = time.perf_counter() - t
     return {"result": result, "files": files, "seconds": seconds}
+
+
+def _header(file: str, input_sha: str | None, settings: Settings, status: str = "ok", error: str | None = None,
+            retry: bool = False) -> dict[str, Any]:
+    return {"schema": SCHEMA, "file": file, "status": status, "error": error, "retry": retry,
+            "input_sha256": input_sha, "settings_sha256": settings.digest()}
 
 
 # --------------------------------------------------------------------------- storing results
@@ -389,28 +402,24 @@ def _is_current(folder: Path, input_sha: str, settings_sha: str, plots: bool) ->
     return not (plots and d.get("status") == "ok" and not all((folder / f).exists() for f in FIGURES))
 
 
-def _store(out: Path, inp: Input, core: dict[str, Any], files: Mapping[str, str | bytes], input_sha: str | None,
-           settings_sha: str) -> dict[str, Any]:
+def _store(out: Path, inp: Input, files: Mapping[str, str | bytes]) -> None:
     """Write one result folder; ``result.json`` last, so its presence means the folder is complete."""
     folder = out / inp.key
     folder.mkdir(parents=True, exist_ok=True)
     for name in RESULT_FILES:
         if name not in files and (folder / name).exists():
             (folder / name).unlink()
-    for name, content in files.items():
+    for name, content in sorted(files.items(), key=lambda item: item[0] == "result.json"):
         if isinstance(content, bytes):
             atomic_write_bytes(folder / name, content)
         else:
             atomic_write_text(folder / name, content)
-    result = {"schema": SCHEMA, "file": inp.file, "status": core["status"], "error": core["error"],
-              "retry": core["retry"], "input_sha256": input_sha, "settings_sha256": settings_sha}
-    result.update((k, v) for k, v in core.items() if k not in result)
-    atomic_write_text(folder / "result.json", dumps_json(result, indent=1) + "\n")
-    return result
 
 
-def _error_core(inp: Input, message: str, retry: bool) -> dict[str, Any]:
-    return {"file": inp.file, "status": "error", "error": message, "retry": retry, "notes": []}
+def _error_files(inp: Input, message: str, input_sha: str | None, settings: Settings, retry: bool) -> dict[str, str]:
+    result = _header(inp.file, input_sha, settings, "error", message, retry)
+    result["notes"] = []
+    return {"result.json": dumps_json(result) + "\n"}
 
 
 # --------------------------------------------------------------------------- the summary
@@ -674,7 +683,7 @@ def run_batch(
 
         bar = tqdm(total=len(inputs), unit="sweep", file=sys.stderr, leave=False)
 
-    def done(result: dict[str, Any]) -> None:
+    def done() -> None:
         counts["computed"] += 1
         if bar is not None:
             bar.update(1)
@@ -689,13 +698,15 @@ def run_batch(
                     bar.update(1)
                 continue
             if error is not None or text is None:
-                done(_store(out, inp, _error_core(inp, error or "", sha is None), {}, sha, settings_sha))
+                _store(out, inp, _error_files(inp, error or "", sha, settings, sha is None))
+                done()
                 continue
             yield _Task(inp, text, sha)
 
     def finish(task: _Task, res: dict[str, Any]) -> None:
         step_seconds.update(res.get("seconds", {}))
-        done(_store(out, task.inp, res["result"], res["files"], task.input_sha, settings_sha))
+        _store(out, task.inp, res["files"])
+        done()
 
     deaths = _worker_death_errors()
     try:
@@ -708,7 +719,7 @@ def run_batch(
             def feed() -> Iterator[Any]:
                 for task in queue:
                     pending[task.inp.file] = task
-                    yield delayed(step)(task.text, settings, source=task.inp.file)
+                    yield delayed(step)(task.text, settings, source=task.inp.file, input_sha256=task.input_sha)
 
             while True:
                 try:
@@ -721,10 +732,11 @@ def run_batch(
                     suspects = [pending.pop(f) for f in sorted(pending)]
                     for task in suspects:
                         try:
-                            res = Parallel(**kw)([delayed(step)(task.text, settings, source=task.inp.file)])[0]
+                            res = Parallel(**kw)([delayed(step)(task.text, settings, source=task.inp.file,
+                                                                input_sha256=task.input_sha)])[0]
                         except deaths:
-                            res = {"result": _error_core(task.inp, f"{task.inp.file}: {WORKER_DIED}", True),
-                                   "files": {}}
+                            message = f"{task.inp.file}: {WORKER_DIED}"
+                            res = {"files": _error_files(task.inp, message, task.input_sha, settings, True)}
                         finish(task, res)
     finally:
         if bar is not None:

@@ -1,0 +1,150 @@
+"""Batch throughput, per-task overhead and peak memory per worker.
+
+    OPENBLAS_NUM_THREADS=1 python benchmarks/bench_batch.py [--n 200] [--small 50] [--json out.json]
+
+Each measurement runs in a fresh Python process with its workers started and warmed up before the clock
+starts (the cold total, with worker start-up, is reported too). Baselines in the same run:
+
+* bare loop: ``read_sweep`` + ``invert`` for each file in one process, no batch machinery;
+* bare workers: the same two calls through ``joblib.Parallel(n_jobs=2)`` (loky), BLAS limited to one thread;
+* batch: ``run_batch`` at --jobs 1 and 2 (hashing, result files, summary, run.json included).
+
+Peak memory: ``ru_maxrss`` of the client and of each worker process after the run; the batch at --jobs 2 is
+run on ``--small`` and ``--n`` sweeps to show whether it grows with the archive.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+SRC = HERE.parent / "src"
+
+
+def write_archive(folder: Path, n: int) -> None:
+    from tauspec.demo import demo_samples
+
+    count, seed = 0, 1
+    while count < n:
+        for s in demo_samples(seed):
+            if count == n:
+                break
+            rows = "\n".join(f"{w:.6g},{a:.6g},{b:.6g}" for w, a, b in zip(s.omega, s.storage, s.loss))
+            path = folder / f"seed{seed:03d}" / f"{s.name}.csv"
+            path.parent.mkdir(parents=True, exist_ok=True)
+            path.write_text(f"# sample: {s.name}\nomega [rad/s],G' [Pa],G'' [Pa]\n{rows}\n")
+            count += 1
+        seed += 1
+
+
+def _bare_one(path: str) -> float:
+    import warnings
+
+    from threadpoolctl import threadpool_limits
+
+    from tauspec.io import read_sweep
+    from tauspec.spectrum import invert
+
+    with threadpool_limits(1), warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return invert(read_sweep(path)).strength
+
+
+def _worker_rss() -> tuple[int, int]:
+    time.sleep(0.05)  # let every worker take one
+    return os.getpid(), resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+
+
+def child(mode: str, archive: str, out: str, jobs: int) -> dict:
+    from joblib import Parallel, delayed
+
+    from tauspec.batch import run_batch
+
+    files = sorted(str(p) for p in Path(archive).rglob("*.csv"))
+    t_cold = time.perf_counter()
+    _bare_one(files[0])  # imports and first-call costs, in this process
+    if jobs > 1:
+        Parallel(n_jobs=jobs)(delayed(_bare_one)(f) for f in files[: 2 * jobs])
+    t0 = time.perf_counter()
+    if mode == "bare":
+        if jobs == 1:
+            for f in files:
+                _bare_one(f)
+        else:
+            Parallel(n_jobs=jobs)(delayed(_bare_one)(f) for f in files)
+    else:
+        report = run_batch([archive], out, jobs=jobs)
+        assert report.ok == len(files), report
+    wall = time.perf_counter() - t0
+    workers = {}
+    if jobs > 1:
+        workers = dict(Parallel(n_jobs=jobs)(delayed(_worker_rss)() for _ in range(8 * jobs)))
+    return {"mode": mode, "jobs": jobs, "n": len(files), "seconds": wall, "cold_seconds": time.perf_counter() - t_cold,
+            "sweeps_per_s": len(files) / wall, "client_maxrss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024,
+            "worker_maxrss_mb": sorted(v / 1024 for v in workers.values())}
+
+
+def measure(mode: str, archive: Path, jobs: int, tmp: Path) -> dict:
+    out = tmp / f"out-{mode}-{jobs}-{archive.name}"
+    env = {**os.environ, "PYTHONPATH": f"{SRC}{os.pathsep}{os.environ.get('PYTHONPATH', '')}",
+           "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"}
+    r = subprocess.run([sys.executable, __file__, "--child", mode, str(archive), str(out), str(jobs)],
+                       capture_output=True, text=True, env=env, check=True)
+    return json.loads(r.stdout.strip().splitlines()[-1])
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--n", type=int, default=200)
+    ap.add_argument("--small", type=int, default=50)
+    ap.add_argument("--json", type=Path, default=None)
+    ap.add_argument("--child", nargs=4, default=None, help=argparse.SUPPRESS)
+    args = ap.parse_args()
+    if args.child:
+        mode, archive, out, jobs = args.child
+        print(json.dumps(child(mode, archive, out, int(jobs))))
+        return
+    sys.path.insert(0, str(SRC))
+    load = [os.getloadavg()]
+    with tempfile.TemporaryDirectory(prefix="bench-batch-") as tmp_name:
+        tmp = Path(tmp_name)
+        big, small = tmp / "big", tmp / "small"
+        write_archive(big, args.n)
+        write_archive(small, args.small)
+        runs = {}
+        for mode, jobs, archive in (("bare", 1, big), ("batch", 1, big), ("bare", 2, big), ("batch", 2, big),
+                                    ("batch", 2, small)):
+            key = f"{mode}-{jobs}-{archive.name}"
+            runs[key] = measure(mode, archive, jobs, tmp)
+            load.append(os.getloadavg())
+            r = runs[key]
+            print(f"{key:16s} n={r['n']:4d}  {r['seconds']:7.2f} s  {r['sweeps_per_s']:6.2f} sweeps/s  "
+                  f"(cold {r['cold_seconds']:.2f} s)  client {r['client_maxrss_mb']:.0f} MB  "
+                  f"workers {[round(v) for v in r['worker_maxrss_mb']]} MB", flush=True)
+    b1, b2 = runs["batch-1-big"], runs["batch-2-big"]
+    p1, p2 = runs["bare-1-big"], runs["bare-2-big"]
+    summary = {
+        "speedup_batch_jobs2_over_jobs1": b2["sweeps_per_s"] / b1["sweeps_per_s"],
+        "speedup_bare_workers_2_over_bare_loop": p2["sweeps_per_s"] / p1["sweeps_per_s"],
+        "overhead_per_task_ms_jobs1": 1e3 * (b1["seconds"] - p1["seconds"]) / b1["n"],
+        "overhead_share_jobs1": (b1["seconds"] - p1["seconds"]) / p1["seconds"],
+        "overhead_per_task_ms_jobs2_vs_bare_workers": 1e3 * (b2["seconds"] - p2["seconds"]) / b2["n"],
+        "load_average_1min": [round(x[0], 2) for x in load],
+        "cpus": os.cpu_count(),
+    }
+    for k, v in summary.items():
+        print(f"{k}: {v if isinstance(v, list) else round(v, 3)}")
+    if args.json:
+        args.json.write_text(json.dumps({"runs": runs, "summary": summary}, indent=1) + "\n")
+
+
+if __name__ == "__main__":
+    main()
