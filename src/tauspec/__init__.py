@@ -25,6 +25,8 @@ _EXPORTS = {
     "invert": "spectrum",
     "Spectrum": "spectrum",
     "run_batch": "batch",
+    "superpose": "superpose",
+    "MasterCurve": "superpose",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]
