@@ -19,6 +19,7 @@ import argparse
 import json
 import os
 import resource
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -87,13 +88,14 @@ def child(mode: str, archive: str, out: str, jobs: int) -> dict:
     workers = {}
     if jobs > 1:
         workers = dict(Parallel(n_jobs=jobs)(delayed(_worker_rss)() for _ in range(8 * jobs)))
-    return {"mode": mode, "jobs": jobs, "n": len(files), "seconds": wall, "cold_seconds": time.perf_counter() - t_cold,
-            "sweeps_per_s": len(files) / wall, "client_maxrss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024,
+    return {"mode": mode, "jobs": jobs, "n": len(files), "seconds": wall,
+            "cold_seconds": time.perf_counter() - t_cold,
+            "client_maxrss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024,
             "worker_maxrss_mb": sorted(v / 1024 for v in workers.values())}
 
 
 def measure(mode: str, archive: Path, jobs: int, tmp: Path) -> dict:
-    out = tmp / f"out-{mode}-{jobs}-{archive.name}"
+    out = tmp / f"out-{mode}-{jobs}-{archive.name}"  # a fresh folder: nothing is current
     env = {**os.environ, "PYTHONPATH": f"{SRC}{os.pathsep}{os.environ.get('PYTHONPATH', '')}",
            "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"}
     r = subprocess.run([sys.executable, __file__, "--child", mode, str(archive), str(out), str(jobs)],
@@ -105,6 +107,7 @@ def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--n", type=int, default=200)
     ap.add_argument("--small", type=int, default=50)
+    ap.add_argument("--repeats", type=int, default=3, help="interleaved repeats; the minimum is reported")
     ap.add_argument("--json", type=Path, default=None)
     ap.add_argument("--child", nargs=4, default=None, help=argparse.SUPPRESS)
     args = ap.parse_args()
@@ -114,34 +117,47 @@ def main() -> None:
         return
     sys.path.insert(0, str(SRC))
     load = [os.getloadavg()]
+    runs: dict[str, list[dict]] = {}
     with tempfile.TemporaryDirectory(prefix="bench-batch-") as tmp_name:
         tmp = Path(tmp_name)
         big, small = tmp / "big", tmp / "small"
         write_archive(big, args.n)
         write_archive(small, args.small)
-        runs = {}
-        for mode, jobs, archive in (("bare", 1, big), ("batch", 1, big), ("bare", 2, big), ("batch", 2, big),
-                                    ("batch", 2, small)):
-            key = f"{mode}-{jobs}-{archive.name}"
-            runs[key] = measure(mode, archive, jobs, tmp)
-            load.append(os.getloadavg())
-            r = runs[key]
-            print(f"{key:16s} n={r['n']:4d}  {r['seconds']:7.2f} s  {r['sweeps_per_s']:6.2f} sweeps/s  "
-                  f"(cold {r['cold_seconds']:.2f} s)  client {r['client_maxrss_mb']:.0f} MB  "
-                  f"workers {[round(v) for v in r['worker_maxrss_mb']]} MB", flush=True)
-    b1, b2 = runs["batch-1-big"], runs["batch-2-big"]
-    p1, p2 = runs["bare-1-big"], runs["bare-2-big"]
+        for rep in range(args.repeats):
+            for mode, jobs, archive in (("bare", 1, big), ("batch", 1, big), ("bare", 2, big), ("batch", 2, big),
+                                        ("batch", 2, small)):
+                key = f"{mode}-{jobs}-{archive.name}"
+                r = measure(mode, archive, jobs, tmp / f"rep{rep}")
+                runs.setdefault(key, []).append(r)
+                load.append(os.getloadavg())
+                print(f"{key:16s} n={r['n']:4d}  {r['seconds']:7.2f} s  {r['n'] / r['seconds']:6.2f} sweeps/s  "
+                      f"(cold {r['cold_seconds']:.2f} s)  client {r['client_maxrss_mb']:.0f} MB  "
+                      f"workers {[round(v) for v in r['worker_maxrss_mb']]} MB  load {load[-1][0]:.2f}", flush=True)
+    best = {k: min(v, key=lambda r: r["seconds"]) for k, v in runs.items()}
+    med = {k: statistics.median(r["seconds"] for r in v) for k, v in runs.items()}
+    n = args.n
     summary = {
-        "speedup_batch_jobs2_over_jobs1": b2["sweeps_per_s"] / b1["sweeps_per_s"],
-        "speedup_bare_workers_2_over_bare_loop": p2["sweeps_per_s"] / p1["sweeps_per_s"],
-        "overhead_per_task_ms_jobs1": 1e3 * (b1["seconds"] - p1["seconds"]) / b1["n"],
-        "overhead_share_jobs1": (b1["seconds"] - p1["seconds"]) / p1["seconds"],
-        "overhead_per_task_ms_jobs2_vs_bare_workers": 1e3 * (b2["seconds"] - p2["seconds"]) / b2["n"],
+        "sweeps_per_s_min_time": {k: r["n"] / r["seconds"] for k, r in best.items()},
+        "speedup_batch_jobs2_over_jobs1 (min)": best["batch-1-big"]["seconds"] / best["batch-2-big"]["seconds"],
+        "speedup_batch_jobs2_over_jobs1 (median)": med["batch-1-big"] / med["batch-2-big"],
+        "speedup_bare_workers_2_over_bare_loop (min)": best["bare-1-big"]["seconds"] / best["bare-2-big"]["seconds"],
+        "overhead_per_task_ms_jobs1 (min)": 1e3 * (best["batch-1-big"]["seconds"] - best["bare-1-big"]["seconds"]) / n,
+        "overhead_share_jobs1 (min)": best["batch-1-big"]["seconds"] / best["bare-1-big"]["seconds"] - 1,
+        "overhead_share_jobs2_vs_bare_workers (min)": best["batch-2-big"]["seconds"] / best["bare-2-big"]["seconds"]
+        - 1,
+        "worker_maxrss_mb_small_vs_big": [max(best["batch-2-small"]["worker_maxrss_mb"]),
+                                          max(best["batch-2-big"]["worker_maxrss_mb"])],
+        "client_maxrss_mb_small_vs_big": [best["batch-2-small"]["client_maxrss_mb"],
+                                          best["batch-2-big"]["client_maxrss_mb"]],
         "load_average_1min": [round(x[0], 2) for x in load],
         "cpus": os.cpu_count(),
     }
     for k, v in summary.items():
-        print(f"{k}: {v if isinstance(v, list) else round(v, 3)}")
+        if isinstance(v, dict):
+            v = {a: round(b, 2) for a, b in v.items()}
+        elif isinstance(v, float):
+            v = round(v, 3)
+        print(f"{k}: {v}")
     if args.json:
         args.json.write_text(json.dumps({"runs": runs, "summary": summary}, indent=1) + "\n")
 

@@ -556,14 +556,15 @@ def _versions(backend: str) -> dict[str, str]:
     return out
 
 
-def _worker_death_errors() -> tuple[type[BaseException], ...]:
-    from concurrent.futures.process import BrokenProcessPool
+def _worker_death_errors(backend: str) -> tuple[type[BaseException], ...]:
+    from concurrent.futures.process import BrokenProcessPool  # loky's TerminatedWorkerError is one
 
     errors: list[type[BaseException]] = [BrokenProcessPool]
-    with contextlib.suppress(ImportError):
-        from distributed import KilledWorker
+    if backend == "dask":  # importing distributed costs seconds: only when it is used
+        with contextlib.suppress(ImportError):
+            from distributed import KilledWorker
 
-        errors.append(KilledWorker)
+            errors.append(KilledWorker)
     return tuple(errors)
 
 
@@ -708,7 +709,7 @@ def run_batch(
         _store(out, task.inp, res["files"])
         done()
 
-    deaths = _worker_death_errors()
+    deaths = _worker_death_errors(backend)
     try:
         with _parallel(backend, jobs, scheduler) as kw:
             from joblib import Parallel, delayed
