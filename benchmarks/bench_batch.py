@@ -74,7 +74,7 @@ def child(mode: str, archive: str, out: str, jobs: int) -> dict:
     _bare_one(files[0])  # imports and first-call costs, in this process
     if jobs > 1:
         Parallel(n_jobs=jobs)(delayed(_bare_one)(f) for f in files[: 2 * jobs])
-    t0 = time.perf_counter()
+    t0, c0 = time.perf_counter(), time.process_time()
     if mode == "bare":
         if jobs == 1:
             for f in files:
@@ -84,11 +84,11 @@ def child(mode: str, archive: str, out: str, jobs: int) -> dict:
     else:
         report = run_batch([archive], out, jobs=jobs)
         assert report.ok == len(files), report
-    wall = time.perf_counter() - t0
+    wall, cpu = time.perf_counter() - t0, time.process_time() - c0
     workers = {}
     if jobs > 1:
         workers = dict(Parallel(n_jobs=jobs)(delayed(_worker_rss)() for _ in range(8 * jobs)))
-    return {"mode": mode, "jobs": jobs, "n": len(files), "seconds": wall,
+    return {"mode": mode, "jobs": jobs, "n": len(files), "seconds": wall, "client_cpu_seconds": cpu,
             "cold_seconds": time.perf_counter() - t_cold,
             "client_maxrss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024,
             "worker_maxrss_mb": sorted(v / 1024 for v in workers.values())}
@@ -131,7 +131,7 @@ def main() -> None:
                 runs.setdefault(key, []).append(r)
                 load.append(os.getloadavg())
                 print(f"{key:16s} n={r['n']:4d}  {r['seconds']:7.2f} s  {r['n'] / r['seconds']:6.2f} sweeps/s  "
-                      f"(cold {r['cold_seconds']:.2f} s)  client {r['client_maxrss_mb']:.0f} MB  "
+                      f"(cold {r['cold_seconds']:.2f} s)  cpu {r['client_cpu_seconds']:.2f} s  client {r['client_maxrss_mb']:.0f} MB  "
                       f"workers {[round(v) for v in r['worker_maxrss_mb']]} MB  load {load[-1][0]:.2f}", flush=True)
     best = {k: min(v, key=lambda r: r["seconds"]) for k, v in runs.items()}
     med = {k: statistics.median(r["seconds"] for r in v) for k, v in runs.items()}
@@ -143,6 +143,11 @@ def main() -> None:
         "speedup_bare_workers_2_over_bare_loop (min)": best["bare-1-big"]["seconds"] / best["bare-2-big"]["seconds"],
         "overhead_per_task_ms_jobs1 (min)": 1e3 * (best["batch-1-big"]["seconds"] - best["bare-1-big"]["seconds"]) / n,
         "overhead_share_jobs1 (min)": best["batch-1-big"]["seconds"] / best["bare-1-big"]["seconds"] - 1,
+        "cpu_overhead_per_task_ms_jobs1 (min)": 1e3 * (min(r["client_cpu_seconds"] for r in runs["batch-1-big"])
+                                                      - min(r["client_cpu_seconds"] for r in runs["bare-1-big"])) / n,
+        "cpu_overhead_share_jobs1 (min)": min(r["client_cpu_seconds"] for r in runs["batch-1-big"])
+        / min(r["client_cpu_seconds"] for r in runs["bare-1-big"]) - 1,
+        "client_cpu_ms_per_task_jobs2 (min)": 1e3 * min(r["client_cpu_seconds"] for r in runs["batch-2-big"]) / n,
         "overhead_share_jobs2_vs_bare_workers (min)": best["batch-2-big"]["seconds"] / best["bare-2-big"]["seconds"]
         - 1,
         "worker_maxrss_mb_small_vs_big": [max(best["batch-2-small"]["worker_maxrss_mb"]),

@@ -442,7 +442,7 @@ def summary_row(result: Mapping[str, Any] | None, file: str) -> dict[str, str]:
     diagnosis = result.get("diagnosis") or {}
     derived = result.get("derived") or {}
     modes = result.get("modes") or {}
-    warn = list(spectrum.get("warnings") or []) + list(result.get("notes") or [])
+    warn = list(result.get("notes") or [])  # every warning of every step (the spectrum's are among them)
     row = {
         "file": file,
         "status": str(result.get("status", "error")),
