@@ -131,7 +131,8 @@ def main() -> None:
                 runs.setdefault(key, []).append(r)
                 load.append(os.getloadavg())
                 print(f"{key:16s} n={r['n']:4d}  {r['seconds']:7.2f} s  {r['n'] / r['seconds']:6.2f} sweeps/s  "
-                      f"(cold {r['cold_seconds']:.2f} s)  cpu {r['client_cpu_seconds']:.2f} s  client {r['client_maxrss_mb']:.0f} MB  "
+                      f"(cold {r['cold_seconds']:.2f} s)  cpu {r['client_cpu_seconds']:.2f} s  "
+                      f"client {r['client_maxrss_mb']:.0f} MB  "
                       f"workers {[round(v) for v in r['worker_maxrss_mb']]} MB  load {load[-1][0]:.2f}", flush=True)
     best = {k: min(v, key=lambda r: r["seconds"]) for k, v in runs.items()}
     med = {k: statistics.median(r["seconds"] for r in v) for k, v in runs.items()}
