@@ -29,6 +29,7 @@ SUBCOMMANDS: dict[str, tuple[str, str]] = {
     "batch": ("batch", "reprocess an archive of sweep files in parallel, resumably, into one summary table"),
     "demo": ("demo", "write an invented example archive and process it"),
     "master": ("master", "superpose sweeps at several temperatures into a master curve (time–temperature shift)"),
+    "report": ("report", "write the browsable HTML report of a batch output folder"),
 }
 
 
