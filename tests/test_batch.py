@@ -285,3 +285,11 @@ def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
     assert len(read_summary(tmp_path / "results")) == 9
     assert main(["demo", "--out", str(tmp_path)]) == 0
     assert "(0 computed, 9 already current)" in capsys.readouterr().out
+
+
+def test_written_files_get_the_usual_permissions(reference):
+    out, _ = reference
+    mask = os.umask(0o022)
+    os.umask(mask)
+    for p in [out / "summary.csv", out / "run.json", *out.rglob("result.json"), *out.rglob("spectrum.csv")]:
+        assert p.stat().st_mode & 0o777 == 0o666 & ~mask, p  # as open() would create them, not mkstemp's 0600

@@ -11,6 +11,7 @@ the file, the line and the reason.
 from __future__ import annotations
 
 import codecs
+import functools
 import json
 import math
 import os
@@ -495,15 +496,25 @@ def _ranges(numbers: Iterable[int]) -> str:
 # --------------------------------------------------------------------------- writing
 
 
+@functools.lru_cache(maxsize=1)
+def _umask() -> int:
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
 def atomic_write_bytes(path: str | os.PathLike[str], data: bytes) -> None:
     """Write ``data`` to ``path`` atomically: a temporary file in the same folder, then a rename.
 
-    A crash leaves either the old file or the new one, never half of one.
+    A crash leaves either the old file or the new one, never half of one.  The
+    file gets the usual permissions (0666 less the umask), not the 0600 of a
+    temporary file.
     """
     p = Path(path)
     p.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent)
     try:
+        os.fchmod(fd, 0o666 & ~_umask())
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()

@@ -40,6 +40,7 @@ def run(args: argparse.Namespace) -> int:
     print(f"results: {results}/<file>/result.json (+ spectrum.csv, fit.csv"
           + (", figures" if args.plots else "") + ")")
     print(f"summary: {results / 'summary.csv'}   run record: {results / 'run.json'}")
+    print(f"browsable HTML report: tauspec report {results}")
     expected = {Path(f).as_posix() for f in CORRUPTED}
     unexpected = [r for r in rows if r["status"] != "ok" and r["file"] not in expected]
     return 1 if unexpected else 0
