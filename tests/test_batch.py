@@ -293,3 +293,18 @@ def test_written_files_get_the_usual_permissions(reference):
     os.umask(mask)
     for p in [out / "summary.csv", out / "run.json", *out.rglob("result.json"), *out.rglob("spectrum.csv")]:
         assert p.stat().st_mode & 0o777 == 0o666 & ~mask, p  # as open() would create them, not mkstemp's 0600
+
+
+def test_manifest_entry_missing_is_an_error_row_and_progress_goes_to_stderr(tmp_path, capsys):
+    work = tmp_path / "arch"
+    make_archive(work, n=2)
+    manifest = tmp_path / "list.csv"
+    manifest.write_text("file\narch/solutions/ln0.csv\narch/gone.csv\n")
+    report = run_batch([], tmp_path / "out", settings=SMALL, manifest=manifest, progress=True)
+    assert (report.inputs, report.ok, report.failed) == (2, 1, 1)
+    rows = {r["file"]: r for r in read_summary(tmp_path / "out")}
+    assert rows["arch/gone.csv"]["error"] == "arch/gone.csv: no such file"
+    captured = capsys.readouterr()
+    assert captured.out == "" and "sweep" in captured.err  # the tqdm bar, on stderr only
+    # a missing file has no content hash: it is looked for again on every run
+    assert run_batch([], tmp_path / "out", settings=SMALL, manifest=manifest).computed == 1

@@ -229,7 +229,7 @@ def _read_manifest(path: Path) -> list[Path]:
 
 def find_inputs(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[str],
                 manifest: str | os.PathLike[str] | None = None) -> list[Input]:
-    """Return the input files, sorted by their path relative to the common folder of ``paths``.
+    """Return the input files, sorted by their path relative to the common folder of ``paths`` (and the manifest).
 
     Folders are searched recursively for files ending in :data:`SWEEP_SUFFIXES`
     (hidden files and folders, and the output folder, are left out); files
@@ -251,6 +251,7 @@ def find_inputs(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[
         else:
             raise TauspecError("no such file or folder", str(p))
     if manifest is not None:
+        bases.append(os.path.abspath(Path(manifest).parent))  # its entries are named relative to its folder
         for f in _read_manifest(Path(manifest)):
             a = Path(os.path.abspath(f))
             bases.append(str(a.parent))
