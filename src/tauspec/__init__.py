@@ -25,6 +25,8 @@ _EXPORTS = {
     "invert": "spectrum",
     "Spectrum": "spectrum",
     "run_batch": "batch",
+    "diagnose": "diagnosis",
+    "Diagnosis": "diagnosis",
     "superpose": "superpose",
     "MasterCurve": "superpose",
 }

@@ -3,13 +3,12 @@
 from __future__ import annotations
 
 import argparse
-import sys
 from pathlib import Path
 
-from ..errors import SettingsError, TauspecError
+from ..errors import SettingsError
 from ..io import atomic_write_text, csv_text, dumps_json, read_sweep
 from ..spectrum import Spectrum, invert
-from ._common import add_output_arguments, each_file, output_dir_for
+from ._common import add_output_arguments, output_dir_for, run_each_file
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -75,27 +74,18 @@ def write_spectrum_files(spectrum: Spectrum, out: Path, result: dict) -> None:
 def run(args: argparse.Namespace) -> int:
     """Invert every file; print JSON lines or a text report."""
     settings = invert_settings(args)
-    status = 0
-    for path in each_file(args.files):
-        try:
-            sweep = read_sweep(path)
-            spectrum = invert(sweep, **settings)
-            result = spectrum.to_dict()
-            out = output_dir_for(args, path)
-            if out is not None:
-                write_spectrum_files(spectrum, out, result)
-            if args.plot:
-                from ..plots import save_spectrum_figures
 
-                save_spectrum_figures(spectrum, out or Path("."), prefix="" if out else f"{Path(path).stem}-")
-        except TauspecError as exc:
-            if exc.source is None:
-                exc = type(exc)(exc.reason, str(path), exc.line)
-            print(f"tauspec: error: {exc.one_line()}", file=sys.stderr)
-            status = 1
-            continue
-        if args.json:
-            print(dumps_json(result), flush=True)
-        else:
-            print(spectrum.report(), flush=True)
-    return status
+    def work(path: str) -> tuple[dict, str]:
+        sweep = read_sweep(path)
+        spectrum = invert(sweep, **settings)
+        result = spectrum.to_dict()
+        out = output_dir_for(args, path)
+        if out is not None:
+            write_spectrum_files(spectrum, out, result)
+        if args.plot:
+            from ..plots import save_spectrum_figures
+
+            save_spectrum_figures(spectrum, out or Path("."), prefix="" if out else f"{Path(path).stem}-")
+        return result, spectrum.report()
+
+    return run_each_file(args, work)
