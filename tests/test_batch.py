@@ -13,7 +13,16 @@ import pytest
 
 from synthetic import lognormal_sweep, maxwell_sweep
 from tauspec import batch
-from tauspec.batch import InvertOptions, Settings, find_inputs, load_settings, process, read_summary, run_batch
+from tauspec.batch import (
+    DiagnoseOptions,
+    InvertOptions,
+    Settings,
+    find_inputs,
+    load_settings,
+    process,
+    read_summary,
+    run_batch,
+)
 from tauspec.cli import main
 from tauspec.errors import SettingsError
 from tauspec.io import read_sweep
@@ -21,7 +30,8 @@ from tauspec.spectrum import invert
 
 SRC = str(Path(__file__).resolve().parents[1] / "src")
 GRID = 24  # small τ grids keep the suite quick
-SMALL = Settings(invert=InvertOptions(grid=GRID))
+OFF = "[diagnose]\nrun = false\n"  # the diagnosis takes seconds per sweep: the mechanics are tested without it
+SMALL = Settings(invert=InvertOptions(grid=GRID), diagnose=DiagnoseOptions(run=False))
 
 
 def write_sweep(path, sweep, extra=""):
@@ -89,6 +99,7 @@ def test_outputs_summary_and_hashes(archive, reference):
     run = json.loads((out / "run.json").read_text())
     assert run["counts"] == {"inputs": 8, "ok": 8, "failed": 0, "computed": 8, "skipped": 0, "worker_deaths": 0}
     assert run["versions"]["tauspec"] and run["versions"]["numpy"] and run["settings"]["invert"]["grid"] == GRID
+    assert run["settings"]["steps"] == ["read", "invert"] and "diagnosis" not in stored
     assert "worker_s" in run["timings"] and "timings" not in stored
 
 
@@ -116,7 +127,7 @@ def test_resume_skips_current_and_recomputes_changes(archive, tmp_path):
     assert (one.computed, one.skipped) == (1, 5)
     assert json.loads((out / "liquids" / "m1" / "result.json").read_text())["sample"] == "maxwell-1b"
     # changed settings recompute everything; so does --force
-    gcv = Settings(invert=InvertOptions(grid=GRID, select="gcv"))
+    gcv = Settings(invert=InvertOptions(grid=GRID, select="gcv"), diagnose=SMALL.diagnose)
     assert run_batch([work], out, settings=gcv).computed == 6
     assert json.loads((out / "run.json").read_text())["counts"]["computed"] == 6
     assert run_batch([work], out, settings=gcv).skipped == 6
@@ -128,7 +139,7 @@ def test_broken_file_is_an_error_row_and_exit_1(tmp_path, capsys):
     make_archive(work, n=4)
     (work / "solutions" / "cut.csv").write_text("omega [rad/s],G' [Pa],G'' [Pa]\n0.1,1,2\n0.2,3\n")
     (work / "solutions" / "binary.dat").write_bytes(b"\x00\x01\x02PK\x03\x04")
-    (work / "settings.toml").write_text(f"[invert]\ngrid = {GRID}\n")
+    (work / "settings.toml").write_text(f"[invert]\ngrid = {GRID}\n{OFF}")
     out = tmp_path / "out"
     status = main(["batch", str(work), "--out", str(out), "--quiet", "--settings", str(work / "settings.toml")])
     assert status == 1
@@ -174,7 +185,7 @@ def test_a_dead_worker_costs_only_its_file(tmp_path):
 def test_sigkill_then_rerun_gives_the_uninterrupted_result(tmp_path):
     work = tmp_path / "arch"
     make_archive(work, n=8, points=40)
-    (work / "settings.toml").write_text("[invert]\ngrid = 120\n")  # slower per file, so the kill lands mid-run
+    (work / "settings.toml").write_text(f"[invert]\ngrid = 120\n{OFF}")  # slower per file: the kill lands mid-run
     settings = load_settings(work / "settings.toml")
     ref = tmp_path / "ref"
     run_batch([work], ref, settings=settings, jobs=1)
@@ -279,11 +290,24 @@ def test_inputs_layout_manifest_and_name_clashes(tmp_path):
 
 
 def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
-    assert main(["demo", "--out", str(tmp_path)]) == 0  # the corrupted export is expected: still exit 0
+    """The demo runs the whole pipeline (read, invert, diagnosis) on its invented archive."""
+    from tauspec.demo import demo_samples
+
+    assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0  # the corrupted export is expected: exit 0
     first = capsys.readouterr().out
     assert "exports/batch-22-truncated.csv:4: row has 2 values" in first and "9 computed" in first
-    assert len(read_summary(tmp_path / "results")) == 9
-    assert main(["demo", "--out", str(tmp_path)]) == 0
+    rows = {r["file"]: r for r in read_summary(tmp_path / "results")}
+    assert len(rows) == 9
+    for s in demo_samples():
+        if s.kind != "rouse":
+            continue
+        row = rows[f"series/{s.name}.csv"]
+        stored = json.loads((tmp_path / "results" / "series" / s.name / "result.json").read_text())
+        assert row["verdict"] == stored["diagnosis"]["verdict"] and float(row["tau_R"]) == stored["diagnosis"]["tau_R"]
+        # the generator's finite-N Rouse chains (Rouse 1953; Ferry 1980, ch. 9): τ_1 and G0 = cRT/M come back
+        assert float(row["tau_R"]) == pytest.approx(s.truth["tau_R"], rel=0.1)
+        assert float(row["G0"]) == pytest.approx(s.truth["G0"], rel=0.15)
+    assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0
     assert "(0 computed, 9 already current)" in capsys.readouterr().out
 
 

@@ -39,6 +39,7 @@ __all__ = [
     "SWEEP_SUFFIXES",
     "SUMMARY_COLUMNS",
     "InvertOptions",
+    "DiagnoseOptions",
     "Settings",
     "load_settings",
     "settings_from_mapping",
@@ -61,8 +62,6 @@ SUMMARY_COLUMNS = ("file", "status", "sample", "verdict", "tau_R", "G0", "alpha"
 
 SCHEMA = "tauspec.batch/1"
 
-#: The pipeline steps this version runs (part of the settings hash: a new step recomputes old results).
-STEPS = ("read", "invert")
 
 #: Every file the pipeline may write into a result folder (stale ones are removed when a result changes).
 RESULT_FILES = ("spectrum.csv", "fit.csv", "modes.csv", "fit.png", "spectrum.png", "lcurve.png")
@@ -90,8 +89,24 @@ class InvertOptions:
         return dataclasses.asdict(self)
 
 
+@dataclasses.dataclass(frozen=True, kw_only=True)
+class DiagnoseOptions:
+    """Options of :func:`tauspec.diagnosis.diagnose` (TOML section ``[diagnose]``); ``run = false`` skips it.
+
+    ``solvent`` is that of ``[invert]``; the diagnosis uses the batch's spectrum.
+    """
+
+    run: bool = True
+    intervals: bool = True
+    use_spectrum: bool = True
+
+    def kwargs(self) -> dict[str, Any]:
+        """Keyword arguments for :func:`tauspec.diagnosis.diagnose` (without ``run``)."""
+        return {k: v for k, v in dataclasses.asdict(self).items() if k != "run"}
+
+
 #: TOML section -> options class.
-_SECTIONS: dict[str, type] = {"invert": InvertOptions}
+_SECTIONS: dict[str, type] = {"invert": InvertOptions, "diagnose": DiagnoseOptions}
 
 
 @dataclasses.dataclass(frozen=True, kw_only=True)
@@ -103,12 +118,18 @@ class Settings:
     """
 
     invert: InvertOptions = dataclasses.field(default_factory=InvertOptions)
+    diagnose: DiagnoseOptions = dataclasses.field(default_factory=DiagnoseOptions)
     plots: bool = False
+
+    @property
+    def steps(self) -> tuple[str, ...]:
+        """The pipeline steps these settings run, in order."""
+        return ("read", "invert") + tuple(name for name in ("diagnose",) if getattr(self, name).run)
 
     def to_dict(self) -> dict[str, Any]:
         """Return the JSON form: one object per section, and the pipeline steps."""
         d: dict[str, Any] = {name: dataclasses.asdict(getattr(self, name)) for name in _SECTIONS}
-        d["steps"] = list(STEPS)
+        d["steps"] = list(self.steps)
         return d
 
     def digest(self) -> str:
@@ -120,7 +141,7 @@ class Settings:
 def _check_value(section: str, key: str, value: Any, source: str) -> Any:
     where = f"[{section}] {key}"
     number = isinstance(value, int | float) and not isinstance(value, bool)
-    if key in ("solvent", "plateau", "intervals", "use_spectrum"):
+    if key in ("solvent", "plateau", "intervals", "use_spectrum", "run"):
         if not isinstance(value, bool):
             raise SettingsError(f"{where} must be true or false, not {value!r}", source)
     elif key == "strength":
@@ -133,6 +154,17 @@ def _check_value(section: str, key: str, value: Any, source: str) -> Any:
     elif key == "grid":
         if not (isinstance(value, int) and not isinstance(value, bool) and 10 <= value <= 2000):
             raise SettingsError(f"{where} must be a whole number of τ points from 10 to 2000, not {value!r}", source)
+    elif key == "n_modes":
+        if not (isinstance(value, int) and not isinstance(value, bool) and 0 <= value <= 50):
+            raise SettingsError(f"{where} must be a whole number of modes from 0 to 50, not {value!r}", source)
+    elif key == "alpha":
+        if not (number and 0 < value < 1):
+            raise SettingsError(f"{where} must be a significance level between 0 and 1, not {value!r}", source)
+        value = float(value)
+    elif key == "per_decade":
+        if not (number and 0 < value <= 10):
+            raise SettingsError(f"{where} must be a number of modes per decade in (0, 10], not {value!r}", source)
+        value = float(value)
     elif key == "eta_s":
         if not (number and value >= 0 and math.isfinite(value)):
             raise SettingsError(f"{where} must be a nonnegative viscosity in Pa·s, not {value!r}", source)
@@ -289,10 +321,18 @@ def _invert_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tup
     return {"spectrum": spectrum.to_dict()}, spectrum_tables(spectrum)
 
 
+def _diagnose_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tuple[dict[str, Any], dict[str, str]]:
+    from .diagnosis import diagnose
+
+    d = diagnose(sweep, spectrum=state["spectrum"], solvent=settings.invert.solvent, **settings.diagnose.kwargs())
+    return {"diagnosis": d.to_dict()}, {}
+
+
 #: (name, step) in order; each step takes the sweep, the settings and the state of earlier steps and returns
 #: (result entries, {file name: CSV text}).
 _PIPELINE: tuple[tuple[str, Callable[..., tuple[dict[str, Any], dict[str, str]]]], ...] = (
     ("invert", _invert_step),
+    ("diagnose", _diagnose_step),
 )
 
 
@@ -350,6 +390,8 @@ def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | Non
             seconds["read"] = time.perf_counter() - t
             state: dict[str, Any] = {}
             for name, step in _PIPELINE:
+                if name not in settings.steps:
+                    continue
                 t = time.perf_counter()
                 entries, tables = step(sweep, settings, state)
                 result.update(entries)

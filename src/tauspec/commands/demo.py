@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from pathlib import Path
 
@@ -12,7 +13,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--out", type=Path, default=Path("tauspec-demo"), metavar="DIR",
                    help="folder for the demo archive and its results (default: ./tauspec-demo)")
     p.add_argument("--seed", type=int, default=20261201, help="seed of the invented noise")
-    p.add_argument("--jobs", type=int, default=1, metavar="N", help="worker processes for the batch (default 1)")
+    p.add_argument("--jobs", type=int, default=min(2, os.cpu_count() or 1), metavar="N",
+                   help="worker processes for the batch (default: 2, or 1 on a single core)")
     p.add_argument("--plots", action="store_true", help="also draw the figures of every result")
 
 
