@@ -9,6 +9,9 @@ starts (the cold total, with worker start-up, is reported too). Baselines in the
 * bare workers: the same two calls through ``joblib.Parallel(n_jobs=2)`` (loky), BLAS limited to one thread;
 * batch: ``run_batch`` at --jobs 1 and 2 (hashing, result files, summary, run.json included).
 
+By default the pipeline is read + invert (``[diagnose] run = false``) in the batch and the baselines alike;
+``--full`` adds the diagnosis to both.
+
 Peak memory: ``ru_maxrss`` of the client and of each worker process after the run; the batch at --jobs 2 is
 run on ``--small`` and ``--n`` sweeps to show whether it grows with the archive.
 """
@@ -46,7 +49,7 @@ def write_archive(folder: Path, n: int) -> None:
         seed += 1
 
 
-def _bare_one(path: str) -> float:
+def _bare_one(path: str, full: bool = False) -> float:
     import warnings
 
     from threadpoolctl import threadpool_limits
@@ -56,7 +59,13 @@ def _bare_one(path: str) -> float:
 
     with threadpool_limits(1), warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        return invert(read_sweep(path)).strength
+        sweep = read_sweep(path)
+        spectrum = invert(sweep)
+        if full:
+            from tauspec.diagnosis import diagnose
+
+            diagnose(sweep, spectrum=spectrum)
+        return spectrum.strength
 
 
 def _worker_rss() -> tuple[int, int]:
@@ -64,10 +73,10 @@ def _worker_rss() -> tuple[int, int]:
     return os.getpid(), resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
 
 
-def child(mode: str, archive: str, out: str, jobs: int) -> dict:
+def child(mode: str, archive: str, out: str, jobs: int, full: bool) -> dict:
     from joblib import Parallel, delayed
 
-    from tauspec.batch import run_batch
+    from tauspec.batch import DiagnoseOptions, Settings, run_batch
 
     files = sorted(str(p) for p in Path(archive).rglob("*.csv"))
     t_cold = time.perf_counter()
@@ -78,11 +87,11 @@ def child(mode: str, archive: str, out: str, jobs: int) -> dict:
     if mode == "bare":
         if jobs == 1:
             for f in files:
-                _bare_one(f)
+                _bare_one(f, full)
         else:
-            Parallel(n_jobs=jobs)(delayed(_bare_one)(f) for f in files)
+            Parallel(n_jobs=jobs)(delayed(_bare_one)(f, full) for f in files)
     else:
-        report = run_batch([archive], out, jobs=jobs)
+        report = run_batch([archive], out, jobs=jobs, settings=Settings(diagnose=DiagnoseOptions(run=full)))
         assert report.ok == len(files), report
     wall, cpu = time.perf_counter() - t0, time.process_time() - c0
     workers = {}
@@ -94,11 +103,11 @@ def child(mode: str, archive: str, out: str, jobs: int) -> dict:
             "worker_maxrss_mb": sorted(v / 1024 for v in workers.values())}
 
 
-def measure(mode: str, archive: Path, jobs: int, tmp: Path) -> dict:
+def measure(mode: str, archive: Path, jobs: int, tmp: Path, full: bool) -> dict:
     out = tmp / f"out-{mode}-{jobs}-{archive.name}"  # a fresh folder: nothing is current
     env = {**os.environ, "PYTHONPATH": f"{SRC}{os.pathsep}{os.environ.get('PYTHONPATH', '')}",
            "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"}
-    r = subprocess.run([sys.executable, __file__, "--child", mode, str(archive), str(out), str(jobs)],
+    r = subprocess.run([sys.executable, __file__, "--child", mode, str(archive), str(out), str(jobs), str(int(full))],
                        capture_output=True, text=True, env=env, check=True)
     return json.loads(r.stdout.strip().splitlines()[-1])
 
@@ -109,11 +118,13 @@ def main() -> None:
     ap.add_argument("--small", type=int, default=50)
     ap.add_argument("--repeats", type=int, default=3, help="interleaved repeats; the minimum is reported")
     ap.add_argument("--json", type=Path, default=None)
-    ap.add_argument("--child", nargs=4, default=None, help=argparse.SUPPRESS)
+    ap.add_argument("--full", action="store_true",
+                    help="include the diagnosis (seconds per sweep: use a small --n), in the batch and the baselines")
+    ap.add_argument("--child", nargs=5, default=None, help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.child:
-        mode, archive, out, jobs = args.child
-        print(json.dumps(child(mode, archive, out, int(jobs))))
+        mode, archive, out, jobs, full = args.child
+        print(json.dumps(child(mode, archive, out, int(jobs), full == "1")))
         return
     sys.path.insert(0, str(SRC))
     load = [os.getloadavg()]
@@ -127,7 +138,7 @@ def main() -> None:
             for mode, jobs, archive in (("bare", 1, big), ("batch", 1, big), ("bare", 2, big), ("batch", 2, big),
                                         ("batch", 2, small)):
                 key = f"{mode}-{jobs}-{archive.name}"
-                r = measure(mode, archive, jobs, tmp / f"rep{rep}")
+                r = measure(mode, archive, jobs, tmp / f"rep{rep}", args.full)
                 runs.setdefault(key, []).append(r)
                 load.append(os.getloadavg())
                 print(f"{key:16s} n={r['n']:4d}  {r['seconds']:7.2f} s  {r['n'] / r['seconds']:6.2f} sweeps/s  "
