@@ -1,5 +1,6 @@
 """Batch reprocessing: outputs, resume after SIGKILL, faults, determinism across --jobs and backends."""
 
+import dataclasses
 import hashlib
 import json
 import os
@@ -120,6 +121,11 @@ def test_resume_skips_current_and_recomputes_changes(archive, tmp_path):
     again = run_batch([work], out, settings=SMALL)
     assert (again.computed, again.skipped) == (0, 6)
     assert {p: p.stat().st_mtime_ns for p in out.rglob("result.json")} == stamp
+    # a table that is lost or damaged (it is not flushed to disk: only result.json is) is recomputed
+    (out / "solutions" / "ln0" / "spectrum.csv").write_text("tau [s],H [Pa],in_window\n")
+    (out / "solutions" / "ln2" / "fit.csv").unlink()
+    assert run_batch([work], out, settings=SMALL).computed == 2
+    assert run_batch([work], out, settings=SMALL).skipped == 6
     # a changed input recomputes that file only
     target = work / "liquids" / "m1.txt"
     target.write_text(target.read_text().replace("# sample: maxwell-1", "# sample: maxwell-1b"))
@@ -332,3 +338,17 @@ def test_manifest_entry_missing_is_an_error_row_and_progress_goes_to_stderr(tmp_
     assert captured.out == "" and "sweep" in captured.err  # the tqdm bar, on stderr only
     # a missing file has no content hash: it is looked for again on every run
     assert run_batch([], tmp_path / "out", settings=SMALL, manifest=manifest).computed == 1
+
+
+def test_plots_are_drawn_once_and_a_rerun_with_plots_draws_missing_ones(tmp_path):
+    work = tmp_path / "arch"
+    make_archive(work, n=2)
+    out = tmp_path / "out"
+    assert run_batch([work], out, settings=SMALL).computed == 2
+    plots = dataclasses.replace(SMALL, plots=True)
+    assert plots.digest() == SMALL.digest()  # drawing figures does not change a result
+    assert run_batch([work], out, settings=plots).computed == 2  # the figures were missing
+    for name in ("fit.png", "spectrum.png", "lcurve.png"):
+        assert (out / "solutions" / "ln0" / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (RFC 2083)
+    assert run_batch([work], out, settings=plots).skipped == 2
+    assert run_batch([work], out, settings=SMALL).skipped == 2

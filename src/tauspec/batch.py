@@ -64,7 +64,7 @@ SCHEMA = "tauspec.batch/1"
 
 
 #: Every file the pipeline may write into a result folder (stale ones are removed when a result changes).
-RESULT_FILES = ("spectrum.csv", "fit.csv", "modes.csv", "fit.png", "spectrum.png", "lcurve.png")
+RESULT_FILES = ("spectrum.csv", "fit.csv", "modes.csv", "fit.png", "spectrum.png", "lcurve.png", "diagnosis.png")
 FIGURES = ("fit.png", "spectrum.png", "lcurve.png")
 
 WORKER_DIED = "the worker process died while processing this file (killed, or out of memory)"
@@ -325,6 +325,7 @@ def _diagnose_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> t
     from .diagnosis import diagnose
 
     d = diagnose(sweep, spectrum=state["spectrum"], solvent=settings.invert.solvent, **settings.diagnose.kwargs())
+    state["diagnosis"] = d
     return {"diagnosis": d.to_dict()}, {}
 
 
@@ -336,11 +337,18 @@ _PIPELINE: tuple[tuple[str, Callable[..., tuple[dict[str, Any], dict[str, str]]]
 )
 
 
-def _figures(spectrum: Any) -> dict[str, bytes]:
+def _figures(state: Mapping[str, Any]) -> dict[str, bytes]:
+    """PNG bytes of the spectrum's figures (and the diagnosis's), drawn into a scratch folder of the worker."""
     from .plots import save_spectrum_figures
 
     with tempfile.TemporaryDirectory(prefix="tauspec-fig-") as tmp:
-        return {p.name: p.read_bytes() for p in save_spectrum_figures(spectrum, tmp)}
+        paths = save_spectrum_figures(state["spectrum"], tmp)
+        if "diagnosis" in state:
+            from .diagnosis_plot import plot_diagnosis
+
+            plot_diagnosis(state["diagnosis"], Path(tmp) / "diagnosis.png")
+            paths.append(Path(tmp) / "diagnosis.png")
+        return {p.name: p.read_bytes() for p in paths}
 
 
 def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | None = None,
@@ -399,7 +407,7 @@ def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | Non
                 seconds[name] = time.perf_counter() - t
             if settings.plots:
                 t = time.perf_counter()
-                files.update(_figures(state["spectrum"]))
+                files.update(_figures(state))
                 seconds["plots"] = time.perf_counter() - t
     except TauspecError as exc:
         if exc.source is None:
@@ -410,6 +418,8 @@ def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | Non
     notes = list(dict.fromkeys(f"{w.category.__name__}: {w.message}" for w in caught))
     result["notes"] = notes
     t = time.perf_counter()
+    result["tables"] = {name: _sha256(text.encode("utf-8")) for name, text in sorted(files.items())
+                        if name.endswith(".csv")}
     files["result.json"] = dumps_json(result) + "\n"
     seconds["json"] = time.perf_counter() - t
     return {"result": result, "files": files, "seconds": seconds}
@@ -442,21 +452,30 @@ def _is_current(folder: Path, input_sha: str, settings_sha: str, plots: bool) ->
         return False
     if d.get("input_sha256") != input_sha or d.get("settings_sha256") != settings_sha:
         return False
+    for name, sha in (d.get("tables") or {}).items():  # written without fsync: check they survived
+        try:
+            if _sha256((folder / name).read_bytes()) != sha:
+                return False
+        except OSError:
+            return False
     return not (plots and d.get("status") == "ok" and not all((folder / f).exists() for f in FIGURES))
 
 
 def _store(out: Path, inp: Input, files: Mapping[str, str | bytes]) -> None:
-    """Write one result folder; ``result.json`` last, so its presence means the folder is complete."""
+    """Write one result folder; ``result.json`` last, so its presence means the folder is complete.
+
+    Every file is written atomically; only ``result.json`` is flushed to the disk (fsync): it records the
+    sha256 of the tables, which the resume check verifies, so a table lost in a crash of the machine is
+    recomputed rather than trusted (one fsync per file instead of three).
+    """
     folder = out / inp.key
     folder.mkdir(parents=True, exist_ok=True)
     for name in RESULT_FILES:
         if name not in files and (folder / name).exists():
             (folder / name).unlink()
     for name, content in sorted(files.items(), key=lambda item: item[0] == "result.json"):
-        if isinstance(content, bytes):
-            atomic_write_bytes(folder / name, content)
-        else:
-            atomic_write_text(folder / name, content)
+        data = content if isinstance(content, bytes) else content.encode("utf-8")
+        atomic_write_bytes(folder / name, data, fsync=name == "result.json")
 
 
 def _error_files(inp: Input, message: str, input_sha: str | None, settings: Settings, retry: bool) -> dict[str, str]:

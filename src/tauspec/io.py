@@ -503,12 +503,14 @@ def _umask() -> int:
     return mask
 
 
-def atomic_write_bytes(path: str | os.PathLike[str], data: bytes) -> None:
+def atomic_write_bytes(path: str | os.PathLike[str], data: bytes, *, fsync: bool = True) -> None:
     """Write ``data`` to ``path`` atomically: a temporary file in the same folder, then a rename.
 
-    A crash leaves either the old file or the new one, never half of one.  The
-    file gets the usual permissions (0666 less the umask), not the 0600 of a
-    temporary file.
+    A crash of the process leaves either the old file or the new one, never half
+    of one.  ``fsync`` (default) also flushes the data to the disk before the
+    rename, against a crash of the machine; without it the write is cheaper and
+    still atomic for the process.  The file gets the usual permissions (0666
+    less the umask), not the 0600 of a temporary file.
     """
     p = Path(path)
     p.parent.mkdir(parents=True, exist_ok=True)
@@ -518,7 +520,8 @@ def atomic_write_bytes(path: str | os.PathLike[str], data: bytes) -> None:
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()
-            os.fsync(fh.fileno())
+            if fsync:
+                os.fsync(fh.fileno())
         os.replace(tmp, p)
     except BaseException:
         try:
