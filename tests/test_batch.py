@@ -10,6 +10,7 @@ import sys
 import time
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from synthetic import lognormal_sweep, maxwell_sweep
@@ -17,6 +18,7 @@ from tauspec import batch
 from tauspec.batch import (
     DiagnoseOptions,
     InvertOptions,
+    ModesOptions,
     Settings,
     find_inputs,
     load_settings,
@@ -31,8 +33,9 @@ from tauspec.spectrum import invert
 
 SRC = str(Path(__file__).resolve().parents[1] / "src")
 GRID = 24  # small τ grids keep the suite quick
-OFF = "[diagnose]\nrun = false\n"  # the diagnosis takes seconds per sweep: the mechanics are tested without it
-SMALL = Settings(invert=InvertOptions(grid=GRID), diagnose=DiagnoseOptions(run=False))
+# modes and diagnosis take seconds per sweep: the mechanics are tested without them, the demo test runs them
+OFF = "[modes]\nrun = false\n[diagnose]\nrun = false\n"
+SMALL = Settings(invert=InvertOptions(grid=GRID), modes=ModesOptions(run=False), diagnose=DiagnoseOptions(run=False))
 
 
 def write_sweep(path, sweep, extra=""):
@@ -100,7 +103,7 @@ def test_outputs_summary_and_hashes(archive, reference):
     run = json.loads((out / "run.json").read_text())
     assert run["counts"] == {"inputs": 8, "ok": 8, "failed": 0, "computed": 8, "skipped": 0, "worker_deaths": 0}
     assert run["versions"]["tauspec"] and run["versions"]["numpy"] and run["settings"]["invert"]["grid"] == GRID
-    assert run["settings"]["steps"] == ["read", "invert"] and "diagnosis" not in stored
+    assert run["settings"]["steps"] == ["read", "invert"] and "diagnosis" not in stored and "modes" not in stored
     assert "worker_s" in run["timings"] and "timings" not in stored
 
 
@@ -133,7 +136,7 @@ def test_resume_skips_current_and_recomputes_changes(archive, tmp_path):
     assert (one.computed, one.skipped) == (1, 5)
     assert json.loads((out / "liquids" / "m1" / "result.json").read_text())["sample"] == "maxwell-1b"
     # changed settings recompute everything; so does --force
-    gcv = Settings(invert=InvertOptions(grid=GRID, select="gcv"), diagnose=SMALL.diagnose)
+    gcv = dataclasses.replace(SMALL, invert=InvertOptions(grid=GRID, select="gcv"))
     assert run_batch([work], out, settings=gcv).computed == 6
     assert json.loads((out / "run.json").read_text())["counts"]["computed"] == 6
     assert run_batch([work], out, settings=gcv).skipped == 6
@@ -246,6 +249,9 @@ def test_local_dask_cluster_equals_local_run(archive, reference, tmp_path):
         ("[invert]\nstrength = -1\n", r"\[invert\] strength must be \"auto\" or a positive number"),
         ("[invert]\nsolvent = \"yes\"\n", r"\[invert\] solvent must be true or false"),
         ("[invert\n", r"not a valid TOML file"),
+        ("[modes]\nalpha = 2\n", r"\[modes\] alpha must be a significance level between 0 and 1"),
+        ("[diagnose]\nrun = 1\n", r"\[diagnose\] run must be true or false"),
+        ("grid = 40\n", r"unknown section or key 'grid'; known sections: \[invert\], \[modes\], \[diagnose\]"),
     ],
 )
 def test_settings_file_errors(tmp_path, text, match):
@@ -259,8 +265,11 @@ def test_settings_file_errors(tmp_path, text, match):
 def test_settings_file_values_reach_invert(tmp_path):
     path = tmp_path / "s.toml"
     path.write_text("[invert]\nstrength = 0.01\nselect = \"gcv\"\ngrid = 30\nsolvent = false\neta_s = 0.5\n")
+    path.write_text(path.read_text() + "[modes]\nn_modes = 4\n[diagnose]\nintervals = false\n")
     s = load_settings(path)
     assert s.invert == InvertOptions(strength=0.01, select="gcv", grid=30, solvent=False, eta_s=0.5)
+    assert s.modes == ModesOptions(n_modes=4) and s.diagnose == DiagnoseOptions(intervals=False)
+    assert s.steps == ("read", "invert", "modes", "diagnose")
     assert s.digest() != Settings().digest() and s.digest() == load_settings(path).digest()
 
 
@@ -310,9 +319,16 @@ def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
         row = rows[f"series/{s.name}.csv"]
         stored = json.loads((tmp_path / "results" / "series" / s.name / "result.json").read_text())
         assert row["verdict"] == stored["diagnosis"]["verdict"] and float(row["tau_R"]) == stored["diagnosis"]["tau_R"]
-        # the generator's finite-N Rouse chains (Rouse 1953; Ferry 1980, ch. 9): τ_1 and G0 = cRT/M come back
+        # the generator's finite-N Rouse chains (Rouse 1953; Ferry 1980, ch. 9): τ_1 and G0 = cRT/M come back,
+        # and η0 = η_s + G0 Σ τ_p with τ_p = τ_1 sin²(π/(2(N+1)))/sin²(pπ/(2(N+1))) (Ferry 1980, ch. 9)
         assert float(row["tau_R"]) == pytest.approx(s.truth["tau_R"], rel=0.1)
         assert float(row["G0"]) == pytest.approx(s.truth["G0"], rel=0.15)
+        N = s.truth["N"]
+        p = np.arange(1, N + 1)
+        taus = s.truth["tau_R"] * np.sin(np.pi / (2 * (N + 1))) ** 2 / np.sin(p * np.pi / (2 * (N + 1))) ** 2
+        assert float(row["eta0"]) == pytest.approx(s.truth["eta_s"] + s.truth["G0"] * taus.sum(), rel=0.05)
+        assert int(row["n_modes"]) == len(stored["modes"]["g"]) >= 1
+        assert (tmp_path / "results" / "series" / s.name / "modes.csv").exists()
     assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0
     assert "(0 computed, 9 already current)" in capsys.readouterr().out
 

@@ -39,6 +39,7 @@ __all__ = [
     "SWEEP_SUFFIXES",
     "SUMMARY_COLUMNS",
     "InvertOptions",
+    "ModesOptions",
     "DiagnoseOptions",
     "Settings",
     "load_settings",
@@ -90,6 +91,23 @@ class InvertOptions:
 
 
 @dataclasses.dataclass(frozen=True, kw_only=True)
+class ModesOptions:
+    """Options of :func:`tauspec.modes.fit_modes` (TOML section ``[modes]``); ``run = false`` skips the step.
+
+    ``solvent``, ``plateau`` and ``eta_s`` are those of ``[invert]``: one physical choice for every step.
+    """
+
+    run: bool = True
+    n_modes: int | None = None
+    alpha: float = 0.01
+    per_decade: float = 2.0
+
+    def kwargs(self) -> dict[str, Any]:
+        """Keyword arguments for :func:`tauspec.modes.fit_modes` (without ``run``)."""
+        return {k: v for k, v in dataclasses.asdict(self).items() if k != "run"}
+
+
+@dataclasses.dataclass(frozen=True, kw_only=True)
 class DiagnoseOptions:
     """Options of :func:`tauspec.diagnosis.diagnose` (TOML section ``[diagnose]``); ``run = false`` skips it.
 
@@ -106,7 +124,7 @@ class DiagnoseOptions:
 
 
 #: TOML section -> options class.
-_SECTIONS: dict[str, type] = {"invert": InvertOptions, "diagnose": DiagnoseOptions}
+_SECTIONS: dict[str, type] = {"invert": InvertOptions, "modes": ModesOptions, "diagnose": DiagnoseOptions}
 
 
 @dataclasses.dataclass(frozen=True, kw_only=True)
@@ -118,13 +136,14 @@ class Settings:
     """
 
     invert: InvertOptions = dataclasses.field(default_factory=InvertOptions)
+    modes: ModesOptions = dataclasses.field(default_factory=ModesOptions)
     diagnose: DiagnoseOptions = dataclasses.field(default_factory=DiagnoseOptions)
     plots: bool = False
 
     @property
     def steps(self) -> tuple[str, ...]:
         """The pipeline steps these settings run, in order."""
-        return ("read", "invert") + tuple(name for name in ("diagnose",) if getattr(self, name).run)
+        return ("read", "invert") + tuple(name for name in ("modes", "diagnose") if getattr(self, name).run)
 
     def to_dict(self) -> dict[str, Any]:
         """Return the JSON form: one object per section, and the pipeline steps."""
@@ -321,6 +340,16 @@ def _invert_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tup
     return {"spectrum": spectrum.to_dict()}, spectrum_tables(spectrum)
 
 
+def _modes_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tuple[dict[str, Any], dict[str, str]]:
+    from .commands.invert import modes_entries
+    from .modes import modes_csv_text
+
+    o = settings.invert
+    modes, entries = modes_entries(sweep, state["spectrum"], solvent=o.solvent, plateau=o.plateau, eta_s=o.eta_s,
+                                   **settings.modes.kwargs())
+    return entries, {"modes.csv": modes_csv_text(modes)}
+
+
 def _diagnose_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tuple[dict[str, Any], dict[str, str]]:
     from .diagnosis import diagnose
 
@@ -333,6 +362,7 @@ def _diagnose_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> t
 #: (result entries, {file name: CSV text}).
 _PIPELINE: tuple[tuple[str, Callable[..., tuple[dict[str, Any], dict[str, str]]]], ...] = (
     ("invert", _invert_step),
+    ("modes", _modes_step),
     ("diagnose", _diagnose_step),
 )
 
