@@ -24,6 +24,7 @@ _EXPORTS = {
     "DroppedPointsWarning": "errors",
     "invert": "spectrum",
     "Spectrum": "spectrum",
+    "run_batch": "batch",
     "diagnose": "diagnosis",
     "Diagnosis": "diagnosis",
     "superpose": "superpose",
