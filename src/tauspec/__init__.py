@@ -24,6 +24,9 @@ _EXPORTS = {
     "DroppedPointsWarning": "errors",
     "invert": "spectrum",
     "Spectrum": "spectrum",
+    "confidence_bands": "uncertainty",
+    "estimate_noise": "uncertainty",
+    "Bands": "uncertainty",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]
