@@ -106,7 +106,8 @@ def test_known_solvent_viscosity_and_plateau():
     sp = invert(sw, eta_s=3.0, plateau=True)
     assert sp.eta_s == 3.0
     assert sp.G_e == pytest.approx(50.0, rel=0.2)  # the equilibrium modulus G_e of a weak solid-like network
-    assert invert(sw, solvent=False).eta_s == 0.0
+    with pytest.warns(WeakResultWarning, match="systematic"):  # no solvent, no plateau: a visible misfit
+        assert invert(sw, solvent=False).eta_s == 0.0
 
 
 def test_cvxpy_and_fast_path_agree():
@@ -158,6 +159,17 @@ def test_result_contents_and_json_keys():
     assert np.all(sp.H >= 0)
     assert sp.residual_rms == pytest.approx(0.01, rel=0.3)  # the fit residual is at the noise level
     assert sp.lcurve.strength[sp.lcurve.index] == sp.strength
+
+
+def test_runs_test_flags_misfit_not_noise():
+    # Wald & Wolfowitz 1940: alternating signs are many runs (p ≈ 1), one long run per sign is misfit (p ≈ 0).
+    from tauspec.spectrum import runs_test
+
+    assert runs_test(np.array([1.0, -1.0] * 20)) > 0.99
+    assert runs_test(np.array([1.0] * 20 + [-1.0] * 20)) < 1e-6
+    rng = np.random.default_rng(0)
+    p = [runs_test(rng.standard_normal(40)) for _ in range(400)]
+    assert 0.005 <= np.mean(np.array(p) < 0.05) <= 0.10  # about the nominal 5 % false alarms on pure noise
 
 
 def test_narrow_window_warns():

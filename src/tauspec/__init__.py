@@ -27,6 +27,8 @@ _EXPORTS = {
     "confidence_bands": "uncertainty",
     "estimate_noise": "uncertainty",
     "Bands": "uncertainty",
+    "superpose": "superpose",
+    "MasterCurve": "superpose",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

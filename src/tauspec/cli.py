@@ -27,6 +27,7 @@ __all__ = ["main", "SUBCOMMANDS"]
 SUBCOMMANDS: dict[str, tuple[str, str]] = {
     "invert": ("invert", "recover the continuous relaxation spectrum H(τ) from sweep files"),
     "demo": ("demo", "write an invented example archive and process it"),
+    "master": ("master", "superpose sweeps at several temperatures into a master curve (time–temperature shift)"),
 }
 
 

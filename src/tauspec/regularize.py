@@ -198,7 +198,10 @@ class TikhonovPath:
         dof = np.zeros(k)
         fb = np.zeros(k, dtype=bool)
         for i, lam in enumerate(lams):
-            x, passive, R, fb[i] = self._solve(lam, passive)
+            guess = passive
+            if i >= 2:  # the free set drifts smoothly along the path: extrapolate x linearly in ln λ
+                guess = (2 * X[i - 1] - X[i - 2]) > 0
+            x, passive, R, fb[i] = self._solve(lam, guess)
             X[i] = x
             res[i] = np.linalg.norm(self.A @ x - self.b)
             sol[i] = np.linalg.norm(self.L @ x)

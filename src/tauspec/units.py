@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 import re
 
-__all__ = ["KIND_UNITS", "normalize_unit", "to_si", "celsius_to_kelvin", "parse_quantity"]
+__all__ = ["KIND_UNITS", "normalize_unit", "to_si", "celsius_to_kelvin", "parse_quantity", "temperature_kelvin"]
 
 _TWO_PI = 2.0 * math.pi
 
@@ -127,3 +127,22 @@ def parse_quantity(text: str) -> tuple[float, str]:
     if not m:
         raise ValueError(f"not a number with a unit: {text!r}")
     return float(m.group(1).replace(",", ".")), m.group(2)
+
+
+def temperature_kelvin(text: str) -> float:
+    """Return a temperature written as ``"130"``, ``"130 C"``, ``"130 °C"`` or ``"403.15 K"`` in kelvin.
+
+    A bare number is °C (the laboratory convention for rheometer sweeps).
+
+    Raises
+    ------
+    ValueError
+        When the text is not a number or the unit is not C or K.
+    """
+    value, unit = parse_quantity(text)
+    u = unit.strip().lstrip("°").upper()
+    if u in ("", "C"):
+        return celsius_to_kelvin(value)
+    if u == "K":
+        return value
+    raise ValueError(f"temperature unit {unit!r} not understood (use C or K)")
