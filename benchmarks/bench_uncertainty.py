@@ -65,16 +65,16 @@ def speed(quick: bool, jobs_list=(1, 2)) -> dict:
     return out
 
 
-def _trial(trial: int, resamples: int, mode: str, eta_share: float) -> dict:
+def _trial(trial: int, resamples: int, mode: str, eta_share: float, sigma: float = 1.2) -> dict:
     warnings.simplefilter("ignore")
     # η_s such that the solvent carries `eta_share` of G'' at ω_max (0 for the band calibration)
     eta_s = 0.0
     if eta_share > 0:
         from synthetic import lognormal_moduli
 
-        _, gpp = lognormal_moduli(np.array([1e2]), G_T, 1.0, 1.2)
+        _, gpp = lognormal_moduli(np.array([1e2]), G_T, 1.0, sigma)
         eta_s = float(eta_share / (1 - eta_share) * gpp[0] / 1e2)
-    sweep = lognormal_sweep(1000 + trial, noise=0.02, G_t=G_T, eta_s=eta_s, wmin=1e-2, wmax=1e2, n=20)
+    sweep = lognormal_sweep(1000 + trial, noise=0.02, sigma=sigma, G_t=G_T, eta_s=eta_s, wmin=1e-2, wmax=1e2, n=20)
     sp = invert(sweep, grid=30)
     b = confidence_bands(sp, resamples=resamples, seed=trial, strength_mode=mode, statistics=("eta_s",))
     eta = b.intervals.get("eta_s")
@@ -84,16 +84,16 @@ def _trial(trial: int, resamples: int, mode: str, eta_share: float) -> dict:
             "lambda_range": b.strength_range}
 
 
-def calibration(trials: int, resamples: int, jobs: int, eta_trials: int) -> tuple[dict, dict]:
+def calibration(trials: int, resamples: int, jobs: int, eta_trials: int, sigma: float = 1.2) -> tuple[dict, dict]:
     """Pooled pointwise coverage for every construction, level and strength mode."""
     from joblib import Parallel, delayed
 
     figures: dict = {}
-    out: dict = {"trials": trials, "resamples": resamples, "modes": {}}
+    out: dict = {"trials": trials, "resamples": resamples, "sigma": sigma, "modes": {}}
     for mode in ("rechosen", "fixed"):
-        rows = Parallel(n_jobs=jobs)(delayed(_trial)(t, resamples, mode, 0.0) for t in range(trials))
+        rows = Parallel(n_jobs=jobs)(delayed(_trial)(t, resamples, mode, 0.0, sigma) for t in range(trials))
         tau = rows[0]["tau"]
-        Ht = lognormal_H(tau, G_t=G_T)
+        Ht = lognormal_H(tau, G_t=G_T, sigma=sigma)
         m = rows[0]["in_window"]
         res: dict = {}
         per_tau = {}
@@ -116,10 +116,10 @@ def calibration(trials: int, resamples: int, jobs: int, eta_trials: int) -> tupl
         out["modes"][mode] = {"coverage": res, "rms_relative_error": float(np.sqrt(np.mean(err**2))),
                               "noise_estimate_mean": [float(np.mean([r["noise"][k] for r in rows])) for k in (0, 1)]}
         figures[mode] = {"tau": tau[m], "per_tau": per_tau, "levels": LEVELS, "res": res}
-    # η_s interval: solvent carrying 30 % of G'' at ω_max
-    rows = Parallel(n_jobs=jobs)(delayed(_trial)(t, resamples, "rechosen", 0.3) for t in range(eta_trials))
-    cover = [r["eta_s"][1] <= r["eta_s_true"] <= r["eta_s"][2] for r in rows if r["eta_s"] is not None]
-    out["eta_s_coverage_95"] = {"coverage": float(np.mean(cover)), "trials": len(cover), "share_of_G''": 0.3}
+    if eta_trials:  # η_s interval: solvent carrying 30 % of G'' at ω_max
+        rows = Parallel(n_jobs=jobs)(delayed(_trial)(t, resamples, "rechosen", 0.3, sigma) for t in range(eta_trials))
+        cover = [r["eta_s"][1] <= r["eta_s_true"] <= r["eta_s"][2] for r in rows if r["eta_s"] is not None]
+        out["eta_s_coverage_95"] = {"coverage": float(np.mean(cover)), "trials": len(cover), "share_of_G''": 0.3}
     return out, figures
 
 
@@ -170,6 +170,7 @@ def main(argv=None) -> int:
     ap.add_argument("--trials", type=int, default=None)
     ap.add_argument("--resamples", type=int, default=None)
     ap.add_argument("--eta-trials", type=int, default=None)
+    ap.add_argument("--sigma", type=float, default=1.2, help="width of the log-normal test spectrum")
     ap.add_argument("--jobs", type=int, default=2)
     ap.add_argument("--json", type=Path, default=None)
     ap.add_argument("--figures", type=Path, default=None)
@@ -182,7 +183,8 @@ def main(argv=None) -> int:
     if not args.skip_calibration:
         trials = args.trials or (20 if args.quick else 100)
         resamples = args.resamples or (39 if args.quick else 199)
-        cal, figs = calibration(trials, resamples, args.jobs, args.eta_trials or trials)
+        eta_trials = trials if args.eta_trials is None else args.eta_trials
+        cal, figs = calibration(trials, resamples, args.jobs, eta_trials, args.sigma)
         result["calibration"] = cal
         print(json.dumps(cal, indent=1), flush=True)
         if args.figures:

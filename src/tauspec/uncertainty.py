@@ -84,7 +84,7 @@ SCHEMA = "tauspec.bands/1"
 
 METHODS = ("residual", "parametric")
 INTERVALS = ("widened", "basic", "percentile")
-STRENGTH_MODES = ("rechosen", "fixed")
+STRENGTH_MODES = ("fixed", "rechosen")
 
 #: Largest relative noise the resampling accepts: beyond it 1 + σε can turn negative.
 MAX_NOISE = 0.2
@@ -503,7 +503,7 @@ def _run_resamples(design: _Design, seeds: Sequence[np.random.SeedSequence]) -> 
 def resample_sweeps(spectrum: Spectrum, n: int, *, method: str = "residual", noise: Any = None,
                     seed: int = 0) -> list[Sweep]:
     """Return the ``n`` resampled sweeps :func:`confidence_bands` would invert (for inspection and tests)."""
-    design = _design(spectrum, method, noise, "rechosen", {})
+    design = _design(spectrum, method, noise, "fixed", {})
     return [_resampled(design, np.random.default_rng(ss)) for ss in np.random.SeedSequence(seed).spawn(n)]
 
 
@@ -577,7 +577,7 @@ def confidence_bands(
     resamples: int = 200,
     method: str = "residual",
     noise: float | Sequence[float] | None = None,
-    strength_mode: str = "rechosen",
+    strength_mode: str = "fixed",
     interval: str = "widened",
     level: float = 0.95,
     seed: int = 0,
@@ -603,7 +603,10 @@ def confidence_bands(
     noise : float or (float, float), optional
         Known relative noise of G' and G'' (e.g. 0.02); estimated from the
         residuals when omitted (:func:`estimate_noise`).
-    strength_mode : {"rechosen", "fixed"}
+    strength_mode : {"fixed", "rechosen"}
+        λ fixed at the original choice (default: measured to cover as well as
+        re-choosing it, with a narrower band; docs/uncertainty.md) or re-chosen
+        by the original rule on every resample.
     interval : {"widened", "basic", "percentile"}
         How the band is formed from the resampled spectra (see
         :func:`pointwise_interval`); ``"widened"`` (the default) is the one whose

@@ -22,6 +22,8 @@ def add_band_arguments(p: argparse.ArgumentParser) -> None:
     g.add_argument("--level", type=float, default=0.95, metavar="P", help="confidence level (0.95)")
     g.add_argument("--band-method", default="residual", choices=["residual", "parametric"],
                    help="resample the residuals (default) or draw Gaussian noise")
+    g.add_argument("--band-strength", default="fixed", choices=["fixed", "rechosen"],
+                   help="keep λ at the original choice on every resample (default) or re-choose it")
 
 
 def band_settings(args: argparse.Namespace) -> dict[str, Any]:
@@ -37,7 +39,7 @@ def band_settings(args: argparse.Namespace) -> dict[str, Any]:
     if args.noise is not None and not 0 < args.noise <= 0.2:
         raise SettingsError(f"--noise must be a relative size in (0, 0.2], not {args.noise}")
     return {"resamples": args.resamples, "noise": args.noise, "seed": args.seed, "jobs": args.jobs,
-            "level": args.level, "method": args.band_method}
+            "level": args.level, "method": args.band_method, "strength_mode": args.band_strength}
 
 
 def band_fields(bands: Any) -> dict[str, Any]:
