@@ -38,13 +38,13 @@ LEVELS = (0.5, 0.68, 0.8, 0.9, 0.95)
 G_T = 1e4
 
 
-def _median_time(fn, repeats):
+def _times(fn, repeats):
     times = []
     for _ in range(repeats):
         t = time.perf_counter()
         fn()
         times.append(time.perf_counter() - t)
-    return statistics.median(times)
+    return {"median_s": statistics.median(times), "min_s": min(times), "max_s": max(times)}
 
 
 def speed(quick: bool, jobs_list=(1, 2)) -> dict:
@@ -52,16 +52,17 @@ def speed(quick: bool, jobs_list=(1, 2)) -> dict:
     warnings.simplefilter("ignore")
     sweep = lognormal_sweep(3, noise=0.02, n=60)
     n_res = 60 if quick else 200
-    t_inv = _median_time(lambda: invert(sweep), 5 if quick else 9)
+    inv = _times(lambda: invert(sweep), 5 if quick else 9)
+    t_inv = inv["median_s"]
     sp = invert(sweep)
-    out = {"frequencies": 60, "grid": int(len(sp.tau)), "resamples": n_res, "invert_s": t_inv, "runs": []}
+    out = {"frequencies": 60, "grid": int(len(sp.tau)), "resamples": n_res, "invert_s": t_inv, "invert": inv,
+           "runs": []}
     for mode in ("rechosen", "fixed"):
         for jobs in jobs_list:
-            t = _median_time(lambda j=jobs, m=mode: confidence_bands(sp, resamples=n_res, jobs=j, strength_mode=m),
-                             1)
+            tb = _times(lambda j=jobs, m=mode: confidence_bands(sp, resamples=n_res, jobs=j, strength_mode=m), 1)
             base = n_res * t_inv / jobs
-            out["runs"].append({"strength_mode": mode, "jobs": jobs, "bands_s": t, "baseline_s": base,
-                                "ratio": t / base})
+            out["runs"].append({"strength_mode": mode, "jobs": jobs, "bands_s": tb["median_s"], "times": tb,
+                                "baseline_s": base, "ratio": tb["median_s"] / base})
     return out
 
 
@@ -160,6 +161,18 @@ def save_figures(figures: dict, folder: Path) -> list[Path]:
         plt.close(fig)
         paths.append(p)
     return paths
+
+
+def run(quick: bool = False) -> dict:
+    """The speed part in the form of benchmarks/run.py: ``rows`` (seconds) and ``ratios``."""
+    sp = speed(quick)
+    rows = {"one automatic invert (60 frequencies)": sp["invert"]}
+    ratios = {}
+    for r in sp["runs"]:
+        what = f"{sp['resamples']} resamples, λ {r['strength_mode']}, jobs {r['jobs']}"
+        rows[what] = r["times"]
+        ratios[f"bands / ({sp['resamples']} × invert / jobs), λ {r['strength_mode']}, jobs {r['jobs']}"] = r["ratio"]
+    return {"rows": rows, "ratios": ratios, "resamples": sp["resamples"], "frequencies": sp["frequencies"]}
 
 
 def main(argv=None) -> int:
