@@ -176,3 +176,23 @@ def test_arbitrary_numeric_tables_only_sweep_errors(header, rows, sep):
     except (SweepError, DroppedPointsWarning):
         return
     assert np.all(np.isfinite(s.omega)) and np.all(s.storage > 0) and np.all(s.loss > 0)
+
+
+def test_temperature_column(tmp_path):
+    from tauspec.io import read_sweeps
+
+    rows = [(w, a, b, 25.02) for w, a, b in zip(W, GP, GPP)]
+    s = parse_sweep_text(table("omega [rad/s],G' [Pa],G'' [Pa],T [°C]", rows=rows))
+    assert s.meta["temperature"] == "25.02 °C"
+    assert s.meta_number("temperature", kind="temperature") == pytest.approx(298.17)
+    two = rows + [(w, 2 * a, 2 * b, 60.0) for w, a, b in zip(W, GP, GPP)]
+    text = table("omega [rad/s],G' [Pa],G'' [Pa],temperature [K]", rows=two, pre="# sample: S\n")
+    with pytest.raises(SweepError, match="holds sweeps at 2 temperatures"):
+        parse_sweep_text(text)
+    p = tmp_path / "multi.csv"
+    p.write_text(text)
+    sweeps = read_sweeps(p)
+    assert [s.name for s in sweeps] == ["S@25.02K", "S@60K"]
+    np.testing.assert_allclose(sweeps[1].storage, 2 * np.array(GP))
+    with pytest.raises(SweepError, match="temperature unit"):
+        parse_sweep_text(table("omega,G',G'',T [F]", rows=rows))

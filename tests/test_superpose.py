@@ -420,3 +420,22 @@ def test_superpose_then_invert_recovers_the_spectrum_over_the_widened_window():
     H = H_true(spec.tau)
     rel = float(np.linalg.norm(spec.H[m] - H[m]) / np.linalg.norm(H[m]))
     assert rel <= 0.10
+
+
+def test_cli_one_file_with_a_temperature_column(tmp_path, capsys):
+    # The same sweeps as in test_cli_round_trip, written into one file with a temperature column.
+    from tauspec.cli import main
+
+    sweeps = make_sweeps(TEMPS_WLF, wlf_truth, seed=5, T_ref=T_REF_WLF)
+    lines = ["# sample: series", "omega [rad/s],G' [Pa],G'' [Pa],T [C]"]
+    for s in sweeps:
+        T = s.meta_number("temperature", kind="temperature") - 273.15
+        lines += [f"{w!r},{a!r},{b!r},{T!r}" for w, a, b in zip(s.omega.tolist(), s.storage.tolist(),
+                                                               s.loss.tolist())]
+    path = tmp_path / "all.csv"
+    path.write_text("\n".join(lines) + "\n")
+    assert main(["master", str(path), "--reference-temperature", "160", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    np.testing.assert_allclose(sorted(data["temperatures"]), np.sort(TEMPS_WLF) - 273.15, atol=1e-6)
+    truth = np.array([wlf_truth(T) for T in np.array(data["temperatures"]) + 273.15])
+    assert np.max(np.abs(np.log10(data["aT"]) - truth)) < 0.05

@@ -27,6 +27,8 @@ _EXPORTS = {
     "confidence_bands": "uncertainty",
     "estimate_noise": "uncertainty",
     "Bands": "uncertainty",
+    "diagnose": "diagnosis",
+    "Diagnosis": "diagnosis",
     "superpose": "superpose",
     "MasterCurve": "superpose",
 }

@@ -27,7 +27,9 @@ __all__ = ["main", "SUBCOMMANDS"]
 SUBCOMMANDS: dict[str, tuple[str, str]] = {
     "invert": ("invert", "recover the continuous relaxation spectrum H(τ) from sweep files"),
     "demo": ("demo", "write an invented example archive and process it"),
+    "diagnose": ("diagnose", "decide whether the bead-spring (Rouse) description holds, with the evidence"),
     "master": ("master", "superpose sweeps at several temperatures into a master curve (time–temperature shift)"),
+    "report": ("report", "write the browsable HTML report of a batch output folder"),
 }
 
 

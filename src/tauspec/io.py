@@ -29,7 +29,9 @@ from .units import to_si
 
 __all__ = [
     "read_sweep",
+    "read_sweeps",
     "parse_sweep_text",
+    "parse_sweeps_text",
     "MAX_FILE_BYTES",
     "atomic_write_text",
     "write_csv",
@@ -69,6 +71,7 @@ _ROLE_NAMES: dict[str, tuple[str, ...]] = {
     ),
     "gstar": ("|g*|", "g*", "|g|", "gstar", "g_star", "complex modulus", "|complex modulus|", "complex modulus |g*|"),
     "delta": ("δ", "delta", "phase angle", "phase", "phase angle δ", "phase angle delta", "phase shift angle"),
+    "temperature": ("t", "temp", "temp.", "temperature", "sample temperature"),
 }
 _NAME_TO_ROLE = {name: role for role, names in _ROLE_NAMES.items() for name in names}
 
@@ -152,6 +155,19 @@ def read_sweep(path: str | os.PathLike[str], *, max_bytes: int = MAX_FILE_BYTES)
     """
     p = Path(path)
     source = str(path)
+    raw = _read_bytes(p, source, max_bytes)
+    return parse_sweep_text(_decode(raw, source), source=source, default_name=p.stem)
+
+
+def read_sweeps(path: str | os.PathLike[str], *, max_bytes: int = MAX_FILE_BYTES) -> list[Sweep]:
+    """Read a file that may hold sweeps at several temperatures (a temperature column); one Sweep each."""
+    p = Path(path)
+    return parse_sweeps_text(_decode(_read_bytes(p, str(path), max_bytes), str(path)), source=str(path),
+                             default_name=p.stem)
+
+
+def _read_bytes(p: Path, source: str, max_bytes: int) -> bytes:
+    """The file's bytes, refusing folders, missing, unreadable and oversized files before reading."""
     try:
         if p.is_dir():
             raise SweepError("is a folder, not a sweep file", source)
@@ -171,7 +187,7 @@ def read_sweep(path: str | os.PathLike[str], *, max_bytes: int = MAX_FILE_BYTES)
         raise SweepError(f"cannot be read ({exc.strerror or exc})", source) from None
     if len(raw) > max_bytes:
         raise SweepError(f"file is larger than {max_bytes / 2**20:.0f} MiB", source)
-    return parse_sweep_text(_decode(raw, source), source=source, default_name=p.stem)
+    return raw
 
 
 def _split_line(line: str, delim: str | None) -> list[str]:
@@ -240,7 +256,29 @@ def _to_float(text: str, decimal_comma: bool) -> float | None:
 
 
 def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "sample") -> Sweep:
-    """Parse the text of a sweep file; see :func:`read_sweep`.
+    """Parse the text of a sweep file; see :func:`read_sweep` and :func:`parse_sweeps_text`.
+
+    Raises
+    ------
+    SweepError
+        Also when a temperature column holds several temperatures (use
+        :func:`parse_sweeps_text` or :func:`read_sweeps` for such files).
+    """
+    sweeps = parse_sweeps_text(text, source=source, default_name=default_name)
+    if len(sweeps) > 1:
+        temps = ", ".join(s.meta["temperature"] for s in sweeps)
+        raise SweepError(f"holds sweeps at {len(sweeps)} temperatures ({temps}); superpose them with "
+                         "'tauspec master' or read them with read_sweeps", source)
+    return sweeps[0]
+
+
+def parse_sweeps_text(text: str, *, source: str = "<text>", default_name: str = "sample") -> list[Sweep]:
+    """Parse the text of a sweep file into one Sweep per temperature.
+
+    Without a temperature column (``T [C]``, ``temperature [K]``...) the list
+    has one sweep.  With one, rows within 0.5 K of each other form one sweep,
+    whose ``meta["temperature"]`` is set from the column (in its unit, °C when
+    none is given).
 
     The header row must name a frequency column and either the storage and
     loss moduli or the complex-modulus magnitude and the phase angle.
@@ -335,6 +373,9 @@ def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "
     if "delta" in used and roles["delta"][1] is None:
         roles["delta"] = (roles["delta"][0], "deg", roles["delta"][2])  # rheometers export degrees
     factors = {k: factor(k, kinds[k]) for k in used}
+    if "temperature" in roles:
+        used.append("temperature")
+        factors["temperature"] = 1.0  # kept in the column's unit (°C or K) for the metadata
     columns = {k: roles[k][0] for k in used}
 
     values: list[list[float]] = []
@@ -358,16 +399,48 @@ def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "
 
     if not values:
         raise SweepError("header but no data rows", source)
+    if ignored:
+        meta["ignored_columns"] = ", ".join(ignored)
     arr = np.array(values)
     line_no = np.array(lines)
-    omega = arr[:, 0]
     if pair:
         storage, loss = arr[:, 1], arr[:, 2]
     else:
         storage, loss = arr[:, 1] * np.cos(arr[:, 2]), arr[:, 1] * np.sin(arr[:, 2])
+    name = meta.get("sample") or default_name
+    if "temperature" not in roles:
+        return [_build_sweep(arr[:, 0], storage, loss, line_no, meta, source, name)]
+    # a temperature column: one sweep per temperature (within 0.5 K), in the order they appear
+    T_unit = roles["temperature"][1] or "C"
+    if T_unit.strip().lstrip("°").upper() not in ("C", "K"):
+        raise SweepError(f"temperature unit {T_unit!r} not understood (use C or K)", source, header_line_no)
+    T = np.array([row[-1] for row in values])
+    groups: list[list[int]] = []
+    centres: list[float] = []
+    for i, t in enumerate(T):
+        for g, c in enumerate(centres):
+            if abs(t - c) <= 0.5:
+                groups[g].append(i)
+                break
+        else:
+            centres.append(float(t))
+            groups.append([i])
+    out = []
+    for g in groups:
+        idx = np.array(g)
+        sub_meta = dict(meta)
+        sub_meta["temperature"] = f"{float(np.mean(T[idx])):.6g} {T_unit.strip()}"
+        sub_name = name if len(groups) == 1 else f"{name}@{float(np.mean(T[idx])):.4g}{T_unit.strip()}"
+        out.append(_build_sweep(arr[idx, 0], storage[idx], loss[idx], line_no[idx], sub_meta, source, sub_name))
+    return out
+
+
+def _build_sweep(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, line_no: np.ndarray, meta: dict,
+                 source: str, name: str) -> Sweep:
+    """Validate, sort and clean one sweep's columns (SI) and make the Sweep."""
     bad_w = np.flatnonzero(omega <= 0)
     if bad_w.size:
-        raise SweepError(f"frequency must be positive (value {arr[bad_w[0], 0]:g})", source, int(line_no[bad_w[0]]))
+        raise SweepError(f"frequency must be positive (value {omega[bad_w[0]]:g})", source, int(line_no[bad_w[0]]))
     order = np.argsort(omega, kind="stable")
     omega, storage, loss, line_no = omega[order], storage[order], loss[order], line_no[order]
     dup = np.flatnonzero(np.diff(omega) <= 0)
@@ -391,15 +464,12 @@ def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "
         warnings.warn(
             f"{source}: dropped {len(dropped)} point(s) with a non-positive modulus at lines {_ranges(dropped)}",
             DroppedPointsWarning,
-            stacklevel=3,
+            stacklevel=4,
         )
-        meta["dropped_lines"] = _ranges(dropped)
+        meta = dict(meta, dropped_lines=_ranges(dropped))
         omega, storage, loss = omega[keep], storage[keep], loss[keep]
     if len(omega) < MIN_POINTS:
         raise SweepError(f"{len(omega)} data points; at least {MIN_POINTS} are needed", source)
-    if ignored:
-        meta["ignored_columns"] = ", ".join(ignored)
-    name = meta.get("sample") or default_name
     return Sweep(omega=omega, storage=storage, loss=loss, name=name, meta=meta, source=source)
 
 

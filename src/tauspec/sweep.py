@@ -11,7 +11,7 @@ from typing import Any
 import numpy as np
 
 from .errors import SweepError
-from .units import celsius_to_kelvin, parse_quantity
+from .units import parse_quantity, temperature_kelvin
 
 __all__ = ["Sweep", "MIN_POINTS"]
 
@@ -115,12 +115,10 @@ class Sweep:
         except ValueError:
             raise SweepError(f"metadata {key!r} is not a number: {text!r}", self.source or self.name) from None
         if kind == "temperature":
-            u = unit.strip().lstrip("°").upper()
-            if u in ("", "C"):
-                return celsius_to_kelvin(value)
-            if u == "K":
-                return value
-            raise SweepError(f"temperature unit {unit!r} not understood (use C or K)", self.source or self.name)
+            try:
+                return temperature_kelvin(text)
+            except ValueError as exc:
+                raise SweepError(str(exc), self.source or self.name) from None
         return value
 
     def to_dict(self) -> dict[str, Any]:

@@ -3,10 +3,14 @@
 from __future__ import annotations
 
 import argparse
-from collections.abc import Iterator, Sequence
+import sys
+from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
+from typing import Any
 
-__all__ = ["add_output_arguments", "each_file", "output_dir_for"]
+from ..errors import TauspecError
+
+__all__ = ["add_output_arguments", "each_file", "output_dir_for", "run_each_file"]
 
 
 def add_output_arguments(p: argparse.ArgumentParser) -> None:
@@ -32,3 +36,25 @@ def output_dir_for(args: argparse.Namespace, path: str) -> Path | None:
     if len(set(args.files)) == 1:
         return Path(args.out)
     return Path(args.out) / Path(path).stem
+
+
+def run_each_file(args: argparse.Namespace, work: Callable[[str], tuple[dict[str, Any], str]]) -> int:
+    """Run ``work(path) -> (result dict, text report)`` for every file and print the result.
+
+    Prints one JSON line per file with ``--json``, else the text report; a file that fails gets one line
+    ``tauspec: error: file: reason`` on stderr and the others still run.  Returns 0, or 1 when any file failed.
+    """
+    from ..io import dumps_json
+
+    status = 0
+    for path in each_file(args.files):
+        try:
+            result, text = work(path)
+        except TauspecError as exc:
+            if exc.source is None:
+                exc = type(exc)(exc.reason, str(path), exc.line)
+            print(f"tauspec: error: {exc.one_line()}", file=sys.stderr)
+            status = 1
+            continue
+        print(dumps_json(result) if args.json else text, flush=True)
+    return status

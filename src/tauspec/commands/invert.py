@@ -3,14 +3,13 @@
 from __future__ import annotations
 
 import argparse
-import sys
 from pathlib import Path
 
-from ..errors import SettingsError, TauspecError
+from ..errors import SettingsError
 from ..io import atomic_write_text, dumps_json, read_sweep, write_csv
 from ..spectrum import Spectrum, invert
 from ._bands import add_band_arguments, band_fields, band_settings
-from ._common import add_output_arguments, each_file, output_dir_for
+from ._common import add_output_arguments, output_dir_for, run_each_file
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -71,34 +70,25 @@ def run(args: argparse.Namespace) -> int:
     """Invert every file; print JSON lines or a text report."""
     settings = invert_settings(args)
     bands_kw = band_settings(args) if args.bands else None
-    status = 0
-    for path in each_file(args.files):
-        try:
-            sweep = read_sweep(path)
-            spectrum = invert(sweep, **settings)
-            result = spectrum.to_dict()
-            bands = None
-            if bands_kw is not None:
-                from ..uncertainty import confidence_bands
 
-                bands = confidence_bands(spectrum, **bands_kw)
-                result.update(band_fields(bands))
-            out = output_dir_for(args, path)
-            if out is not None:
-                write_spectrum_files(spectrum, out, result)
-            if args.plot:
-                from ..plots import save_spectrum_figures
+    def work(path: str) -> tuple[dict, str]:
+        sweep = read_sweep(path)
+        spectrum = invert(sweep, **settings)
+        result = spectrum.to_dict()
+        bands = None
+        if bands_kw is not None:
+            from ..uncertainty import confidence_bands
 
-                save_spectrum_figures(spectrum, out or Path("."), prefix="" if out else f"{Path(path).stem}-",
-                                      band=None if bands is None else (bands.H_lo, bands.H_hi))
-        except TauspecError as exc:
-            if exc.source is None:
-                exc = type(exc)(exc.reason, str(path), exc.line)
-            print(f"tauspec: error: {exc.one_line()}", file=sys.stderr)
-            status = 1
-            continue
-        if args.json:
-            print(dumps_json(result), flush=True)
-        else:
-            print(spectrum.report() + ("" if bands is None else "\n" + bands.report()), flush=True)
-    return status
+            bands = confidence_bands(spectrum, **bands_kw)
+            result.update(band_fields(bands))
+        out = output_dir_for(args, path)
+        if out is not None:
+            write_spectrum_files(spectrum, out, result)
+        if args.plot:
+            from ..plots import save_spectrum_figures
+
+            save_spectrum_figures(spectrum, out or Path("."), prefix="" if out else f"{Path(path).stem}-",
+                                  band=None if bands is None else (bands.H_lo, bands.H_hi))
+        return result, spectrum.report() + ("" if bands is None else "\n" + bands.report())
+
+    return run_each_file(args, work)

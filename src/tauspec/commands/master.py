@@ -7,7 +7,7 @@ import math
 from pathlib import Path
 
 from ..errors import SettingsError
-from ..io import atomic_write_text, dumps_json, read_sweep
+from ..io import atomic_write_text, dumps_json, read_sweeps
 from ..units import temperature_kelvin
 from ._common import add_output_arguments, each_file
 
@@ -47,7 +47,7 @@ def run(args: argparse.Namespace) -> int:
     """Read the files, superpose them and write the results; return the exit status."""
     from ..superpose import superpose
 
-    sweeps = [read_sweep(f) for f in each_file(args.files)]
+    sweeps = [s for f in each_file(args.files) for s in read_sweeps(f)]  # a file may hold several temperatures
     temperatures = None
     if args.temperatures is not None:
         parts = [p for p in args.temperatures.split(",") if p.strip()]

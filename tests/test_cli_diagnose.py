@@ -1,0 +1,55 @@
+"""``tauspec diagnose``: JSON contract, output files, figure, one-line errors."""
+
+from __future__ import annotations
+
+import json
+
+from synthetic_sweeps import gel_sweep, rouse_sweep
+from tauspec.cli import main
+
+
+def _write(path, sweep):
+    rows = "\n".join(f"{w:.17g},{a:.17g},{b:.17g}" for w, a, b in zip(sweep.omega, sweep.storage, sweep.loss))
+    path.write_text(f"# sample: {sweep.name}\nomega [rad/s],G' [Pa],G'' [Pa]\n{rows}\n")
+    return path
+
+
+def test_diagnose_json_one_object_per_file_with_the_documented_fields(tmp_path, capsys):
+    a = _write(tmp_path / "a.csv", rouse_sweep(4)[0])
+    b = _write(tmp_path / "b.csv", gel_sweep(5, 0.5)[0])
+    assert main(["diagnose", str(a), str(b), "--json"]) == 0
+    lines = capsys.readouterr().out.strip().splitlines()
+    assert len(lines) == 2
+    first, second = (json.loads(x) for x in lines)
+    for key in ("schema", "sample", "verdict", "statement", "tau_R", "tau_R_ci", "G0", "G0_ci", "N", "eta_s",
+                "alpha", "alpha_ci", "evidence", "fits"):
+        assert key in first
+    assert first["verdict"] == "rouse" and first["sample"] == "rouse-4"
+    assert first["spectrum_used"] is True
+    slope = {e["test"]: e for e in first["evidence"]}["spectrum_slope"]
+    assert slope["value"] is not None
+    assert second["verdict"] != "rouse"
+
+
+def test_diagnose_out_and_plot(tmp_path, capsys):
+    a = _write(tmp_path / "a.csv", rouse_sweep(6)[0])
+    out = tmp_path / "res"
+    assert main(["diagnose", str(a), "--out", str(out), "--plot", "--no-spectrum"]) == 0
+    for name in ("diagnosis.json", "diagnosis.txt", "diagnosis.png"):
+        assert (out / name).stat().st_size > 0, name
+    d = json.loads((out / "diagnosis.json").read_text())
+    assert d["spectrum_used"] is False
+    text = capsys.readouterr().out
+    assert text.startswith("rouse-6: ROUSE") and "evidence:" in text
+
+
+def test_diagnose_bad_file_is_one_line_and_exit_1(tmp_path, capsys):
+    bad = tmp_path / "bad.csv"
+    bad.write_text("omega,G',G''\n1,2\n")
+    assert main(["diagnose", str(bad), "--json"]) == 1
+    cap = capsys.readouterr()
+    assert cap.out == ""
+    err = cap.err.strip().splitlines()
+    assert len(err) == 1 and err[0].startswith("tauspec: error:") and "bad.csv" in err[0]
+    assert main(["diagnose", str(tmp_path / "missing.csv")]) == 1
+    assert "no such file" in capsys.readouterr().err
