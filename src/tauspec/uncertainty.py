@@ -172,6 +172,8 @@ class Bands:
         The 5 % and 95 % quantiles of the resamples' λ.
     samples : ndarray, shape (B, n)
         The resampled spectra H*_b(τ) that did not fail (not in the JSON form).
+    statistic_samples : mapping of str to ndarray
+        Every statistic on those resamples (NaN where it failed; not in the JSON form).
     """
 
     tau: np.ndarray
@@ -191,6 +193,7 @@ class Bands:
     seed: int
     strength_range: tuple[float, float]
     samples: np.ndarray = dataclasses.field(default_factory=lambda: np.zeros((0, 0)), repr=False, compare=False)
+    statistic_samples: Mapping[str, np.ndarray] = dataclasses.field(default_factory=dict, repr=False, compare=False)
 
     def describe(self) -> str:
         """Return how the band was computed, in one line."""
@@ -243,13 +246,16 @@ class Statistic:
     ``fn(sweep, spectrum)`` returns a float or a mapping of names to floats
     (NaN when it cannot be computed on that resample).  ``nonnegative``
     clips the basic interval at 0.  ``applies(spectrum)`` says whether the
-    statistic is meaningful for a spectrum (e.g. G_e only with a plateau).
+    statistic is meaningful for a spectrum (e.g. G_e only with a plateau);
+    ``default=False`` statistics are computed only when asked for by name
+    (they are costly, or meaningful only for some samples).
     """
 
     fn: Callable[[Sweep, Spectrum], float | Mapping[str, float]]
     description: str
     nonnegative: bool = False
     applies: Callable[[Spectrum], bool] | None = None
+    default: bool = True
 
 
 def _eta_s(sweep: Sweep, spectrum: Spectrum) -> float:
@@ -269,10 +275,29 @@ def _fits_G_e(spectrum: Spectrum) -> bool:
     return bool(spectrum.settings.get("plateau", False))
 
 
-#: The registry of statistics computed by default on every resample (name → Statistic).
+def _rouse(sweep: Sweep, spectrum: Spectrum) -> dict[str, float]:
+    from .beadspring import fit_chain
+
+    fit = fit_chain(sweep.omega, sweep.storage, sweep.loss, "rouse", solvent=_fits_eta_s(spectrum))
+    return {"tau_R": fit.tau1, "G0": fit.G0}
+
+
+def _bead_spring(sweep: Sweep, spectrum: Spectrum) -> dict[str, float]:
+    from .diagnosis import diagnose
+
+    d = diagnose(sweep, spectrum=spectrum, solvent=_fits_eta_s(spectrum), intervals=False)
+    return {"tau_R": d.tau_R, "G0": d.G0, "a": d.alpha}
+
+
+#: The registry of statistics (name → Statistic); those with ``default=True`` are computed on every band.
 STATISTICS: dict[str, Statistic] = {
     "eta_s": Statistic(_eta_s, "solvent viscosity η_s (Pa·s) of the inversion", True, _fits_eta_s),
     "G_e": Statistic(_G_e, "equilibrium modulus G_e (Pa) of the inversion", True, _fits_G_e),
+    "rouse": Statistic(_rouse, "τ_R = τ_1 (s) and G0 (Pa) of the finite-N Rouse fit (tauspec.beadspring.fit_chain)",
+                       True, None, False),
+    "bead_spring": Statistic(_bead_spring, "τ_R (s), G0 (Pa) of the reported model and the mode exponent a of the "
+                             "bead-spring diagnosis (tauspec.diagnosis.diagnose, without its own intervals)",
+                             True, None, False),
 }
 
 
@@ -285,7 +310,7 @@ def register_statistic(name: str, statistic: Statistic) -> None:
 
 def _resolve_statistics(spectrum: Spectrum, statistics: Any) -> dict[str, Statistic]:
     if statistics is None:
-        return {k: v for k, v in STATISTICS.items() if v.applies is None or v.applies(spectrum)}
+        return {k: v for k, v in STATISTICS.items() if v.default and (v.applies is None or v.applies(spectrum))}
     out: dict[str, Statistic] = {}
     items: Iterable[tuple[str, Any]]
     if isinstance(statistics, Mapping):
@@ -312,8 +337,8 @@ def _evaluate(stats: Mapping[str, Statistic], sweep: Sweep, spectrum: Spectrum,
     for name, st in stats.items():
         try:
             v = st.fn(sweep, spectrum)
-        except TauspecError:
-            v = math.nan
+        except (TauspecError, ValueError, ArithmeticError, np.linalg.LinAlgError):
+            v = math.nan  # not computable on this resample
         if isinstance(v, Mapping):
             for key, x in v.items():
                 values[str(key)] = _as_float(x)
@@ -667,12 +692,15 @@ def confidence_bands(
     H_lo, H_hi = pointwise_interval(spectrum.H, Hs, float(level), interval, True)
 
     owner: dict[str, str] = {}
-    estimates = _evaluate(stats, sweep_of(spectrum), spectrum, owner)
+    with warnings.catch_warnings():  # the cautions of the original inversion were given already
+        warnings.simplefilter("ignore", WeakResultWarning)
+        estimates = _evaluate(stats, sweep_of(spectrum), spectrum, owner)
     how = (f"{_BAND_WORDS[interval].split(' band')[0]} bootstrap interval, {method} resampling, "
            f"λ {'re-chosen' if strength_mode == 'rechosen' else 'fixed'}")
     intervals: dict[str, Interval] = {}
+    columns: dict[str, np.ndarray] = {}
     for name, est in estimates.items():
-        col = np.array([r[1].get(name, math.nan) for r in ok], dtype=float)
+        col = columns[name] = np.array([r[1].get(name, math.nan) for r in ok], dtype=float)
         good = col[np.isfinite(col)]
         st = stats[owner[name]]
         if len(good) < 10 or not math.isfinite(est):
@@ -688,5 +716,5 @@ def confidence_bands(
         method=method, interval=interval, strength_mode=strength_mode, n_resamples=int(resamples),
         n_failed=n_failed, n_cautioned=sum(bool(r[3]) for r in ok), noise=design.noise, intervals=intervals,
         seed=int(seed), strength_range=(float(np.quantile(lams, 0.05)), float(np.quantile(lams, 0.95))),
-        samples=Hs,
+        samples=Hs, statistic_samples=columns,
     )
