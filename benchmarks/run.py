@@ -28,6 +28,7 @@ sys.path.insert(0, str(HERE))
 BENCHMARKS = {
     "invert": "bench_invert",
     "scaling": "bench_scaling",
+    "modes": "bench_modes",
 }
 OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty", "pipeline": "bench_pipeline"}
 

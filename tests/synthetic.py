@@ -59,3 +59,10 @@ def maxwell_sweep(seed, g=1e3, tau=1.0, eta_s=0.0, noise=0.01, wmin=1e-2, wmax=1
     w = np.geomspace(wmin, wmax, n)
     gp, gpp = modes_moduli(w, [g], [tau], eta_s=eta_s)
     return noisy_sweep(w, gp, gpp, noise, seed, name=f"maxwell-{seed}")
+
+
+def rouse_sweep(seed, G0=1e3, tau_1=10.0, N=200, eta_s=0.0, noise=0.01, wmin=1e-3, wmax=1e3, n=61):
+    """Noisy sweep of a finite Rouse chain: N modes of modulus G0 at the times of :func:`rouse_times`."""
+    w = np.geomspace(wmin, wmax, n)
+    gp, gpp = modes_moduli(w, np.full(N, G0), rouse_times(tau_1, N), eta_s=eta_s)
+    return noisy_sweep(w, gp, gpp, noise, seed, name=f"rouse-{seed}")

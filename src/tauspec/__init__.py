@@ -31,6 +31,20 @@ _EXPORTS = {
     "Diagnosis": "diagnosis",
     "superpose": "superpose",
     "MasterCurve": "superpose",
+    "compare": "compare",
+    "Comparison": "compare",
+    "supported_window": "spectrum",
+    "fit_modes": "modes",
+    "Modes": "modes",
+    "write_modes_csv": "modes",
+    "derive": "derived",
+    "Derived": "derived",
+    "side_by_side": "derived",
+    "retardation_spectrum": "derived",
+    "relaxation_modulus": "derived",
+    "creep_compliance": "derived",
+    "complex_viscosity": "derived",
+    "shear_viscosity": "derived",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

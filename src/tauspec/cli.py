@@ -30,6 +30,8 @@ SUBCOMMANDS: dict[str, tuple[str, str]] = {
     "diagnose": ("diagnose", "decide whether the bead-spring (Rouse) description holds, with the evidence"),
     "master": ("master", "superpose sweeps at several temperatures into a master curve (time–temperature shift)"),
     "report": ("report", "write the browsable HTML report of a batch output folder"),
+    "compare": ("compare", "compare spectra between samples: time and modulus shifts, shape test, series scaling"),
+    "predict": ("predict", "predict G(t), creep J(t) or steady-shear viscosity from a sweep's Maxwell modes"),
 }
 
 

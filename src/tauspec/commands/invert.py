@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 from pathlib import Path
+from typing import Any
 
 from ..errors import SettingsError
 from ..io import atomic_write_text, dumps_json, read_sweep, write_csv
@@ -25,6 +26,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--plateau", action="store_true", help="fit an equilibrium modulus G_e (gels, solids)")
     p.add_argument("--eta-s", type=float, default=None, metavar="PA_S",
                    help="known solvent viscosity in Pa·s (subtracted instead of fitted)")
+    p.add_argument("--no-modes", dest="modes", action="store_false",
+                   help="skip the discrete Maxwell modes and the numbers derived from them")
     add_band_arguments(p)
 
 
@@ -53,6 +56,30 @@ def invert_settings(args: argparse.Namespace) -> dict:
     }
 
 
+def add_modes(sweep: Any, spectrum: Spectrum, args: argparse.Namespace, result: dict) -> Any:
+    """Fit Maxwell modes started from ``spectrum`` and add them to ``result``; return the modes.
+
+    Adds ``modes`` ({g, tau, g_se, tau_se}), ``modes_fit`` (flags, window, count rule), ``derived`` (from the
+    modes) and ``derived_spectrum`` (the same numbers from the continuous spectrum).
+    """
+    from ..derived import derive
+    from ..modes import fit_modes
+
+    modes = fit_modes(sweep, spectrum, solvent=args.solvent, plateau=args.plateau, eta_s=args.eta_s)
+    result["modes"] = modes.to_dict()
+    result["modes_fit"] = modes.details()
+    result["derived"] = derive(modes).to_dict()
+    result["derived_spectrum"] = derive(spectrum).to_dict()
+    return modes
+
+
+def modes_report(spectrum: Spectrum, modes: Any) -> str:
+    """The modes table and the derived numbers from modes and spectrum side by side."""
+    from ..derived import derive, side_by_side
+
+    return modes.report() + "\n" + side_by_side(derive(modes), derive(spectrum))
+
+
 def write_spectrum_files(spectrum: Spectrum, out: Path, result: dict) -> None:
     """Write ``spectrum.csv``, ``fit.csv`` and ``result.json`` into ``out`` (each atomically)."""
     out.mkdir(parents=True, exist_ok=True)
@@ -75,6 +102,7 @@ def run(args: argparse.Namespace) -> int:
         sweep = read_sweep(path)
         spectrum = invert(sweep, **settings)
         result = spectrum.to_dict()
+        modes = add_modes(sweep, spectrum, args, result) if getattr(args, "modes", True) else None
         bands = None
         if bands_kw is not None:
             from ..uncertainty import confidence_bands
@@ -84,11 +112,20 @@ def run(args: argparse.Namespace) -> int:
         out = output_dir_for(args, path)
         if out is not None:
             write_spectrum_files(spectrum, out, result)
+            if modes is not None:
+                from ..modes import write_modes_csv
+
+                write_modes_csv(out / "modes.csv", modes)
         if args.plot:
             from ..plots import save_spectrum_figures
 
             save_spectrum_figures(spectrum, out or Path("."), prefix="" if out else f"{Path(path).stem}-",
                                   band=None if bands is None else (bands.H_lo, bands.H_hi))
-        return result, spectrum.report() + ("" if bands is None else "\n" + bands.report())
+        text = spectrum.report()
+        if modes is not None:
+            text += "\n" + modes_report(spectrum, modes)
+        if bands is not None:
+            text += "\n" + bands.report()
+        return result, text
 
     return run_each_file(args, work)
