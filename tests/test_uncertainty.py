@@ -118,16 +118,21 @@ def test_band_covers_true_spectrum_pooled():
     # (the smallest B whose 95 % order statistics are exact), default settings; the 95 % band must cover
     # the true H at ≥ 85 % of the (sweep, τ) pairs inside the supported window (Davies & Anderssen 1997).
     # The full calibration (100 sweeps × 199 resamples) is in benchmarks/bench_uncertainty.py.
-    hits = []
+    # The same resamples give the η0 interval: η0 = ∫ H τ d ln τ = G_t τ_m exp(σ²/2) for the log-normal
+    # spectrum (the mean of a log-normal distribution; Ferry 1980, ch. 3, for η0 as the first moment of H).
+    hits, eta0_hits = [], []
+    eta0_true = G_T * math.exp(1.2**2 / 2)
     for trial in range(50):
         sp = invert(small_sweep(2000 + trial), grid=30)
         b = confidence_bands(sp, resamples=39, seed=trial, jobs=2)  # identical for any jobs (tested below)
         Ht = lognormal_H(sp.tau, G_T)
         m = sp.in_window
         hits.append(((b.H_lo <= Ht) & (Ht <= b.H_hi))[m])
+        eta0_hits.append(b.intervals["eta0"].lo <= eta0_true <= b.intervals["eta0"].hi)
     coverage = float(np.concatenate(hits).mean())
     assert coverage >= 0.85, coverage
     assert coverage <= 0.995, coverage  # a band that covers everything would be useless
+    assert np.mean(eta0_hits) >= 0.85, eta0_hits
 
 
 # ----------------------------------------------------------------------------------------- determinism
@@ -163,10 +168,24 @@ def test_extra_statistics_get_intervals():
     assert b.intervals["broken"].n == 0 and math.isnan(b.intervals["broken"].lo)
 
 
+def test_modes_statistic(spectrum):
+    from tauspec.derived import derive
+    from tauspec.modes import fit_modes
+
+    b = confidence_bands(spectrum, resamples=10, seed=3, statistics=("modes",))
+    modes = fit_modes(small_sweep(5), spectrum)
+    assert b.intervals["n_modes"].estimate == modes.n_modes
+    iv = b.intervals["modes_eta0"]
+    assert iv.estimate == pytest.approx(derive(modes).eta0, rel=1e-12) and iv.lo <= iv.hi
+
+
 def test_default_statistics_follow_the_settings(spectrum):
-    assert set(confidence_bands(spectrum, resamples=10).intervals) == {"eta_s"}
+    derived = {"eta0", "Je0", "tau_n", "tau_w", "tau_longest"}  # tauspec.derived, from the spectrum
+    assert set(confidence_bands(spectrum, resamples=10).intervals) == {"eta_s"} | derived
     sp = invert(small_sweep(4), grid=30, plateau=True, solvent=False)
-    assert set(confidence_bands(sp, resamples=10).intervals) == {"G_e"}
+    b = confidence_bands(sp, resamples=10)
+    assert set(b.intervals) == {"G_e"} | derived
+    assert math.isnan(b.intervals["eta0"].lo)  # η0 is infinite for a solid: no interval
     assert {"eta_s", "G_e"} <= set(STATISTICS) and all(isinstance(v, Statistic) for v in STATISTICS.values())
 
 

@@ -275,6 +275,27 @@ def _fits_G_e(spectrum: Spectrum) -> bool:
     return bool(spectrum.settings.get("plateau", False))
 
 
+_DERIVED = ("eta0", "Je0", "tau_n", "tau_w", "tau_longest")
+
+
+def _derived(sweep: Sweep, spectrum: Spectrum) -> dict[str, float]:
+    from .derived import derive
+
+    d = derive(spectrum)
+    return {k: getattr(d, k) for k in _DERIVED}
+
+
+def _modes(sweep: Sweep, spectrum: Spectrum) -> dict[str, float]:
+    from .derived import derive
+    from .modes import fit_modes
+
+    s = spectrum.settings
+    modes = fit_modes(sweep, spectrum, solvent=bool(s.get("solvent", True)), plateau=bool(s.get("plateau", False)),
+                      eta_s=s.get("eta_s_known"))
+    d = derive(modes)
+    return {"n_modes": float(modes.n_modes), **{f"modes_{k}": getattr(d, k) for k in _DERIVED}}
+
+
 def _rouse(sweep: Sweep, spectrum: Spectrum) -> dict[str, float]:
     from .beadspring import fit_chain
 
@@ -293,6 +314,11 @@ def _bead_spring(sweep: Sweep, spectrum: Spectrum) -> dict[str, float]:
 STATISTICS: dict[str, Statistic] = {
     "eta_s": Statistic(_eta_s, "solvent viscosity η_s (Pa·s) of the inversion", True, _fits_eta_s),
     "G_e": Statistic(_G_e, "equilibrium modulus G_e (Pa) of the inversion", True, _fits_G_e),
+    "derived": Statistic(_derived, "η0, J_e⁰, τ_n, τ_w and the longest time of the spectrum (tauspec.derived.derive)",
+                         True),
+    "modes": Statistic(_modes, "number of Maxwell modes and the derived numbers from them (tauspec.modes.fit_modes, "
+                       "then tauspec.derived.derive); single modes are not compared across resamples, whose "
+                       "count may differ", True, None, False),
     "rouse": Statistic(_rouse, "τ_R = τ_1 (s) and G0 (Pa) of the finite-N Rouse fit (tauspec.beadspring.fit_chain)",
                        True, None, False),
     "bead_spring": Statistic(_bead_spring, "τ_R (s), G0 (Pa) of the reported model and the mode exponent a of the "

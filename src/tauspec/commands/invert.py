@@ -14,7 +14,13 @@ from ._common import add_output_arguments, output_dir_for, run_each_file
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
-    """Register the options of ``invert``."""
+    """Register the options of ``invert``: those of the inversion and those of ``--bands``."""
+    add_inversion_options(p)
+    add_band_arguments(p)
+
+
+def add_inversion_options(p: argparse.ArgumentParser) -> None:
+    """Register the files, output and inversion options (shared with commands that invert sweeps)."""
     p.add_argument("files", nargs="+", metavar="FILE", help="sweep files (text tables with a header row)")
     add_output_arguments(p)
     p.add_argument("--strength", default="auto", metavar="auto|VALUE",
@@ -28,7 +34,6 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="known solvent viscosity in Pa·s (subtracted instead of fitted)")
     p.add_argument("--no-modes", dest="modes", action="store_false",
                    help="skip the discrete Maxwell modes and the numbers derived from them")
-    add_band_arguments(p)
 
 
 def strength_value(text: str) -> str | float:
