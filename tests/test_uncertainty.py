@@ -245,6 +245,11 @@ def test_cli_invert_bands(tmp_path, capsys):
     assert main(["invert", str(f), "--bands", "--resamples", "3"]) == 1
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--resamples" in err[0]
+    assert main(argv + ["--json", "--no-modes", "--band-statistics", "eta_s"]) == 0
+    assert set(json.loads(capsys.readouterr().out)["intervals"]) == {"eta_s"}
+    assert main(argv + ["--band-statistics", "eta_s,nowhere"]) == 1
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "nowhere" in err[0]
 
 
 # ----------------------------------------------------------------------------------------- bead-spring statistics

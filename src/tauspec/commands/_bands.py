@@ -24,6 +24,9 @@ def add_band_arguments(p: argparse.ArgumentParser) -> None:
                    help="resample the residuals (default) or draw Gaussian noise")
     g.add_argument("--band-strength", default="fixed", choices=["fixed", "rechosen"],
                    help="keep λ at the original choice on every resample (default) or re-choose it")
+    g.add_argument("--band-statistics", default=None, metavar="NAME[,NAME...]",
+                   help="numbers to give intervals for (eta_s, G_e, derived, modes, rouse, bead_spring); "
+                        "default: eta_s or G_e as fitted, and derived")
 
 
 def band_settings(args: argparse.Namespace) -> dict[str, Any]:
@@ -38,8 +41,17 @@ def band_settings(args: argparse.Namespace) -> dict[str, Any]:
         raise SettingsError(f"--seed must be nonnegative, not {args.seed}")
     if args.noise is not None and not 0 < args.noise <= 0.2:
         raise SettingsError(f"--noise must be a relative size in (0, 0.2], not {args.noise}")
+    statistics = None
+    if args.band_statistics is not None:
+        from ..uncertainty import STATISTICS
+
+        statistics = [name.strip() for name in args.band_statistics.split(",") if name.strip()]
+        unknown = sorted(set(statistics) - set(STATISTICS))
+        if unknown:
+            raise SettingsError(f"--band-statistics: unknown {unknown}; choose from {sorted(STATISTICS)}")
     return {"resamples": args.resamples, "noise": args.noise, "seed": args.seed, "jobs": args.jobs,
-            "level": args.level, "method": args.band_method, "strength_mode": args.band_strength}
+            "level": args.level, "method": args.band_method, "strength_mode": args.band_strength,
+            "statistics": statistics}
 
 
 def band_fields(bands: Any) -> dict[str, Any]:
