@@ -11,7 +11,6 @@ import subprocess
 import time
 import urllib.request
 from html.parser import HTMLParser
-from pathlib import Path
 
 import pytest
 
@@ -68,6 +67,11 @@ class _Checker(HTMLParser):
 def demo_batch(tmp_path_factory):
     root = tmp_path_factory.mktemp("report")
     files = write_demo_archive(root / "archive")
+    keep = ("binder-M40", "control-entangled-A", "batch-17-gelled", "batch-22-truncated")  # a quicker archive
+    for f in files:
+        if not f.stem.startswith(keep):
+            f.unlink()
+    files = [f for f in files if f.exists()]
     out = root / "out"
     code = main(["batch", str(root / "archive"), "--out", str(out), "--jobs", "1", "--quiet", "--plots", "--report"])
     assert code == 1  # the corrupted export fails, the rest succeed
@@ -151,9 +155,12 @@ def test_browser_sorts_table_on_header_click(demo_batch, tmp_path):
                     return msg.get("result", {})
 
         def evaluate(expr):
-            return call("Runtime.evaluate", expression=expr, returnByValue=True)["result"]["value"]
+            out = call("Runtime.evaluate", expression=expr, returnByValue=True)
+            assert "exceptionDetails" not in out, out
+            return out["result"].get("value")
 
-        while evaluate("document.readyState") != "complete":
+        rows = "document.querySelectorAll('#summary tbody tr').length"
+        while not (evaluate("document.readyState") == "complete" and evaluate(rows)) and time.time() < deadline:
             time.sleep(0.1)
         column = "Array.from(document.querySelectorAll('#summary tbody tr')).map(r => r.cells[0].textContent.trim())"
         before = evaluate(column)

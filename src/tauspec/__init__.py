@@ -27,6 +27,7 @@ _EXPORTS = {
     "confidence_bands": "uncertainty",
     "estimate_noise": "uncertainty",
     "Bands": "uncertainty",
+    "run_batch": "batch",
     "diagnose": "diagnosis",
     "Diagnosis": "diagnosis",
     "superpose": "superpose",

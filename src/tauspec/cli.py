@@ -26,6 +26,7 @@ __all__ = ["main", "SUBCOMMANDS"]
 #: name -> (module under tauspec.commands, one-line help)
 SUBCOMMANDS: dict[str, tuple[str, str]] = {
     "invert": ("invert", "recover the continuous relaxation spectrum H(τ) from sweep files"),
+    "batch": ("batch", "reprocess an archive of sweep files in parallel, resumably, into one summary table"),
     "demo": ("demo", "write an invented example archive and process it"),
     "diagnose": ("diagnose", "decide whether the bead-spring (Rouse) description holds, with the evidence"),
     "master": ("master", "superpose sweeps at several temperatures into a master curve (time–temperature shift)"),

@@ -27,10 +27,13 @@ import numpy as np
 from .io import atomic_write_text
 from .kernels import log_grid, modes_moduli, spectrum_moduli
 
-__all__ = ["DemoSample", "demo_samples", "write_demo_archive", "GAS_CONSTANT"]
+__all__ = ["DemoSample", "demo_samples", "write_demo_archive", "GAS_CONSTANT", "CORRUPTED"]
 
 #: Molar gas constant R, J/(mol K) (CODATA 2018, exact).
 GAS_CONSTANT = 8.314462618
+
+#: The archive's deliberately corrupted exports, relative to its folder.
+CORRUPTED = ("exports/batch-22-truncated.csv",)
 
 
 @dataclass(frozen=True)
@@ -125,7 +128,7 @@ def write_demo_archive(folder: str | Path, seed: int = 20261201) -> list[Path]:
         path = folder / sub / f"{s.name}.csv"
         atomic_write_text(path, _sweep_text(s))
         files.append(path)
-    bad = folder / "exports" / "batch-22-truncated.csv"
+    bad = folder / CORRUPTED[0]
     atomic_write_text(bad, "# sample: batch-22\nomega [rad/s],G' [Pa],G'' [Pa]\n0.01,12.1,40.2\n0.0133,15.0\n"
                            "TRANSFER ABORTED\n")
     files.append(bad)

@@ -11,6 +11,7 @@ the file, the line and the reason.
 from __future__ import annotations
 
 import codecs
+import functools
 import json
 import math
 import os
@@ -34,6 +35,8 @@ __all__ = [
     "parse_sweeps_text",
     "MAX_FILE_BYTES",
     "atomic_write_text",
+    "atomic_write_bytes",
+    "csv_text",
     "write_csv",
     "dumps_json",
 ]
@@ -493,19 +496,32 @@ def _ranges(numbers: Iterable[int]) -> str:
 # --------------------------------------------------------------------------- writing
 
 
-def atomic_write_text(path: str | os.PathLike[str], text: str) -> None:
-    """Write ``text`` to ``path`` atomically: a temporary file in the same folder, then a rename.
+@functools.lru_cache(maxsize=1)
+def _umask() -> int:
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
 
-    A crash leaves either the old file or the new one, never half of one.
+
+def atomic_write_bytes(path: str | os.PathLike[str], data: bytes, *, fsync: bool = True) -> None:
+    """Write ``data`` to ``path`` atomically: a temporary file in the same folder, then a rename.
+
+    A crash of the process leaves either the old file or the new one, never half
+    of one.  ``fsync`` (default) also flushes the data to the disk before the
+    rename, against a crash of the machine; without it the write is cheaper and
+    still atomic for the process.  The file gets the usual permissions (0666
+    less the umask), not the 0600 of a temporary file.
     """
     p = Path(path)
     p.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent)
     try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
+        os.fchmod(fd, 0o666 & ~_umask())
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
             fh.flush()
-            os.fsync(fh.fileno())
+            if fsync:
+                os.fsync(fh.fileno())
         os.replace(tmp, p)
     except BaseException:
         try:
@@ -515,19 +531,29 @@ def atomic_write_text(path: str | os.PathLike[str], text: str) -> None:
         raise
 
 
+def atomic_write_text(path: str | os.PathLike[str], text: str) -> None:
+    """Write ``text`` (UTF-8, newlines as given) to ``path`` atomically (see :func:`atomic_write_bytes`)."""
+    atomic_write_bytes(path, text.encode("utf-8"))
+
+
 def _fmt(v: Any) -> str:
     if isinstance(v, float | np.floating):
         return "" if not math.isfinite(v) else repr(float(v))
     return "" if v is None else str(v)
 
 
-def write_csv(path: str | os.PathLike[str], header: Sequence[str], columns: Sequence[Sequence[Any]]) -> None:
-    """Write equal-length columns as a comma-separated file with a header row (atomically)."""
+def csv_text(header: Sequence[str], columns: Sequence[Sequence[Any]]) -> str:
+    """Return equal-length columns as comma-separated text with a header row."""
     n = len(columns[0]) if columns else 0
     out = [",".join(header)]
     for i in range(n):
         out.append(",".join(_fmt(c[i]) for c in columns))
-    atomic_write_text(path, "\n".join(out) + "\n")
+    return "\n".join(out) + "\n"
+
+
+def write_csv(path: str | os.PathLike[str], header: Sequence[str], columns: Sequence[Sequence[Any]]) -> None:
+    """Write equal-length columns as a comma-separated file with a header row (atomically)."""
+    atomic_write_text(path, csv_text(header, columns))
 
 
 def _jsonable(obj: Any) -> Any:

@@ -37,7 +37,7 @@ from .io import atomic_write_text
 from .kernels import loss_kernel, modes_moduli, quadrature_weights, storage_kernel
 from .spectrum import supported_window
 
-__all__ = ["Modes", "fit_modes", "write_modes_csv", "ModeCandidate"]
+__all__ = ["Modes", "fit_modes", "modes_csv_text", "write_modes_csv", "ModeCandidate"]
 
 #: A fitted mode whose largest contribution to G' or G'' is below this share of
 #: the data is dropped and the fit repeated.
@@ -189,8 +189,8 @@ class Modes:
         return "\n".join(lines)
 
 
-def write_modes_csv(path: Any, modes: Modes) -> None:
-    """Write the modes as CSV: ``# key: value`` lines for η_s, G_e and the window, then one row per mode.
+def modes_csv_text(modes: Modes) -> str:
+    """Return the modes as CSV text: ``# key: value`` lines for η_s, G_e and the window, then one row per mode.
 
     Columns: ``mode, g [Pa], tau [s], g_se [Pa], tau_se [s], outside_window``.
     """
@@ -207,7 +207,12 @@ def write_modes_csv(path: Any, modes: Modes) -> None:
     for i in range(modes.n_modes):
         lines.append(",".join([str(i + 1), num(modes.g[i]), num(modes.tau[i]), num(modes.g_se[i]),
                                num(modes.tau_se[i]), "yes" if modes.outside_window[i] else "no"]))
-    atomic_write_text(path, "\n".join(lines) + "\n")
+    return "\n".join(lines) + "\n"
+
+
+def write_modes_csv(path: Any, modes: Modes) -> None:
+    """Write :func:`modes_csv_text` to ``path`` (atomically)."""
+    atomic_write_text(path, modes_csv_text(modes))
 
 
 # --------------------------------------------------------------------------- the fit

@@ -7,7 +7,7 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import SettingsError
-from ..io import atomic_write_text, dumps_json, read_sweep, write_csv
+from ..io import atomic_write_text, csv_text, dumps_json, read_sweep
 from ..spectrum import Spectrum, invert
 from ._bands import add_band_arguments, band_fields, band_settings
 from ._common import add_output_arguments, output_dir_for, run_each_file
@@ -61,20 +61,37 @@ def invert_settings(args: argparse.Namespace) -> dict:
     }
 
 
-def add_modes(sweep: Any, spectrum: Spectrum, args: argparse.Namespace, result: dict) -> Any:
-    """Fit Maxwell modes started from ``spectrum`` and add them to ``result``; return the modes.
+def spectrum_tables(spectrum: Spectrum) -> dict[str, str]:
+    """The CSV tables of one spectrum: ``{"spectrum.csv": text, "fit.csv": text}``."""
+    return {
+        "spectrum.csv": csv_text(["tau [s]", "H [Pa]", "in_window"],
+                                 [spectrum.tau, spectrum.H, [int(v) for v in spectrum.in_window]]),
+        "fit.csv": csv_text(
+            ["omega [rad/s]", "G' [Pa]", "G'' [Pa]", "G' fit [Pa]", "G'' fit [Pa]"],
+            [spectrum.omega, spectrum.storage, spectrum.loss, spectrum.storage_fit, spectrum.loss_fit],
+        ),
+    }
 
-    Adds ``modes`` ({g, tau, g_se, tau_se}), ``modes_fit`` (flags, window, count rule), ``derived`` (from the
-    modes) and ``derived_spectrum`` (the same numbers from the continuous spectrum).
+
+def modes_entries(sweep: Any, spectrum: Spectrum, **fit_options: Any) -> tuple[Any, dict]:
+    """Fit Maxwell modes started from ``spectrum``; return the modes and their entries of the JSON result.
+
+    The entries are ``modes`` ({g, tau, g_se, tau_se}), ``modes_fit`` (flags, window, count rule), ``derived``
+    (from the modes) and ``derived_spectrum`` (the same numbers from the continuous spectrum);
+    ``fit_options`` go to :func:`tauspec.modes.fit_modes`.
     """
     from ..derived import derive
     from ..modes import fit_modes
 
-    modes = fit_modes(sweep, spectrum, solvent=args.solvent, plateau=args.plateau, eta_s=args.eta_s)
-    result["modes"] = modes.to_dict()
-    result["modes_fit"] = modes.details()
-    result["derived"] = derive(modes).to_dict()
-    result["derived_spectrum"] = derive(spectrum).to_dict()
+    modes = fit_modes(sweep, spectrum, **fit_options)
+    return modes, {"modes": modes.to_dict(), "modes_fit": modes.details(), "derived": derive(modes).to_dict(),
+                   "derived_spectrum": derive(spectrum).to_dict()}
+
+
+def add_modes(sweep: Any, spectrum: Spectrum, args: argparse.Namespace, result: dict) -> Any:
+    """Fit Maxwell modes started from ``spectrum`` and add them to ``result`` (see :func:`modes_entries`)."""
+    modes, entries = modes_entries(sweep, spectrum, solvent=args.solvent, plateau=args.plateau, eta_s=args.eta_s)
+    result.update(entries)
     return modes
 
 
@@ -88,13 +105,8 @@ def modes_report(spectrum: Spectrum, modes: Any) -> str:
 def write_spectrum_files(spectrum: Spectrum, out: Path, result: dict) -> None:
     """Write ``spectrum.csv``, ``fit.csv`` and ``result.json`` into ``out`` (each atomically)."""
     out.mkdir(parents=True, exist_ok=True)
-    write_csv(out / "spectrum.csv", ["tau [s]", "H [Pa]", "in_window"],
-              [spectrum.tau, spectrum.H, [int(v) for v in spectrum.in_window]])
-    write_csv(
-        out / "fit.csv",
-        ["omega [rad/s]", "G' [Pa]", "G'' [Pa]", "G' fit [Pa]", "G'' fit [Pa]"],
-        [spectrum.omega, spectrum.storage, spectrum.loss, spectrum.storage_fit, spectrum.loss_fit],
-    )
+    for name, text in spectrum_tables(spectrum).items():
+        atomic_write_text(out / name, text)
     atomic_write_text(out / "result.json", dumps_json(result, indent=1) + "\n")
 
 
