@@ -26,7 +26,7 @@ MANIFEST_COLUMNS = ("file", "M", "c", "T", "label")
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
     """Register the options of ``compare`` (the ``invert`` options apply to sweep files)."""
-    invert_command.add_arguments(p)
+    invert_command.add_inversion_options(p)
     for action in p._actions:
         if action.dest == "files":
             action.help = "sweep files, result.json files or result folders written by 'tauspec invert --out'"

@@ -9,11 +9,18 @@ from typing import Any
 from ..errors import SettingsError
 from ..io import atomic_write_text, csv_text, dumps_json, read_sweep
 from ..spectrum import Spectrum, invert
+from ._bands import add_band_arguments, band_fields, band_settings
 from ._common import add_output_arguments, output_dir_for, run_each_file
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
-    """Register the options of ``invert``."""
+    """Register the options of ``invert``: those of the inversion and those of ``--bands``."""
+    add_inversion_options(p)
+    add_band_arguments(p)
+
+
+def add_inversion_options(p: argparse.ArgumentParser) -> None:
+    """Register the files, output and inversion options (shared with commands that invert sweeps)."""
     p.add_argument("files", nargs="+", metavar="FILE", help="sweep files (text tables with a header row)")
     add_output_arguments(p)
     p.add_argument("--strength", default="auto", metavar="auto|VALUE",
@@ -106,12 +113,19 @@ def write_spectrum_files(spectrum: Spectrum, out: Path, result: dict) -> None:
 def run(args: argparse.Namespace) -> int:
     """Invert every file; print JSON lines or a text report."""
     settings = invert_settings(args)
+    bands_kw = band_settings(args) if args.bands else None
 
     def work(path: str) -> tuple[dict, str]:
         sweep = read_sweep(path)
         spectrum = invert(sweep, **settings)
         result = spectrum.to_dict()
         modes = add_modes(sweep, spectrum, args, result) if getattr(args, "modes", True) else None
+        bands = None
+        if bands_kw is not None:
+            from ..uncertainty import confidence_bands
+
+            bands = confidence_bands(spectrum, **bands_kw)
+            result.update(band_fields(bands))
         out = output_dir_for(args, path)
         if out is not None:
             write_spectrum_files(spectrum, out, result)
@@ -122,10 +136,13 @@ def run(args: argparse.Namespace) -> int:
         if args.plot:
             from ..plots import save_spectrum_figures
 
-            save_spectrum_figures(spectrum, out or Path("."), prefix="" if out else f"{Path(path).stem}-")
+            save_spectrum_figures(spectrum, out or Path("."), prefix="" if out else f"{Path(path).stem}-",
+                                  band=None if bands is None else (bands.H_lo, bands.H_hi))
         text = spectrum.report()
         if modes is not None:
             text += "\n" + modes_report(spectrum, modes)
+        if bands is not None:
+            text += "\n" + bands.report()
         return result, text
 
     return run_each_file(args, work)
