@@ -29,8 +29,9 @@ BENCHMARKS = {
     "invert": "bench_invert",
     "scaling": "bench_scaling",
     "modes": "bench_modes",
+    "pipeline": "bench_pipeline",
 }
-OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty", "pipeline": "bench_pipeline"}
+OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty"}
 
 
 def machine() -> dict:
@@ -109,8 +110,12 @@ def main(argv: list[str] | None = None) -> int:
         module = names[name]
         if not (HERE / f"{module}.py").exists():
             continue
+        mod = importlib.import_module(module)
+        if not hasattr(mod, "run"):
+            results[name] = {"error": f"benchmarks/{module}.py runs on its own (python benchmarks/{module}.py)"}
+            continue
         t = time.perf_counter()
-        results[name] = importlib.import_module(module).run(args.quick)
+        results[name] = mod.run(args.quick)
         results[name]["wall_s"] = time.perf_counter() - t
         print(f"{name}: done in {results[name]['wall_s']:.1f} s", file=sys.stderr)
     info = machine()

@@ -18,6 +18,7 @@ import io
 import json
 import math
 import os
+import re
 import types
 from collections.abc import Iterator, Mapping
 from pathlib import Path
@@ -173,7 +174,9 @@ def _svg(fig: Any) -> str:
     buf = io.StringIO()
     fig.savefig(buf, format="svg")
     text = buf.getvalue()
-    return text[text.index("<svg"):]  # drop the XML prolog and doctype inside HTML
+    text = text[text.index("<svg"):]  # drop the XML prolog and doctype inside HTML
+    text = re.sub(r"<metadata>.*?</metadata>", "", text, flags=re.S)  # creator links, dates
+    return re.sub(r"<!--.*?-->", "", text, flags=re.S)
 
 
 def _spectrum_view(d: Mapping[str, Any]) -> Any:

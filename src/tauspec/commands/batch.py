@@ -27,6 +27,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--force", action="store_true", help="recompute every file, even when its result is current")
     p.add_argument("--quiet", action="store_true", help="print nothing (no progress bar, no counts)")
     p.add_argument("--json", action="store_true", help="print one JSON object (the summary row) per file")
+    p.add_argument("--report", action="store_true", help="also write DIR/report.html, the browsable report")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -38,6 +39,11 @@ def run(args: argparse.Namespace) -> int:
     report = run_batch(args.paths, args.out, settings=settings, jobs=args.jobs, backend=args.backend,
                        scheduler=args.scheduler, manifest=args.manifest, force=args.force, progress=progress)
     rows = read_summary(args.out)
+    report_path = None
+    if args.report:
+        from ..report import write_report
+
+        report_path = write_report(args.out)
     if args.json:
         for row in rows:
             print(dumps_json(row), flush=True)
@@ -49,4 +55,6 @@ def run(args: argparse.Namespace) -> int:
             if row["status"] != "ok":
                 print(f"  error: {row['error']}")
         print(f"summary: {args.out / 'summary.csv'}")
+        if report_path is not None:
+            print(f"report: {report_path}")
     return report.status

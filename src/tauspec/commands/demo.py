@@ -25,6 +25,7 @@ def run(args: argparse.Namespace) -> int:
     """
     from ..batch import Settings, read_summary, run_batch, summary_table
     from ..demo import CORRUPTED, write_demo_archive
+    from ..report import write_report
 
     archive, results = args.out / "archive", args.out / "results"
     files = write_demo_archive(archive, seed=args.seed)
@@ -42,7 +43,7 @@ def run(args: argparse.Namespace) -> int:
     print(f"results: {results}/<file>/result.json (+ spectrum.csv, fit.csv"
           + (", figures" if args.plots else "") + ")")
     print(f"summary: {results / 'summary.csv'}   run record: {results / 'run.json'}")
-    print(f"browsable HTML report: tauspec report {results}")
+    print(f"browsable HTML report: {write_report(results, title='tauspec demo — an invented coatings lab')}")
     expected = {Path(f).as_posix() for f in CORRUPTED}
     unexpected = [r for r in rows if r["status"] != "ok" and r["file"] not in expected]
     return 1 if unexpected else 0
