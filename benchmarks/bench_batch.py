@@ -9,8 +9,8 @@ starts (the cold total, with worker start-up, is reported too). Baselines in the
 * bare workers: the same two calls through ``joblib.Parallel(n_jobs=2)`` (loky), BLAS limited to one thread;
 * batch: ``run_batch`` at --jobs 1 and 2 (hashing, result files, summary, run.json included).
 
-By default the pipeline is read + invert (``[diagnose] run = false``) in the batch and the baselines alike;
-``--full`` adds the diagnosis to both.
+By default the pipeline is read + invert (``[modes]`` and ``[diagnose]`` ``run = false``) in the batch and the
+baselines alike; ``--full`` adds the modes (with the derived numbers) and the diagnosis to both.
 
 Peak memory: ``ru_maxrss`` of the client and of each worker process after the run; the batch at --jobs 2 is
 run on ``--small`` and ``--n`` sweeps to show whether it grows with the archive.
@@ -62,8 +62,11 @@ def _bare_one(path: str, full: bool = False) -> float:
         sweep = read_sweep(path)
         spectrum = invert(sweep)
         if full:
+            from tauspec.derived import derive
             from tauspec.diagnosis import diagnose
+            from tauspec.modes import fit_modes
 
+            derive(fit_modes(sweep, spectrum))
             diagnose(sweep, spectrum=spectrum)
         return spectrum.strength
 
@@ -76,7 +79,7 @@ def _worker_rss() -> tuple[int, int]:
 def child(mode: str, archive: str, out: str, jobs: int, full: bool) -> dict:
     from joblib import Parallel, delayed
 
-    from tauspec.batch import DiagnoseOptions, Settings, run_batch
+    from tauspec.batch import DiagnoseOptions, ModesOptions, Settings, run_batch
 
     files = sorted(str(p) for p in Path(archive).rglob("*.csv"))
     t_cold = time.perf_counter()
@@ -91,7 +94,8 @@ def child(mode: str, archive: str, out: str, jobs: int, full: bool) -> dict:
         else:
             Parallel(n_jobs=jobs)(delayed(_bare_one)(f, full) for f in files)
     else:
-        report = run_batch([archive], out, jobs=jobs, settings=Settings(diagnose=DiagnoseOptions(run=full)))
+        report = run_batch([archive], out, jobs=jobs, settings=Settings(modes=ModesOptions(run=full),
+                                                                diagnose=DiagnoseOptions(run=full)))
         assert report.ok == len(files), report
     wall, cpu = time.perf_counter() - t0, time.process_time() - c0
     workers = {}
@@ -119,7 +123,7 @@ def main() -> None:
     ap.add_argument("--repeats", type=int, default=3, help="interleaved repeats; the minimum is reported")
     ap.add_argument("--json", type=Path, default=None)
     ap.add_argument("--full", action="store_true",
-                    help="include the diagnosis (seconds per sweep: use a small --n), in the batch and the baselines")
+                    help="add modes and diagnosis (seconds per sweep: use a small --n) to the batch and the baselines")
     ap.add_argument("--child", nargs=5, default=None, help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.child:

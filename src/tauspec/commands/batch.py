@@ -22,10 +22,10 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--manifest", type=Path, default=None, metavar="CSV",
                    help="a CSV file whose 'file' column lists more inputs (relative to its folder)")
     p.add_argument("--settings", type=Path, default=None, metavar="FILE.toml",
-                   help="TOML file with [invert] options (see docs/batch.md)")
+                   help="TOML file with [invert], [modes] and [diagnose] options (see docs/batch.md)")
     p.add_argument("--plots", action="store_true", help="write PNG figures beside each result")
     p.add_argument("--force", action="store_true", help="recompute every file, even when its result is current")
-    p.add_argument("--quiet", action="store_true", help="no progress bar, no table")
+    p.add_argument("--quiet", action="store_true", help="print nothing (no progress bar, no counts)")
     p.add_argument("--json", action="store_true", help="print one JSON object (the summary row) per file")
     p.add_argument("--report", action="store_true", help="also write DIR/report.html, the browsable report")
 
