@@ -72,12 +72,6 @@ def test_bad_usage_exit_2(sweep_file, capsys):
     assert "--strength must be positive" in capsys.readouterr().err
 
 
-def test_demo_runs(tmp_path, capsys):
-    assert main(["demo", "--out", str(tmp_path / "d")]) == 0
-    out = capsys.readouterr().out
-    assert "binder-M10" in out and "error" in out  # the corrupted export is reported, the rest processed
-
-
 def test_real_subprocess(sweep_file):
     r = subprocess.run([sys.executable, "-m", "tauspec", "invert", str(sweep_file), "--json"],
                        capture_output=True, text=True, timeout=120)
