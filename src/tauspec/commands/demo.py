@@ -15,8 +15,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--seed", type=int, default=20261201, help="seed of the invented noise")
     p.add_argument("--jobs", type=int, default=min(2, os.cpu_count() or 1), metavar="N",
                    help="worker processes for the batch (default: 2, or 1 on a single core)")
-    p.add_argument("--no-plots", dest="plots", action="store_false",
-                   help="do not draw figures in the batch (the report then draws them itself, more slowly)")
+    p.add_argument("--plots", action="store_true",
+                   help="also draw every result's figures as PNG (the report otherwise draws its own, as SVG)")
 
 
 def run(args: argparse.Namespace) -> int:
