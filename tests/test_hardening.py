@@ -1,0 +1,196 @@
+"""Hardening: bad input at every entry point, random input, extreme data, batch faults, determinism.
+
+Every bad file must give exit status 1, exactly one line on stderr naming the file and the reason and no
+traceback (``--debug`` shows one). The bad-input catalogue is common practice for file readers (no single
+source); the physical checks name their sources beside them.
+"""
+
+import os
+import re
+
+import numpy as np
+import pytest
+
+from synthetic import lognormal_sweep
+from tauspec.cli import main
+from tauspec.errors import SweepError
+from tauspec.io import MAX_FILE_BYTES, read_sweep
+
+HEADER = "omega [rad/s],G' [Pa],G'' [Pa]"
+
+
+def table(omega, storage, loss, header=HEADER):
+    rows = "\n".join(f"{w:.17g},{a:.17g},{b:.17g}" for w, a, b in zip(omega, storage, loss))
+    return f"{header}\n{rows}\n"
+
+
+GOOD = lognormal_sweep(1, wmin=1e-2, wmax=1e2, n=20)
+GOOD_TEXT = table(GOOD.omega, GOOD.storage, GOOD.loss)
+GOOD_ROWS = GOOD_TEXT.splitlines()
+
+
+def _oversized(path):
+    with open(path, "wb") as fh:  # sparse: no disk blocks, but stat() reports the size
+        fh.truncate(MAX_FILE_BYTES + 1)
+
+
+#: name -> (writer(path), regex the one-line reason must match)
+BAD = {
+    "empty": (lambda p: p.write_bytes(b""), r"empty|no data|no header"),
+    "header_only": (lambda p: p.write_text(HEADER + "\n"), r"no data|rows|points"),
+    "binary": (lambda p: p.write_bytes(bytes(range(256)) * 8), r"binary"),
+    "json_document": (lambda p: p.write_text('{"omega": [1, 2, 3], "G1": [1, 2, 3]}\n'), r"."),
+    "python_source": (lambda p: p.write_text("import os\n\n\ndef f(x):\n    return x + 1\n"), r"."),
+    "ragged_rows": (lambda p: p.write_text("\n".join(GOOD_ROWS[:5] + ["1.5,2.5"] + GOOD_ROWS[5:]) + "\n"),
+                    r"column|field|value"),
+    "nan_inf": (lambda p: p.write_text(table(GOOD.omega, np.where(np.arange(20) % 2, np.nan, GOOD.storage),
+                                             np.where(np.arange(20) % 3, np.inf, GOOD.loss))), r"."),
+    "all_negative": (lambda p: p.write_text(table(GOOD.omega, -GOOD.storage, -GOOD.loss)), r"."),
+    "zero_frequency": (lambda p: p.write_text(table(np.r_[0.0, GOOD.omega[1:]], GOOD.storage, GOOD.loss)),
+                       r"frequenc|ω|omega"),
+    "negative_frequency": (lambda p: p.write_text(table(-GOOD.omega, GOOD.storage, GOOD.loss)),
+                           r"frequenc|ω|omega"),
+    "single_row": (lambda p: p.write_text("\n".join(GOOD_ROWS[:2]) + "\n"), r"."),
+    "duplicate_frequencies": (lambda p: p.write_text(table(np.repeat(GOOD.omega[:10], 2), GOOD.storage,
+                                                           GOOD.loss)), r"duplicate|same|repeat"),
+    "non_utf8": (lambda p: p.write_bytes(GOOD_TEXT.replace("G'' [Pa]", "G'' [Pa] \xb0").encode("latin-1")),
+                 r"UTF-8"),
+    "oversized": (_oversized, r"MiB"),
+    "directory": (lambda p: p.mkdir(), r"folder"),
+    "missing": (lambda p: None, r"no such file"),
+}
+
+
+def _bad_file(tmp_path, kind):
+    path = tmp_path / f"{kind}.csv"
+    BAD[kind][0](path)
+    return path
+
+
+def _check_one_error_line(err, path, match):
+    """Exactly one stderr line naming ``path``, whose reason matches ``match``; no traceback."""
+    assert "Traceback" not in err
+    lines = [ln for ln in err.strip().splitlines() if not ln.startswith("tauspec: warning:")]
+    assert len(lines) == 1, err
+    assert lines[0].startswith("tauspec: error: "), err
+    assert str(path) in lines[0], err
+    assert re.search(match, lines[0].split(str(path), 1)[1], re.IGNORECASE), lines[0]
+
+
+COMMANDS = {
+    "invert": ["invert", "--grid", "40"],
+    "diagnose": ["diagnose", "--no-spectrum"],
+    "predict": ["predict", "--quantity", "relaxation"],
+    "master": ["master"],
+}
+
+
+@pytest.mark.parametrize("kind", sorted(BAD))
+def test_read_sweep_refuses_with_the_reason(tmp_path, kind):
+    path = _bad_file(tmp_path, kind)
+    with pytest.raises(SweepError, match=BAD[kind][1]) as info:
+        read_sweep(path)
+    assert str(path) in info.value.one_line()
+    assert "\n" not in info.value.one_line()
+
+
+@pytest.mark.parametrize("command", sorted(COMMANDS))
+@pytest.mark.parametrize("kind", sorted(BAD))
+def test_cli_bad_file_one_line_exit_1(tmp_path, capsys, command, kind):
+    path = _bad_file(tmp_path, kind)
+    assert main([*COMMANDS[command], str(path), "--json"]) == 1
+    out, err = capsys.readouterr()
+    assert out == ""
+    _check_one_error_line(err, path, BAD[kind][1])
+
+
+@pytest.mark.parametrize("kind", sorted(BAD))
+def test_compare_bad_file_one_line_exit_1(tmp_path, capsys, kind):
+    good = tmp_path / "good.csv"
+    good.write_text(GOOD_TEXT)
+    path = _bad_file(tmp_path, kind)
+    assert main(["compare", "--grid", "40", "--no-modes", str(good), str(path), "--json"]) == 1
+    out, err = capsys.readouterr()
+    assert out == ""
+    _check_one_error_line(err, path, BAD[kind][1])
+
+
+def _unreadable(tmp_path):
+    path = tmp_path / "locked.csv"
+    path.write_text(GOOD_TEXT)
+    path.chmod(0)
+    if os.access(path, os.R_OK):  # root reads any file whatever its mode: nothing to test then
+        path.chmod(0o644)
+        pytest.skip("running as root: chmod 000 does not stop root from reading")
+    return path
+
+
+@pytest.mark.parametrize("command", sorted(COMMANDS))
+def test_unreadable_file(tmp_path, capsys, command):
+    path = _unreadable(tmp_path)
+    try:
+        assert main([*COMMANDS[command], str(path), "--json"]) == 1
+        out, err = capsys.readouterr()
+        assert out == ""
+        _check_one_error_line(err, path, r"permission")
+        with pytest.raises(SweepError, match="permission"):
+            read_sweep(path)
+    finally:
+        path.chmod(0o644)
+
+
+def test_oversized_file_is_refused_before_it_is_opened(tmp_path, monkeypatch):
+    path = _bad_file(tmp_path, "oversized")
+    import builtins
+    import io as stdio
+
+    opened = []
+    real_open = builtins.open
+
+    def spy(file, *a, **k):
+        opened.append(str(file))
+        return real_open(file, *a, **k)
+
+    monkeypatch.setattr(builtins, "open", spy)
+    monkeypatch.setattr(stdio, "open", spy)
+    with pytest.raises(SweepError, match=r"MiB"):
+        read_sweep(path)
+    assert str(path) not in opened
+
+
+@pytest.mark.parametrize("command", ["invert", "diagnose", "compare", "predict", "master"])
+def test_debug_shows_the_traceback(tmp_path, capsys, command):
+    path = _bad_file(tmp_path, "ragged_rows")
+    good = tmp_path / "good.csv"
+    good.write_text(GOOD_TEXT)
+    argv = ["compare", "--grid", "40", str(good), str(path)] if command == "compare" else [*COMMANDS[command],
+                                                                                           str(path)]
+    assert main(["--debug", *argv]) == 1
+    err = capsys.readouterr().err
+    assert "Traceback" in err and "SweepError" in err
+    assert err.strip().splitlines()[-1].startswith("tauspec: error: ")
+
+
+def test_batch_bad_files_are_error_rows_exit_1(tmp_path, capsys):
+    from tauspec.batch import read_summary
+
+    work = tmp_path / "arch"
+    work.mkdir()
+    (work / "good.csv").write_text(GOOD_TEXT)
+    kinds = sorted(set(BAD) - {"directory", "missing"})  # the batch walks folders; a missing file is not found
+    for kind in kinds:
+        BAD[kind][0](work / f"{kind}.csv")
+    (work / "settings.toml").write_text("[invert]\ngrid = 40\n[modes]\nrun = false\n[diagnose]\nrun = false\n")
+    out = tmp_path / "out"
+    status = main(["batch", str(work), "--out", str(out), "--quiet", "--settings", str(work / "settings.toml")])
+    out_text, err = capsys.readouterr()
+    assert status == 1
+    assert "Traceback" not in err
+    rows = {r["file"]: r for r in read_summary(out)}
+    assert rows["good.csv"]["status"] == "ok"
+    for kind in kinds:
+        row = rows[f"{kind}.csv"]
+        assert row["status"] == "error", (kind, row)
+        assert row["error"].startswith(f"{kind}.csv"), row
+        assert re.search(BAD[kind][1], row["error"], re.IGNORECASE), row
+        assert "\n" not in row["error"]
