@@ -5,15 +5,17 @@ traceback (``--debug`` shows one). The bad-input catalogue is common practice fo
 source); the physical checks name their sources beside them.
 """
 
+import json
 import os
 import re
+import warnings
 
 import numpy as np
 import pytest
 
 from synthetic import lognormal_sweep
 from tauspec.cli import main
-from tauspec.errors import SweepError
+from tauspec.errors import SweepError, TauspecWarning
 from tauspec.io import MAX_FILE_BYTES, read_sweep
 
 HEADER = "omega [rad/s],G' [Pa],G'' [Pa]"
@@ -194,3 +196,77 @@ def test_batch_bad_files_are_error_rows_exit_1(tmp_path, capsys):
         assert row["error"].startswith(f"{kind}.csv"), row
         assert re.search(BAD[kind][1], row["error"], re.IGNORECASE), row
         assert "\n" not in row["error"]
+
+
+# --- random input: nothing but our own one-line error, or success ------------------------------------------
+
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+_number = st.one_of(
+    st.floats(allow_nan=True, allow_infinity=True, width=64),
+    st.floats(min_value=1e-8, max_value=1e12),
+    st.integers(min_value=-5, max_value=10**6),
+)
+
+
+@st.composite
+def numeric_tables(draw):
+    n_rows = draw(st.integers(min_value=0, max_value=25))
+    n_cols = draw(st.integers(min_value=1, max_value=4))
+    header = draw(st.sampled_from([HEADER, "w,G',G''", "omega;Gp;Gpp", "freq\tstorage\tloss", "", "a,b,c"]))
+    delim = draw(st.sampled_from([",", ";", "\t", " "]))
+    rows = [delim.join(repr(draw(_number)) for _ in range(draw(st.integers(n_cols - 1, n_cols + 1)) or 1))
+            for _ in range(n_rows)]
+    return "\n".join([header, *rows]) + "\n"
+
+
+@st.composite
+def damaged_sweeps(draw):
+    """A good sweep with one to three cells replaced by random numbers (an instrument glitch)."""
+    rows = [r.split(",") for r in GOOD_ROWS[1:]]
+    for _ in range(draw(st.integers(1, 3))):
+        rows[draw(st.integers(0, len(rows) - 1))][draw(st.integers(0, 2))] = repr(draw(_number))
+    return "\n".join([HEADER, *(",".join(r) for r in rows)]) + "\n"
+
+
+_text = st.one_of(st.text(max_size=400), numeric_tables(), damaged_sweeps(),
+                  st.builds(lambda a, b: a + b, numeric_tables(), st.text(max_size=60)))
+
+
+def _check_cli_outcome(status, out, err, path):
+    assert status in (0, 1), err
+    assert "Traceback" not in err and "internal error" not in err
+    if status == 0:
+        lines = out.strip().splitlines()
+        assert len(lines) == 1
+        json.loads(lines[0], parse_constant=_no_constant)
+    else:
+        _check_one_error_line(err, path, r".")
+
+
+def _no_constant(name):
+    raise AssertionError(f"{name} in JSON output")
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(text=_text)
+def test_random_text_gives_our_error_or_a_result(tmp_path, capsys, text):
+    path = tmp_path / "random.csv"
+    path.write_text(text, encoding="utf-8", errors="surrogatepass")
+    status = main(["invert", "--grid", "40", "--no-modes", str(path), "--json"])
+    out, err = capsys.readouterr()
+    _check_cli_outcome(status, out, err, path)
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(data=st.binary(max_size=300))
+def test_random_bytes_at_the_reader(tmp_path, data):
+    path = tmp_path / "random.bin"
+    path.write_bytes(data)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", TauspecWarning)
+            read_sweep(path)
+    except SweepError as exc:
+        assert str(path) in exc.one_line() and "\n" not in exc.one_line()
