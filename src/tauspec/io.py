@@ -43,6 +43,11 @@ __all__ = [
 
 #: Files larger than this are refused before reading (a sweep is a few kB).
 MAX_FILE_BYTES = 32 * 1024 * 1024
+#: Values outside these ranges (SI) are refused: far beyond any rheometer (so most likely wrong units or a
+#: glitch), and near the ends of float64 where 1/ω, ω² or G'/G'' overflow or lose all precision.
+#: The bounds are ours (common practice, no single source), wide enough for 1e-6–1e8 rad/s and 1e-3–1e10 Pa.
+OMEGA_RANGE = (1e-12, 1e12)
+MODULUS_RANGE = (1e-9, 1e14)
 
 _META_ALIASES = {
     "name": "sample",
@@ -444,6 +449,7 @@ def _build_sweep(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, line_
     bad_w = np.flatnonzero(omega <= 0)
     if bad_w.size:
         raise SweepError(f"frequency must be positive (value {omega[bad_w[0]]:g})", source, int(line_no[bad_w[0]]))
+    _check_range(omega, OMEGA_RANGE, "frequency", "rad/s", line_no, source)
     order = np.argsort(omega, kind="stable")
     omega, storage, loss, line_no = omega[order], storage[order], loss[order], line_no[order]
     dup = np.flatnonzero(np.diff(omega) <= 0)
@@ -473,7 +479,22 @@ def _build_sweep(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, line_
         omega, storage, loss = omega[keep], storage[keep], loss[keep]
     if len(omega) < MIN_POINTS:
         raise SweepError(f"{len(omega)} data points; at least {MIN_POINTS} are needed", source)
+    _check_range(storage, MODULUS_RANGE, "G'", "Pa", line_no[keep], source)
+    _check_range(loss, MODULUS_RANGE, "G''", "Pa", line_no[keep], source)
     return Sweep(omega=omega, storage=storage, loss=loss, name=name, meta=meta, source=source)
+
+
+def _check_range(values: np.ndarray, bounds: tuple[float, float], what: str, unit: str, line_no: np.ndarray,
+                 source: str) -> None:
+    """Refuse the first value outside ``bounds`` (wrong units, a glitch, or beyond what float64 computes with)."""
+    bad = np.flatnonzero((values < bounds[0]) | (values > bounds[1]))
+    if bad.size:
+        raise SweepError(
+            f"{what} = {values[bad[0]]:g} {unit} lies outside {bounds[0]:g}–{bounds[1]:g} {unit}, the range tauspec "
+            "computes with (wrong units or an instrument glitch?)",
+            source,
+            int(line_no[bad[0]]),
+        )
 
 
 def _ranges(numbers: Iterable[int]) -> str:
