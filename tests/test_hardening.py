@@ -6,6 +6,7 @@ source); the physical checks name their sources beside them.
 """
 
 import json
+import math
 import os
 import re
 import warnings
@@ -278,3 +279,71 @@ def test_random_bytes_at_the_reader(tmp_path, data):
             read_sweep(path)
     except SweepError as exc:
         assert str(path) in exc.one_line() and "\n" not in exc.one_line()
+
+
+# --- extreme but valid data ----------------------------------------------------------------------------------
+
+_W30 = np.geomspace(1e-2, 1e2, 30)
+
+
+def _extreme(name):
+    """The sweep (ω, G', G'') of one extreme case; log-normal spectra (analytic moduli, tests/synthetic.py)."""
+    if name == "solid":  # G' flat, G'' a millionth of it: an elastic solid (Ferry 1980, ch. 1)
+        return _W30, np.full(30, 1e5), np.full(30, 0.1)
+    if name == "liquid":  # Newtonian liquid η = 10 Pa·s: G'' = ηω, G' → 0 (Ferry 1980, ch. 1); a trace of G'
+        return _W30, 1e-6 * (10.0 * _W30) ** 2, 10.0 * _W30
+    kw = {"soft": {"G_t": 1e-3}, "stiff": {"G_t": 1e10}, "wide": {"sigma": 3.0, "wmin": 1e-6, "wmax": 1e8, "n": 60},
+          "six": {"n": 6}, "many": {"wmin": 1e-3, "wmax": 1e3, "n": 2000}, "noisy": {"noise": 0.2},
+          "narrow": {"wmin": 1.0, "wmax": 10.0, "n": 15}}[name]
+    s = lognormal_sweep(3, **{"wmin": 1e-2, "wmax": 1e2, "n": 30, **kw})
+    return s.omega, s.storage, s.loss
+
+
+#: cases whose result is weak: the run must say so in words on stderr
+WEAK = {"six", "noisy", "narrow", "solid", "liquid"}
+
+
+def _run_json(capsys, argv):
+    status = main(argv)
+    out, err = capsys.readouterr()
+    assert status == 0, err
+    assert "Traceback" not in err
+    lines = out.strip().splitlines()
+    assert len(lines) == 1
+    return json.loads(lines[0], parse_constant=_no_constant), err  # NaN/Infinity would raise here
+
+
+@pytest.mark.parametrize("name", ["soft", "stiff", "wide", "six", pytest.param("many", marks=pytest.mark.slow), "noisy",
+                                  "narrow", "solid", "liquid"])
+def test_extreme_data_invert_and_diagnose(tmp_path, capsys, name):
+    path = tmp_path / f"{name}.csv"
+    path.write_text(table(*_extreme(name)))
+    heavy = name in ("many", "wide")  # 2,000 points or 14 decades: skip the modes and the diagnosis's spectrum
+    inv, err_inv = _run_json(capsys, ["invert", "--grid", "40", *(["--no-modes"] if heavy else []), str(path),
+                                      "--json"])
+    assert all(math.isfinite(h) for h in inv["H"])
+    diag, err_diag = _run_json(capsys, ["diagnose", *(["--no-spectrum"] if heavy else []), str(path), "--json"])
+    assert isinstance(diag["verdict"], str)
+    if name in WEAK:
+        assert "tauspec: warning:" in err_inv + err_diag
+    if name == "narrow":  # Davies & Anderssen 1997: a window narrower than e^π determines H nowhere
+        assert "e^π" in err_inv
+        assert diag["verdict"] == "inconclusive"
+
+
+def test_extreme_narrow_window_through_batch(tmp_path):
+    from tauspec.batch import read_summary
+
+    work = tmp_path / "arch"
+    work.mkdir()
+    (work / "narrow.csv").write_text(table(*_extreme("narrow")))
+    settings_file = tmp_path / "settings.toml"
+    settings_file.write_text("[invert]\ngrid = 40\n[modes]\nrun = false\n")
+    out = tmp_path / "out"
+    assert main(["batch", str(work), "--out", str(out), "--quiet", "--settings", str(settings_file)]) == 0
+    results = list(out.rglob("result.json"))
+    assert len(results) == 1
+    json.loads(results[0].read_text(), parse_constant=_no_constant)
+    (row,) = read_summary(out)
+    assert row["status"] == "ok"
+    assert "inconclusive" in row.values(), row
