@@ -5,6 +5,7 @@ traceback (``--debug`` shows one). The bad-input catalogue is common practice fo
 source); the physical checks name their sources beside them.
 """
 
+import errno
 import json
 import math
 import os
@@ -347,3 +348,106 @@ def test_extreme_narrow_window_through_batch(tmp_path):
     (row,) = read_summary(out)
     assert row["status"] == "ok"
     assert "inconclusive" in row.values(), row
+
+
+# --- batch faults: disk full, read-only output ---------------------------------------------------------------
+
+BATCH_SETTINGS = "[invert]\ngrid = 40\n[modes]\nrun = false\n[diagnose]\nrun = false\n"
+
+
+def _archive(tmp_path, n=5):
+    work = tmp_path / "arch"
+    work.mkdir()
+    for i in range(n):
+        s = lognormal_sweep(10 + i, wmin=1e-2, wmax=1e2, n=20)
+        (work / f"s{i}.csv").write_text(table(s.omega, s.storage, s.loss))
+    settings_file = tmp_path / "settings.toml"
+    settings_file.write_text(BATCH_SETTINGS)
+    return work, settings_file
+
+
+def _finished(out):
+    """Every result.json that exists: it must parse and say ok (a finished result stays intact)."""
+    done = {}
+    for p in sorted(out.rglob("result.json")):
+        d = json.loads(p.read_text(), parse_constant=_no_constant)
+        assert d["status"] == "ok", d
+        done[d["file"]] = p.read_bytes()
+    return done
+
+
+def _failing_writer(real, k, err):
+    calls = {"n": 0}
+
+    def writer(path, data, **kw):  # the writer fails from the (k+1)-th call on, as a full disk would
+        calls["n"] += 1
+        if calls["n"] > k:
+            raise OSError(err, os.strerror(err), str(path))
+        return real(path, data, **kw)
+
+    return writer
+
+
+@pytest.mark.parametrize("err", [errno.ENOSPC, errno.EACCES])
+@pytest.mark.parametrize("jobs", ["1", "2"])
+def test_write_failure_keeps_finished_results_and_a_rerun_completes(tmp_path, capsys, monkeypatch, err, jobs):
+    import tauspec.batch
+
+    work, settings_file = _archive(tmp_path)
+    out = tmp_path / "out"
+    argv = ["batch", str(work), "--out", str(out), "--quiet", "--jobs", jobs, "--settings", str(settings_file)]
+    real = tauspec.batch.atomic_write_bytes
+    monkeypatch.setattr(tauspec.batch, "atomic_write_bytes", _failing_writer(real, 6, err))  # 3 results, 2 files each
+    assert main(argv) == 1
+    stdout, stderr = capsys.readouterr()
+    assert "Traceback" not in stderr
+    lines = stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("tauspec: error: "), stderr
+    assert os.strerror(err) in lines[0] and "not done" in lines[0], lines[0]
+    first = _finished(out)
+    assert 0 < len(first) < 5
+    assert not list(out.rglob("*.tmp"))
+    monkeypatch.setattr(tauspec.batch, "atomic_write_bytes", real)
+    assert main(argv) == 0
+    capsys.readouterr()
+    second = _finished(out)
+    assert len(second) == 5
+    assert all(second[f] == b for f, b in first.items())  # the finished ones were kept, not rewritten
+    assert json.loads((out / "run.json").read_text())["counts"]["skipped"] == len(first)
+
+
+def test_read_only_output_folder(tmp_path, capsys):
+    work, settings_file = _archive(tmp_path, n=2)
+    out = tmp_path / "out"
+    argv = ["batch", str(work), "--out", str(out), "--quiet", "--settings", str(settings_file)]
+    out.mkdir()
+    out.chmod(0o555)
+    try:
+        if os.access(out, os.W_OK):
+            pytest.skip("running as root: chmod 555 does not stop root from writing (the EACCES case above "
+                        "simulates it)")
+        assert main(argv) == 1
+        stderr = capsys.readouterr().err
+        assert "Traceback" not in stderr and len(stderr.strip().splitlines()) == 1, stderr
+        assert "ermission" in stderr
+    finally:
+        out.chmod(0o755)
+    assert main(argv) == 0
+    assert len(_finished(out)) == 2
+
+
+def test_disk_full_at_the_summary_keeps_every_result(tmp_path, capsys, monkeypatch):
+    import tauspec.batch
+
+    work, settings_file = _archive(tmp_path, n=3)
+    out = tmp_path / "out"
+    argv = ["batch", str(work), "--out", str(out), "--quiet", "--settings", str(settings_file)]
+    real = tauspec.batch.atomic_write_text
+    monkeypatch.setattr(tauspec.batch, "atomic_write_text", _failing_writer(real, 0, errno.ENOSPC))
+    assert main(argv) == 1
+    stderr = capsys.readouterr().err
+    assert len(stderr.strip().splitlines()) == 1 and "summary not written" in stderr, stderr
+    assert len(_finished(out)) == 3
+    monkeypatch.setattr(tauspec.batch, "atomic_write_text", real)
+    assert main(argv) == 0
+    assert json.loads((out / "run.json").read_text())["counts"]["skipped"] == 3
