@@ -10,6 +10,7 @@ import json
 import math
 import os
 import re
+import shutil
 import warnings
 
 import numpy as np
@@ -451,3 +452,38 @@ def test_disk_full_at_the_summary_keeps_every_result(tmp_path, capsys, monkeypat
     monkeypatch.setattr(tauspec.batch, "atomic_write_text", real)
     assert main(argv) == 0
     assert json.loads((out / "run.json").read_text())["counts"]["skipped"] == 3
+
+
+# --- determinism: same input and settings, same bytes ---------------------------------------------------------
+
+
+@pytest.mark.parametrize("argv", [
+    ["invert", "--grid", "40"],
+    ["diagnose"],
+    ["predict", "--quantity", "creep"],
+])
+def test_json_output_is_byte_identical_across_runs(tmp_path, capsys, argv):
+    path = tmp_path / "s.csv"
+    s = lognormal_sweep(5, wmin=1e-2, wmax=1e2, n=20)
+    path.write_text(table(s.omega, s.storage, s.loss))
+    outputs, files = [], []
+    for _ in range(2):  # the same --out folder both times: the JSON names the files it wrote
+        assert main([*argv, str(path), "--json", "--out", str(tmp_path / "out")]) == 0
+        outputs.append(capsys.readouterr().out.encode())
+        files.append({p.name: p.read_bytes() for p in sorted((tmp_path / "out").rglob("*")) if p.is_file()})
+        shutil.rmtree(tmp_path / "out")
+    assert outputs[0] == outputs[1]
+    assert files[0] and files[0] == files[1]
+
+
+def test_compare_json_is_byte_identical_across_runs(tmp_path, capsys):
+    paths = []
+    for i in range(2):
+        s = lognormal_sweep(20 + i, tau_m=1.0 + i, wmin=1e-2, wmax=1e2, n=20)
+        paths.append(tmp_path / f"c{i}.csv")
+        paths[-1].write_text(table(s.omega, s.storage, s.loss))
+    outputs = []
+    for _ in range(2):
+        assert main(["compare", "--grid", "40", "--replicates", "10", *map(str, paths), "--json"]) == 0
+        outputs.append(capsys.readouterr().out.encode())
+    assert outputs[0] == outputs[1]
