@@ -41,21 +41,22 @@ def _oversized(path):
 
 #: name -> (writer(path), regex the one-line reason must match)
 BAD = {
-    "empty": (lambda p: p.write_bytes(b""), r"empty|no data|no header"),
-    "header_only": (lambda p: p.write_text(HEADER + "\n"), r"no data|rows|points"),
+    "empty": (lambda p: p.write_bytes(b""), r"empty"),
+    "header_only": (lambda p: p.write_text(HEADER + "\n"), r"no data rows"),
     "binary": (lambda p: p.write_bytes(bytes(range(256)) * 8), r"binary"),
-    "json_document": (lambda p: p.write_text('{"omega": [1, 2, 3], "G1": [1, 2, 3]}\n'), r"."),
-    "python_source": (lambda p: p.write_text("import os\n\n\ndef f(x):\n    return x + 1\n"), r"."),
+    "json_document": (lambda p: p.write_text('{"omega": [1, 2, 3], "G1": [1, 2, 3]}\n'), r"no frequency column"),
+    "python_source": (lambda p: p.write_text("import os\n\n\ndef f(x):\n    return x + 1\n"),
+                      r"no frequency column"),
     "ragged_rows": (lambda p: p.write_text("\n".join(GOOD_ROWS[:5] + ["1.5,2.5"] + GOOD_ROWS[5:]) + "\n"),
                     r"column|field|value"),
     "nan_inf": (lambda p: p.write_text(table(GOOD.omega, np.where(np.arange(20) % 2, np.nan, GOOD.storage),
-                                             np.where(np.arange(20) % 3, np.inf, GOOD.loss))), r"."),
-    "all_negative": (lambda p: p.write_text(table(GOOD.omega, -GOOD.storage, -GOOD.loss)), r"."),
+                                             np.where(np.arange(20) % 3, np.inf, GOOD.loss))), r"not finite"),
+    "all_negative": (lambda p: p.write_text(table(GOOD.omega, -GOOD.storage, -GOOD.loss)), r"positive G'"),
     "zero_frequency": (lambda p: p.write_text(table(np.r_[0.0, GOOD.omega[1:]], GOOD.storage, GOOD.loss)),
                        r"frequenc|ω|omega"),
     "negative_frequency": (lambda p: p.write_text(table(-GOOD.omega, GOOD.storage, GOOD.loss)),
                            r"frequenc|ω|omega"),
-    "single_row": (lambda p: p.write_text("\n".join(GOOD_ROWS[:2]) + "\n"), r"."),
+    "single_row": (lambda p: p.write_text("\n".join(GOOD_ROWS[:2]) + "\n"), r"1 data points; at least"),
     "duplicate_frequencies": (lambda p: p.write_text(table(np.repeat(GOOD.omega[:10], 2), GOOD.storage,
                                                            GOOD.loss)), r"duplicate|same|repeat"),
     "non_utf8": (lambda p: p.write_bytes(GOOD_TEXT.replace("G'' [Pa]", "G'' [Pa] \xb0").encode("latin-1")),
@@ -406,6 +407,7 @@ def test_write_failure_keeps_finished_results_and_a_rerun_completes(tmp_path, ca
     assert len(lines) == 1 and lines[0].startswith("tauspec: error: "), stderr
     assert os.strerror(err) in lines[0] and "not done" in lines[0], lines[0]
     first = _finished(out)
+    assert f"{len(first)} of 5 files finished and kept, {5 - len(first)} of 5 files not done" in lines[0]
     assert 0 < len(first) < 5
     assert not list(out.rglob("*.tmp"))
     monkeypatch.setattr(tauspec.batch, "atomic_write_bytes", real)
