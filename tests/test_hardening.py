@@ -489,3 +489,14 @@ def test_compare_json_is_byte_identical_across_runs(tmp_path, capsys):
         assert main(["compare", "--grid", "40", "--replicates", "10", *map(str, paths), "--json"]) == 0
         outputs.append(capsys.readouterr().out.encode())
     assert outputs[0] == outputs[1]
+
+
+@pytest.mark.parametrize("field, value", [("omega", 5e-324), ("omega", 1e300), ("storage", 5e-324),
+                                          ("loss", 1e300)])
+def test_sweep_built_in_python_is_range_checked(field, value):
+    from tauspec import Sweep
+
+    arrays = {"omega": GOOD.omega.copy(), "storage": GOOD.storage.copy(), "loss": GOOD.loss.copy()}
+    arrays[field][0 if value < 1 else -1] = value
+    with pytest.raises(SweepError, match=f"{field} has values outside"):
+        Sweep(**arrays, name="api")

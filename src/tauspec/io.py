@@ -25,7 +25,7 @@ from typing import Any
 import numpy as np
 
 from .errors import DroppedPointsWarning, SweepError
-from .sweep import MIN_POINTS, Sweep
+from .sweep import MIN_POINTS, MODULUS_RANGE, OMEGA_RANGE, Sweep
 from .units import to_si
 
 __all__ = [
@@ -43,11 +43,6 @@ __all__ = [
 
 #: Files larger than this are refused before reading (a sweep is a few kB).
 MAX_FILE_BYTES = 32 * 1024 * 1024
-#: Values outside these ranges (SI) are refused: far beyond any rheometer (so most likely wrong units or a
-#: glitch), and near the ends of float64 where 1/ω, ω² or G'/G'' overflow or lose all precision.
-#: The bounds are ours (common practice, no single source), wide enough for 1e-6–1e8 rad/s and 1e-3–1e10 Pa.
-OMEGA_RANGE = (1e-12, 1e12)
-MODULUS_RANGE = (1e-9, 1e14)
 
 _META_ALIASES = {
     "name": "sample",
