@@ -17,9 +17,10 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_sweep
+from tauspec import read_sweep
 from tauspec.cli import main
 from tauspec.errors import SweepError, TauspecWarning
-from tauspec.io import MAX_FILE_BYTES, read_sweep
+from tauspec.io import MAX_FILE_BYTES
 
 HEADER = "omega [rad/s],G' [Pa],G'' [Pa]"
 
