@@ -22,7 +22,7 @@ MIN_POINTS = 6
 #: glitch), and near the ends of float64 where 1/ω, ω² or G'/G'' overflow or lose all precision.
 #: The bounds are ours (common practice, no single source), wide enough for 1e-6–1e8 rad/s and 1e-3–1e10 Pa.
 OMEGA_RANGE = (1e-12, 1e12)
-MODULUS_RANGE = (1e-9, 1e14)
+MODULUS_RANGE = (1e-20, 1e20)
 
 
 def _frozen_array(values: Any, name: str, source: str) -> np.ndarray:
