@@ -765,7 +765,10 @@ def run_batch(
     started = time.time()
     t0 = time.perf_counter()
     inputs = find_inputs(paths, out, manifest)
-    out.mkdir(parents=True, exist_ok=True)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise _not_written(exc, out, 0, len(inputs)) from exc
     settings_sha = settings.digest()
     counts: Counter[str] = Counter()
     step_seconds: Counter[str] = Counter()
@@ -831,11 +834,16 @@ def run_batch(
                             message = f"{task.inp.file}: {WORKER_DIED}"
                             res = {"files": _error_files(task.inp, message, task.input_sha, settings, True)}
                         finish(task, res)
+    except OSError as exc:  # disk full, read-only folder ...: the finished results are whole (atomic writes)
+        raise _not_written(exc, out, counts["computed"] + counts["skipped"], len(inputs)) from exc
     finally:
         if bar is not None:
             bar.close()
 
-    summary = write_summary(out, inputs)
+    try:
+        summary = write_summary(out, inputs)
+    except OSError as exc:
+        raise _not_written(exc, out, len(inputs), len(inputs)) from exc
     ok = failed = 0
     with open(summary, encoding="utf-8", newline="") as fh:
         for row in csv.DictReader(fh):
@@ -864,5 +872,16 @@ def run_batch(
                     "worker_s": dict(sorted(step_seconds.items()))},
         "status": report.status,
     }
-    atomic_write_text(out / "run.json", dumps_json(run, indent=1) + "\n")
+    try:
+        atomic_write_text(out / "run.json", dumps_json(run, indent=1) + "\n")
+    except OSError as exc:
+        raise _not_written(exc, out, len(inputs), len(inputs)) from exc
     return report
+
+
+def _not_written(exc: OSError, out: Path, done: int, total: int) -> TauspecError:
+    """The one-line error for a write that failed: which file, why, and what is left to do."""
+    where = exc.filename or out
+    left = f"{total - done} of {total} files not done" if done < total else "the summary not written"
+    return TauspecError(f"cannot write ({exc.strerror or exc}); {done} of {total} files finished and kept, {left}; "
+                        "free space or make the folder writable and run again to complete the rest", str(where))

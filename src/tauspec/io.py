@@ -25,7 +25,7 @@ from typing import Any
 import numpy as np
 
 from .errors import DroppedPointsWarning, SweepError
-from .sweep import MIN_POINTS, Sweep
+from .sweep import MIN_POINTS, MODULUS_RANGE, OMEGA_RANGE, Sweep
 from .units import to_si
 
 __all__ = [
@@ -444,6 +444,7 @@ def _build_sweep(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, line_
     bad_w = np.flatnonzero(omega <= 0)
     if bad_w.size:
         raise SweepError(f"frequency must be positive (value {omega[bad_w[0]]:g})", source, int(line_no[bad_w[0]]))
+    _check_range(omega, OMEGA_RANGE, "frequency", "rad/s", line_no, source)
     order = np.argsort(omega, kind="stable")
     omega, storage, loss, line_no = omega[order], storage[order], loss[order], line_no[order]
     dup = np.flatnonzero(np.diff(omega) <= 0)
@@ -473,7 +474,22 @@ def _build_sweep(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, line_
         omega, storage, loss = omega[keep], storage[keep], loss[keep]
     if len(omega) < MIN_POINTS:
         raise SweepError(f"{len(omega)} data points; at least {MIN_POINTS} are needed", source)
+    _check_range(storage, MODULUS_RANGE, "G'", "Pa", line_no[keep], source)
+    _check_range(loss, MODULUS_RANGE, "G''", "Pa", line_no[keep], source)
     return Sweep(omega=omega, storage=storage, loss=loss, name=name, meta=meta, source=source)
+
+
+def _check_range(values: np.ndarray, bounds: tuple[float, float], what: str, unit: str, line_no: np.ndarray,
+                 source: str) -> None:
+    """Refuse the first value outside ``bounds`` (wrong units, a glitch, or beyond what float64 computes with)."""
+    bad = np.flatnonzero((values < bounds[0]) | (values > bounds[1]))
+    if bad.size:
+        raise SweepError(
+            f"{what} = {values[bad[0]]:g} {unit} lies outside {bounds[0]:g}–{bounds[1]:g} {unit}, the range tauspec "
+            "computes with (wrong units or an instrument glitch?)",
+            source,
+            int(line_no[bad[0]]),
+        )
 
 
 def _ranges(numbers: Iterable[int]) -> str:

@@ -13,11 +13,16 @@ import numpy as np
 from .errors import SweepError
 from .units import parse_quantity, temperature_kelvin
 
-__all__ = ["Sweep", "MIN_POINTS"]
+__all__ = ["Sweep", "MIN_POINTS", "OMEGA_RANGE", "MODULUS_RANGE"]
 
 #: Fewest usable points a sweep must have (common practice: an inversion with
 #: fewer points than a handful per decade is not meaningful).
 MIN_POINTS = 6
+#: Values outside these ranges (SI) are refused: far beyond any rheometer (so most likely wrong units or a
+#: glitch), and near the ends of float64 where 1/ω, ω² or G'/G'' overflow or lose all precision.
+#: The bounds are ours (common practice, no single source), wide enough for 1e-6–1e8 rad/s and 1e-3–1e10 Pa.
+OMEGA_RANGE = (1e-12, 1e12)
+MODULUS_RANGE = (1e-20, 1e20)
 
 
 def _frozen_array(values: Any, name: str, source: str) -> np.ndarray:
@@ -79,6 +84,11 @@ class Sweep:
                 problems.append("frequencies must be strictly increasing (sorted, no duplicates)")
             if np.any(arrays["storage"] <= 0) or np.any(arrays["loss"] <= 0):
                 problems.append("moduli must be positive")
+        if not problems:
+            for field, (lo, hi), unit in (("omega", OMEGA_RANGE, "rad/s"), ("storage", MODULUS_RANGE, "Pa"),
+                                          ("loss", MODULUS_RANGE, "Pa")):
+                if np.any((arrays[field] < lo) | (arrays[field] > hi)):
+                    problems.append(f"{field} has values outside {lo:g}–{hi:g} {unit}, the range tauspec computes with")
         if len(arrays["omega"]) < MIN_POINTS:
             problems.append(f"{len(arrays['omega'])} points; at least {MIN_POINTS} are needed")
         if problems:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+import traceback
 from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
 from typing import Any
@@ -51,6 +52,8 @@ def run_each_file(args: argparse.Namespace, work: Callable[[str], tuple[dict[str
         try:
             result, text = work(path)
         except TauspecError as exc:
+            if getattr(args, "debug", False):  # --debug shows the traceback, here as in cli.main
+                traceback.print_exc()
             if exc.source is None:
                 exc = type(exc)(exc.reason, str(path), exc.line)
             print(f"tauspec: error: {exc.one_line()}", file=sys.stderr)
