@@ -699,7 +699,7 @@ def _read_input(inp: Input) -> tuple[bytes | None, str | None, str | None]:
             raise SweepError("is a folder, not a sweep file", inp.file)
         size = inp.path.stat().st_size
         if size > MAX_FILE_BYTES:
-            raise SweepError(f"file is {size / 2**20:.0f} MiB; a frequency sweep is a few kB "
+            raise SweepError(f"file is {size / 2**20:.1f} MiB; a frequency sweep is a few kB "
                              f"(limit {MAX_FILE_BYTES / 2**20:.0f} MiB)", inp.file)
         raw = inp.path.read_bytes()
     except FileNotFoundError:

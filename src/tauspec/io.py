@@ -179,7 +179,7 @@ def _read_bytes(p: Path, source: str, max_bytes: int) -> bytes:
         size = p.stat().st_size
         if size > max_bytes:
             raise SweepError(
-                f"file is {size / 2**20:.0f} MiB; a frequency sweep is a few kB (limit {max_bytes / 2**20:.0f} MiB)",
+                f"file is {size / 2**20:.1f} MiB; a frequency sweep is a few kB (limit {max_bytes / 2**20:.0f} MiB)",
                 source,
             )
         with open(p, "rb") as fh:
