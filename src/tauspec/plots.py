@@ -12,7 +12,8 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["plot_fit", "plot_residuals", "plot_spectrum", "plot_lcurve", "save_spectrum_figures", "new_axes"]
+__all__ = ["fit_figure", "plot_fit", "plot_residuals", "plot_spectrum", "plot_lcurve", "save_spectrum_figures",
+           "new_axes"]
 
 #: Single journal column: 3.4 in wide.
 COLUMN_WIDTH = 3.4
@@ -110,6 +111,15 @@ def plot_lcurve(spectrum: Any, ax: Any = None) -> Any:
     return ax
 
 
+def fit_figure(spectrum: Any, height: float = 3.6) -> Any:
+    """Return a new figure: the data and fit above, the relative residuals below."""
+    fig, (ax1, ax2) = new_axes(2, height=height, sharex=True, gridspec_kw={"height_ratios": [3, 1]})
+    plot_fit(spectrum, ax1)
+    ax1.set_xlabel("")
+    plot_residuals(spectrum, ax2)
+    return fig
+
+
 def save_spectrum_figures(spectrum: Any, folder: str | Path, prefix: str = "", formats: tuple[str, ...] = ("png",),
                           band: tuple[np.ndarray, np.ndarray] | None = None) -> list[Path]:
     """Write ``fit``, ``spectrum`` and ``lcurve`` figures into ``folder``; return the paths."""
@@ -119,11 +129,7 @@ def save_spectrum_figures(spectrum: Any, folder: str | Path, prefix: str = "", f
     folder.mkdir(parents=True, exist_ok=True)
     written = []
     with mpl.rc_context(STYLE):
-        fig, (ax1, ax2) = new_axes(2, height=3.6, sharex=True, gridspec_kw={"height_ratios": [3, 1]})
-        plot_fit(spectrum, ax1)
-        ax1.set_xlabel("")
-        plot_residuals(spectrum, ax2)
-        written += _save(fig, folder / f"{prefix}fit", formats)
+        written += _save(fit_figure(spectrum), folder / f"{prefix}fit", formats)
         fig, ax = new_axes()
         plot_spectrum(spectrum, ax, band=band)
         written += _save(fig, folder / f"{prefix}spectrum", formats)

@@ -203,16 +203,12 @@ def _figures_html(folder: Path, result: Mapping[str, Any]) -> str:
         return '<p class="muted">no figures stored</p>'
     import matplotlib as mpl
 
-    from .plots import STYLE, new_axes, plot_fit, plot_residuals, plot_spectrum
+    from .plots import STYLE, fit_figure, new_axes, plot_spectrum
 
     view = _spectrum_view(spec)
     parts = []
     with mpl.rc_context(STYLE):
-        fig, (a1, a2) = new_axes(2, height=3.4, sharex=True, gridspec_kw={"height_ratios": [3, 1]})
-        plot_fit(view, a1)
-        a1.set_xlabel("")
-        plot_residuals(view, a2)
-        parts.append(_svg(fig))
+        parts.append(_svg(fit_figure(view, height=3.4)))
         band = None
         if "H_lo" in spec and "H_hi" in spec:
             band = (np.asarray(spec["H_lo"], dtype=float), np.asarray(spec["H_hi"], dtype=float))
