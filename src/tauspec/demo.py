@@ -24,6 +24,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .beadspring import mode_times
 from .io import atomic_write_text
 from .kernels import log_grid, modes_moduli, spectrum_moduli
 
@@ -49,11 +50,6 @@ class DemoSample:
     truth: dict
 
 
-def _rouse_times(tau_1: float, n: int) -> np.ndarray:
-    p = np.arange(1, n + 1)
-    return tau_1 * np.sin(math.pi / (2 * (n + 1))) ** 2 / np.sin(p * math.pi / (2 * (n + 1))) ** 2
-
-
 def _noisy(rng: np.random.Generator, g: np.ndarray, level: float) -> np.ndarray:
     return g * (1.0 + level * rng.standard_normal(g.shape))
 
@@ -71,7 +67,7 @@ def demo_samples(seed: int = 20261201) -> list[DemoSample]:
         G0 = c * GAS_CONSTANT * T / M
         tau_R = 0.15 * (M / 10.0) ** 2  # τ_R ∝ M² (Rouse)
         eta_s = 0.05
-        gp, gpp = modes_moduli(omega, np.full(N, G0), _rouse_times(tau_R, N), eta_s=eta_s)
+        gp, gpp = modes_moduli(omega, np.full(N, G0), mode_times(tau_R, N), eta_s=eta_s)
         out.append(DemoSample(
             name=f"binder-M{int(M)}", kind="rouse", omega=omega,
             storage=_noisy(rng, gp, 0.015), loss=_noisy(rng, gpp, 0.015),

@@ -473,9 +473,11 @@ def invert(
         eta_fit = float(eta_s)
     G_e = float(values[k]) if plateau else 0.0
 
-    Kp, Kpp = spectrum_matrix(sweep.omega, tau)
-    storage_fit = Kp @ H + G_e
-    loss_fit = Kpp @ H + eta_fit * sweep.omega
+    # the fitted moduli from the weighted problem itself (rows are data-weighted: undo the weights)
+    m = len(sweep)
+    fitted = (problem.A @ x) * np.concatenate([sweep.storage, sweep.loss])
+    storage_fit = fitted[:m]
+    loss_fit = fitted[m:] + problem.loss_offset
     rel = np.concatenate([storage_fit / sweep.storage - 1.0, loss_fit / sweep.loss - 1.0])
     rms = float(np.sqrt(np.mean(rel * rel)))
 
@@ -485,8 +487,7 @@ def invert(
             f"the frequency range ({sweep.omega[0]:.3g}–{sweep.omega[-1]:.3g} rad/s) is narrower than e^π ≈ 23: "
             "the data determine the spectrum nowhere (Davies & Anderssen 1997)"
         )
-    runs_p = runs_test(rel[: len(sweep)]) if len(sweep) >= 10 else 1.0
-    runs_p = min(runs_p, runs_test(rel[len(sweep):]) if len(sweep) >= 10 else 1.0)
+    runs_p = min(runs_test(rel[:m]), runs_test(rel[m:])) if m >= 10 else 1.0
     if runs_p < 1e-3 and rms > 0.02:
         hint = ""
         if not plateau and sweep.storage[0] > sweep.loss[0]:
