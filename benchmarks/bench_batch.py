@@ -34,7 +34,7 @@ SRC = HERE.parent / "src"
 
 
 def write_archive(folder: Path, n: int) -> None:
-    from tauspec.demo import demo_samples
+    from tauspec.cli.demo_archive import demo_samples
 
     count, seed = 0, 1
     while count < n:
@@ -54,17 +54,17 @@ def _bare_one(path: str, full: bool = False) -> float:
 
     from threadpoolctl import threadpool_limits
 
-    from tauspec.io import read_sweep
-    from tauspec.spectrum import invert
+    from tauspec.data.read import read_sweep
+    from tauspec.spectrum.invert import invert
 
     with threadpool_limits(1), warnings.catch_warnings():
         warnings.simplefilter("ignore")
         sweep = read_sweep(path)
         spectrum = invert(sweep)
         if full:
-            from tauspec.derived import derive
-            from tauspec.diagnosis import diagnose
-            from tauspec.modes import fit_modes
+            from tauspec.analysis.diagnosis.diagnose import diagnose
+            from tauspec.modes.derived import derive
+            from tauspec.modes.fit import fit_modes
 
             derive(fit_modes(sweep, spectrum))
             diagnose(sweep, spectrum=spectrum)
@@ -79,7 +79,7 @@ def _worker_rss() -> tuple[int, int]:
 def child(mode: str, archive: str, out: str, jobs: int, full: bool) -> dict:
     from joblib import Parallel, delayed
 
-    from tauspec.batch import DiagnoseOptions, ModesOptions, Settings, run_batch
+    from tauspec.batch.run import DiagnoseOptions, ModesOptions, Settings, run_batch
 
     files = sorted(str(p) for p in Path(archive).rglob("*.csv"))
     t_cold = time.perf_counter()

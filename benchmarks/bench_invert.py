@@ -33,8 +33,8 @@ from scipy.optimize import nnls
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 from synthetic import lognormal_H, lognormal_sweep  # noqa: E402
-from tauspec.regularize import TikhonovPath, objective, solve_cvxpy  # noqa: E402
-from tauspec.spectrum import build_problem, default_grid, invert  # noqa: E402
+from tauspec.spectrum.invert import build_problem, default_grid, invert  # noqa: E402
+from tauspec.spectrum.regularize import TikhonovPath, objective, solve_cvxpy  # noqa: E402
 
 
 def _best(fn, repeats):

@@ -26,9 +26,9 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 from synthetic import lognormal_sweep, noisy_sweep, rouse_sweep  # noqa: E402
-from tauspec.kernels import modes_moduli  # noqa: E402
-from tauspec.modes import fit_modes  # noqa: E402
-from tauspec.spectrum import invert  # noqa: E402
+from tauspec.modes.fit import fit_modes  # noqa: E402
+from tauspec.spectrum.invert import invert  # noqa: E402
+from tauspec.spectrum.kernels import modes_moduli  # noqa: E402
 
 
 def _timed(fn, repeats):

@@ -24,8 +24,8 @@ from pathlib import Path
 
 from threadpoolctl import threadpool_limits
 
-from tauspec.demo import demo_samples
-from tauspec.io import read_sweep
+from tauspec.cli.demo_archive import demo_samples
+from tauspec.data.read import read_sweep
 
 
 def _archive(folder: Path, n: int) -> list[Path]:
@@ -45,9 +45,9 @@ def _archive(folder: Path, n: int) -> list[Path]:
 
 
 def _stages(files: list[Path]) -> dict[str, float]:
-    from tauspec.diagnosis import diagnose
-    from tauspec.modes import fit_modes
-    from tauspec.spectrum import invert
+    from tauspec.analysis.diagnosis.diagnose import diagnose
+    from tauspec.modes.fit import fit_modes
+    from tauspec.spectrum.invert import invert
 
     acc: dict[str, list[float]] = {"read": [], "invert": [], "modes": [], "diagnose": []}
     for f in files:
@@ -67,7 +67,7 @@ def _stages(files: list[Path]) -> dict[str, float]:
 
 
 def _bare(files: list[Path]) -> float:
-    from tauspec.spectrum import invert
+    from tauspec.spectrum.invert import invert
 
     t = time.perf_counter()
     for f in files:
@@ -76,7 +76,7 @@ def _bare(files: list[Path]) -> float:
 
 
 def _batch(files_root: Path, out: Path, jobs: int, backend: str = "loky") -> float:
-    from tauspec.batch import run_batch, settings_from_mapping
+    from tauspec.batch.run import run_batch, settings_from_mapping
 
     settings = settings_from_mapping({"modes": {"run": False}, "diagnose": {"run": False}})  # as the bare loop
     t = time.perf_counter()

@@ -22,7 +22,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 from synthetic import lognormal_sweep  # noqa: E402
-from tauspec.spectrum import invert  # noqa: E402
+from tauspec.spectrum.invert import invert  # noqa: E402
 
 
 def _measure(sweep, grid, repeats):

@@ -31,8 +31,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 from synthetic import lognormal_H, lognormal_sweep  # noqa: E402
-from tauspec.spectrum import invert  # noqa: E402
-from tauspec.uncertainty import INTERVALS, confidence_bands, pointwise_interval  # noqa: E402
+from tauspec.analysis.uncertainty.bands import INTERVALS, confidence_bands, pointwise_interval  # noqa: E402
+from tauspec.spectrum.invert import invert  # noqa: E402
 
 LEVELS = (0.5, 0.68, 0.8, 0.9, 0.95)
 G_T = 1e4

@@ -9,8 +9,8 @@ import math
 
 import numpy as np
 
-from tauspec.kernels import log_grid, modes_moduli, spectrum_moduli
-from tauspec.sweep import Sweep
+from tauspec.data.sweep import Sweep
+from tauspec.spectrum.kernels import log_grid, modes_moduli, spectrum_moduli
 
 
 def lognormal_H(tau, G_t=1.0, tau_m=1.0, sigma=1.2):

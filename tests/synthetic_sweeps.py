@@ -13,9 +13,9 @@ import math
 import numpy as np
 from scipy.special import gamma
 
-from tauspec.beadspring import chain_moduli, rouse_moduli
-from tauspec.kernels import log_grid, modes_moduli, spectrum_moduli
-from tauspec.sweep import Sweep
+from tauspec.data.sweep import Sweep
+from tauspec.models.beadspring import chain_moduli, rouse_moduli
+from tauspec.spectrum.kernels import log_grid, modes_moduli, spectrum_moduli
 
 
 def _noisy(w, gp, gpp, noise, rng, name):

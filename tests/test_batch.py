@@ -14,8 +14,8 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_sweep, maxwell_sweep
-from tauspec import batch
-from tauspec.batch import (
+from tauspec.batch import run as batch
+from tauspec.batch.run import (
     DiagnoseOptions,
     InvertOptions,
     ModesOptions,
@@ -26,10 +26,10 @@ from tauspec.batch import (
     read_summary,
     run_batch,
 )
-from tauspec.cli import main
+from tauspec.cli.main import main
+from tauspec.data.read import read_sweep
 from tauspec.errors import SettingsError
-from tauspec.io import read_sweep
-from tauspec.spectrum import invert
+from tauspec.spectrum.invert import invert
 
 SRC = str(Path(__file__).resolve().parents[1] / "src")
 GRID = 24  # small τ grids keep the suite quick
@@ -306,7 +306,7 @@ def test_inputs_layout_manifest_and_name_clashes(tmp_path):
 
 def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
     """The demo runs the whole pipeline (read, invert, diagnosis) on its invented archive."""
-    from tauspec.demo import demo_samples
+    from tauspec.cli.demo_archive import demo_samples
 
     assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0  # the corrupted export is expected: exit 0
     first = capsys.readouterr().out

@@ -10,9 +10,9 @@ import pytest
 from scipy import integrate
 from scipy.special import zeta
 
-from tauspec import beadspring as bs
-from tauspec.kernels import modes_moduli
-from tauspec.signatures import ROUSE_G_COEFF
+from tauspec.models import beadspring as bs
+from tauspec.models.signatures import ROUSE_G_COEFF
+from tauspec.spectrum.kernels import modes_moduli
 
 # ------------------------------------------------------------------------------------------- check values
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import json
 
 from synthetic_sweeps import gel_sweep, rouse_sweep
-from tauspec.cli import main
+from tauspec.cli.main import main
 
 
 def _write(path, sweep):

@@ -8,8 +8,7 @@ import numpy as np
 import pytest
 
 from synthetic import bsw_H, lognormal_H, lognormal_moduli, noisy_sweep, rouse_times
-from tauspec.cli import main
-from tauspec.compare import (
+from tauspec.analysis.comparison.compare import (
     characteristic_modulus,
     characteristic_time,
     compare,
@@ -19,9 +18,10 @@ from tauspec.compare import (
     series_scaling,
     spectrum_from_dict,
 )
+from tauspec.cli.main import main
 from tauspec.errors import SettingsError, TauspecError
-from tauspec.kernels import log_grid, modes_moduli, spectrum_moduli
-from tauspec.spectrum import invert
+from tauspec.spectrum.invert import invert
+from tauspec.spectrum.kernels import log_grid, modes_moduli, spectrum_moduli
 
 W30 = np.geomspace(1e-2, 1e2, 30)
 W60 = np.geomspace(1e-3, 1e3, 60)
@@ -136,7 +136,7 @@ def test_overlay_figure_draws_each_spectrum_in_its_window():
     A, B = shifted_pair(2)
     c = compare([A, B], replicates=0)
     assert c.pairs[0].same_shape is None  # no replicates: no test
-    from tauspec.compare import overlay_figure, plot_overlay
+    from tauspec.output.figures.overlay import overlay_figure, plot_overlay
 
     fig = overlay_figure(c)
     raw, shifted = fig.axes[:2]
@@ -165,7 +165,7 @@ def test_errors_are_one_line_settings_errors():
 def test_a_band_sets_the_weights():
     # A band (lo, hi) = H·e^(∓1.96 s) read as a 95 % interval gives σ of ln H equal to s where H ≫ ε (normal
     # quantile 1.96 for 95 %), plus the data noise in quadrature.
-    from tauspec.compare import sample_uncertainty
+    from tauspec.analysis.comparison.compare import sample_uncertainty
 
     sp = invert(shifted_pair(9)[0])
     s = 0.05
@@ -202,10 +202,6 @@ def test_rouse_ratios_from_the_real_diagnosis():
     w = np.geomspace(1e-2, 1e3, 40)
     A = noisy_sweep(w, *rouse_moduli(w, 1e3, 1.0, 40), 0.01, 1, name="A")
     B = noisy_sweep(w, *rouse_moduli(w, 500.0, 4.0, 40), 0.01, 2, name="B")
-    from tauspec.compare import _diagnose_function
-
-    if _diagnose_function() is None:
-        pytest.skip("the bead-spring diagnosis is not in this installation")
     p = compare([A, B], diagnose=True, replicates=4).pairs[0]
     assert p.rouse is not None
     lo, hi = p.rouse["tau_R_ratio_ci"]
@@ -271,16 +267,6 @@ def test_series_uses_the_rouse_diagnosis_when_present(series):
     out = series_scaling(spectra, list(Ms), [1.0] * len(Ms), diagnoses=diags)
     assert "weight-average" in out["time"].measure and out["time_rouse"].n == len(Ms) - 1
     assert out["time_rouse"].exponents["M"] == pytest.approx(2.0, abs=1e-9)
-
-
-def test_diagnose_flag_says_when_the_diagnosis_is_missing(monkeypatch):
-    import tauspec.compare as cmp
-
-    monkeypatch.setattr(cmp, "_diagnose_function", lambda: None)
-    A, B = shifted_pair(8)
-    c = compare([A, B], replicates=0, diagnose=True)
-    assert any("diagnosis is not available" in n for n in c.notes)
-    assert c.pairs[0].rouse is None
 
 
 def test_power_law_fit_against_scipy_linregress_and_an_exact_law():

@@ -17,11 +17,11 @@ from synthetic_sweeps import (
     zimm_sweep,
 )
 from tauspec import diagnose
-from tauspec.beadspring import rouse_moduli
-from tauspec.diagnosis import VERDICTS, Evidence, decide
+from tauspec.analysis.diagnosis.diagnose import VERDICTS, Evidence, decide
+from tauspec.data.sweep import Sweep
+from tauspec.data.write import dumps_json
 from tauspec.errors import SettingsError
-from tauspec.io import dumps_json
-from tauspec.sweep import Sweep
+from tauspec.models.beadspring import rouse_moduli
 
 # The continuous-spectrum tests are exercised in test_diagnosis_spectrum.py; here the fits, the data-level
 # signatures and the discrete modes decide, which keeps this file quick.

@@ -7,11 +7,11 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_H, lognormal_moduli, lognormal_sweep, noisy_sweep
+from tauspec.data.sweep import Sweep
 from tauspec.errors import SettingsError, WeakResultWarning
-from tauspec.regularize import TikhonovPath, objective, solve_cvxpy
-from tauspec.select import curvature, lcurve_corner
-from tauspec.spectrum import build_problem, default_grid, invert, supported_window
-from tauspec.sweep import Sweep
+from tauspec.spectrum.invert import build_problem, default_grid, invert, supported_window
+from tauspec.spectrum.regularize import TikhonovPath, objective, solve_cvxpy
+from tauspec.spectrum.rules import curvature, lcurve_corner
 
 
 def rel_error(spectrum, H_true):
@@ -163,7 +163,7 @@ def test_result_contents_and_json_keys():
 
 def test_runs_test_flags_misfit_not_noise():
     # Wald & Wolfowitz 1940: alternating signs are many runs (p ≈ 1), one long run per sign is misfit (p ≈ 0).
-    from tauspec.spectrum import runs_test
+    from tauspec.spectrum.invert import runs_test
 
     assert runs_test(np.array([1.0, -1.0] * 20)) > 0.99
     assert runs_test(np.array([1.0] * 20 + [-1.0] * 20)) < 1e-6

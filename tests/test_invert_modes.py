@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_sweep
-from tauspec.cli import main
+from tauspec.cli.main import main
 
 
 @pytest.fixture()

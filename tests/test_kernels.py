@@ -7,7 +7,7 @@ import pytest
 from scipy import integrate
 
 from synthetic import bsw_H, lognormal_H, lognormal_moduli, rouse_times
-from tauspec.kernels import log_grid, loss_kernel, modes_moduli, spectrum_moduli, storage_kernel
+from tauspec.spectrum.kernels import log_grid, loss_kernel, modes_moduli, spectrum_moduli, storage_kernel
 
 
 def test_single_maxwell_mode_analytic():

@@ -8,11 +8,12 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_H, lognormal_sweep, noisy_sweep
-from tauspec.derived import creep_compliance, derive, relaxation_modulus
+from tauspec.data.sweep import Sweep
 from tauspec.errors import SettingsError, WeakResultWarning
-from tauspec.kernels import modes_moduli
-from tauspec.modes import fit_modes, write_modes_csv
-from tauspec.sweep import Sweep
+from tauspec.modes.derived import creep_compliance, derive, relaxation_modulus
+from tauspec.modes.fit import fit_modes
+from tauspec.output.tables import write_modes_csv
+from tauspec.spectrum.kernels import modes_moduli
 
 W6 = np.geomspace(1e-3, 1e3, 61)  # six decades, 10 points per decade
 THREE_G = np.array([1e5, 1e4, 1e3])

@@ -4,8 +4,10 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_sweep
-from tauspec import plots  # figures are made on matplotlib.figure.Figure: no display, no pyplot state
-from tauspec.spectrum import invert
+
+# figures are made on matplotlib.figure.Figure: no display, no pyplot state
+from tauspec.output.figures import spectrum as plots
+from tauspec.spectrum.invert import invert
 
 
 @pytest.fixture(scope="module")

@@ -9,12 +9,13 @@ import numpy as np
 import pytest
 
 from synthetic import noisy_sweep
-from tauspec.commands import predict
-from tauspec.derived import creep_compliance, relaxation_modulus
+from tauspec.cli import predict
+from tauspec.data.read import read_sweep
+from tauspec.data.write import write_csv
 from tauspec.errors import SettingsError
-from tauspec.io import read_sweep, write_csv
-from tauspec.kernels import modes_moduli
-from tauspec.modes import fit_modes
+from tauspec.modes.derived import creep_compliance, relaxation_modulus
+from tauspec.modes.fit import fit_modes
+from tauspec.spectrum.kernels import modes_moduli
 
 
 def _args(*argv):
@@ -110,7 +111,7 @@ def test_missing_file_and_several_files(sweep_file, tmp_path, capsys):
 
 def test_through_the_command_line(sweep_file, tmp_path, capsys, monkeypatch):
     # only this subcommand is registered here, so the test does not depend on the other command modules
-    from tauspec import cli
+    from tauspec.cli import main as cli
 
     monkeypatch.setattr(cli, "SUBCOMMANDS", {"predict": cli.SUBCOMMANDS["predict"]})
     main = cli.main

@@ -7,9 +7,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from tauspec.data.read import parse_sweep_text, read_sweep
+from tauspec.data.sweep import Sweep
 from tauspec.errors import DroppedPointsWarning, SweepError
-from tauspec.io import parse_sweep_text, read_sweep
-from tauspec.sweep import Sweep
 
 W = [0.1, 0.3, 1.0, 3.0, 10.0, 30.0, 100.0]
 GP = [1.0, 8.0, 60.0, 300.0, 900.0, 1800.0, 2600.0]
@@ -179,7 +179,7 @@ def test_arbitrary_numeric_tables_only_sweep_errors(header, rows, sep):
 
 
 def test_temperature_column(tmp_path):
-    from tauspec.io import read_sweeps
+    from tauspec.data.read import read_sweeps
 
     rows = [(w, a, b, 25.02) for w, a, b in zip(W, GP, GPP)]
     s = parse_sweep_text(table("omega [rad/s],G' [Pa],G'' [Pa],T [°C]", rows=rows))

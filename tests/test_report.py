@@ -14,8 +14,8 @@ from html.parser import HTMLParser
 
 import pytest
 
-from tauspec.cli import main
-from tauspec.demo import write_demo_archive
+from tauspec.cli.demo_archive import write_demo_archive
+from tauspec.cli.main import main
 
 VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "source", "track", "wbr",
         "path", "rect", "circle", "line", "polyline", "polygon", "use", "stop", "ellipse", "image"}

@@ -14,10 +14,11 @@ import numpy as np
 import pytest
 
 from synthetic import bsw_H, lognormal_H
+from tauspec.analysis.superposition.master import MasterCurve, noise_level, superpose
+from tauspec.data.read import read_sweep
+from tauspec.data.sweep import Sweep
 from tauspec.errors import SettingsError, TauspecError, WeakResultWarning
-from tauspec.io import read_sweep
-from tauspec.kernels import log_grid, spectrum_moduli
-from tauspec.shift_models import (
+from tauspec.models.shift_laws import (
     GAS_CONSTANT,
     arrhenius_log_aT,
     compare_fits,
@@ -25,8 +26,7 @@ from tauspec.shift_models import (
     fit_wlf,
     wlf_log_aT,
 )
-from tauspec.superpose import MasterCurve, noise_level, superpose
-from tauspec.sweep import Sweep
+from tauspec.spectrum.kernels import log_grid, spectrum_moduli
 
 # "Universal" WLF constants referred to the glass transition: C1 = 17.44, C2 = 51.6 K
 # (Williams, Landel & Ferry 1955, J. Am. Chem. Soc. 77, 3701; Ferry 1980, ch. 11).
@@ -351,7 +351,7 @@ def _write(sweep: Sweep, path, *, temperature=True):
 
 
 def test_cli_round_trip(tmp_path, capsys):
-    from tauspec.cli import main
+    from tauspec.cli.main import main
 
     sweeps = make_sweeps(TEMPS_WLF, wlf_truth, seed=5, T_ref=T_REF_WLF)
     files = [_write(s, tmp_path / f"s{i}.csv") for i, s in enumerate(sweeps)]
@@ -380,7 +380,7 @@ def test_cli_round_trip(tmp_path, capsys):
 
 
 def test_cli_temperatures_option_plot_and_errors(tmp_path, capsys):
-    from tauspec.cli import main
+    from tauspec.cli.main import main
 
     sweeps = make_sweeps(TEMPS_WLF[1:4], wlf_truth, seed=6, T_ref=T_REF_WLF)
     files = [_write(s, tmp_path / f"t{i}.csv", temperature=False) for i, s in enumerate(sweeps)]
@@ -404,7 +404,7 @@ def test_superpose_then_invert_recovers_the_spectrum_over_the_widened_window():
     # 1955), 2 % noise: the master curve spans ~8 decades, so the Davies–Anderssen window (Davies & Anderssen
     # 1997) is ~5 decades wider than one three-decade sweep's, and the inversion of the master curve must recover
     # H inside that window.
-    from tauspec.spectrum import invert, supported_window
+    from tauspec.spectrum.invert import invert, supported_window
 
     def H_true(tau):
         return lognormal_H(tau, G_t=6e5, tau_m=0.05, sigma=2.5) + lognormal_H(tau, G_t=1e5, tau_m=1e-4, sigma=1.5)
@@ -424,7 +424,7 @@ def test_superpose_then_invert_recovers_the_spectrum_over_the_widened_window():
 
 def test_cli_one_file_with_a_temperature_column(tmp_path, capsys):
     # The same sweeps as in test_cli_round_trip, written into one file with a temperature column.
-    from tauspec.cli import main
+    from tauspec.cli.main import main
 
     sweeps = make_sweeps(TEMPS_WLF, wlf_truth, seed=5, T_ref=T_REF_WLF)
     lines = ["# sample: series", "omega [rad/s],G' [Pa],G'' [Pa],T [C]"]

@@ -13,11 +13,7 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_H, lognormal_sweep, noisy_sweep
-from tauspec.errors import SettingsError, TauspecError
-from tauspec.io import dumps_json
-from tauspec.kernels import spectrum_moduli
-from tauspec.spectrum import invert
-from tauspec.uncertainty import (
+from tauspec.analysis.uncertainty.bands import (
     STATISTICS,
     Statistic,
     confidence_bands,
@@ -25,6 +21,10 @@ from tauspec.uncertainty import (
     pointwise_interval,
     resample_sweeps,
 )
+from tauspec.data.write import dumps_json
+from tauspec.errors import SettingsError, TauspecError
+from tauspec.spectrum.invert import invert
+from tauspec.spectrum.kernels import spectrum_moduli
 
 G_T = 1e4
 
@@ -169,8 +169,8 @@ def test_extra_statistics_get_intervals():
 
 
 def test_modes_statistic(spectrum):
-    from tauspec.derived import derive
-    from tauspec.modes import fit_modes
+    from tauspec.modes.derived import derive
+    from tauspec.modes.fit import fit_modes
 
     b = confidence_bands(spectrum, resamples=10, seed=3, statistics=("modes",))
     modes = fit_modes(small_sweep(5), spectrum)
@@ -224,7 +224,7 @@ def test_bad_settings(spectrum, kwargs, match):
 
 # ----------------------------------------------------------------------------------------- CLI
 def test_cli_invert_bands(tmp_path, capsys):
-    from tauspec.cli import main
+    from tauspec.cli.main import main
 
     sw = small_sweep(3)
     f = tmp_path / "s.csv"

@@ -1,5 +1,5 @@
 """Allow ``python -m tauspec``."""
 
-from .cli import main
+from .cli.main import main
 
 raise SystemExit(main())

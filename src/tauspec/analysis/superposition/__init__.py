@@ -1,0 +1,1 @@
+"""Time–temperature superposition of sweeps at several temperatures into a master curve."""

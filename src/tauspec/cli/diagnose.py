@@ -1,0 +1,44 @@
+"""The ``tauspec diagnose FILE...`` command: does the unentangled bead-spring (Rouse) description hold."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+from .common import add_output_arguments, output_dir_for, run_each_file
+
+__all__ = ["add_arguments", "run"]
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    """Register the options of ``diagnose``."""
+    p.add_argument("files", nargs="+", metavar="FILE", help="sweep files (text tables with a header row)")
+    add_output_arguments(p)
+    p.add_argument("--no-spectrum", action="store_true",
+                   help="skip the continuous-spectrum tests (faster; they are then listed as not made)")
+    p.add_argument("--no-solvent", dest="solvent", action="store_false", help="do not fit a solvent viscosity η_s")
+
+
+def run(args: argparse.Namespace) -> int:
+    """Diagnose every file; print JSON lines or a text report; return 1 when any file failed."""
+    from ..analysis.diagnosis.diagnose import diagnose
+    from ..data.read import read_sweep
+    from ..data.write import atomic_write_text, dumps_json
+
+    def work(path: str) -> tuple[dict, str]:
+        sweep = read_sweep(path)
+        diag = diagnose(sweep, use_spectrum=not args.no_spectrum, solvent=args.solvent)
+        result = diag.to_dict()
+        out = output_dir_for(args, path)
+        if out is not None:
+            out.mkdir(parents=True, exist_ok=True)
+            atomic_write_text(out / "diagnosis.json", dumps_json(result, indent=1) + "\n")
+            atomic_write_text(out / "diagnosis.txt", diag.report() + "\n")
+        if args.plot:
+            from ..output.figures.diagnosis import plot_diagnosis
+
+            folder = out or Path(".")
+            plot_diagnosis(diag, folder / ("diagnosis.png" if out else f"{Path(path).stem}-diagnosis.png"))
+        return result, diag.report()
+
+    return run_each_file(args, work)

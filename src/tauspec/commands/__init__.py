@@ -1,1 +1,0 @@
-"""Subcommands of the ``tauspec`` command line, one module each (see :mod:`tauspec.cli`)."""

@@ -1,0 +1,6 @@
+"""The data layer: one frequency sweep in SI units, and the files it comes from and results go to.
+
+:class:`~tauspec.data.sweep.Sweep` (validated SI arrays), unit conversion (:mod:`~tauspec.data.units`), reading
+sweep files (:mod:`~tauspec.data.read`) and writing tables and JSON (:mod:`~tauspec.data.write`).  This layer
+imports nothing of tauspec but :mod:`tauspec.errors`; every other layer may import it.
+"""

@@ -1,0 +1,143 @@
+"""The :class:`Sweep`: one small-amplitude oscillatory shear frequency sweep in SI units."""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Mapping
+from types import MappingProxyType
+from typing import Any
+
+import numpy as np
+
+from ..errors import SweepError
+from .units import parse_quantity, temperature_kelvin
+
+__all__ = ["Sweep", "MIN_POINTS", "OMEGA_RANGE", "MODULUS_RANGE"]
+
+#: Fewest usable points a sweep must have (common practice: an inversion with
+#: fewer points than a handful per decade is not meaningful).
+MIN_POINTS = 6
+#: Values outside these ranges (SI) are refused: far beyond any rheometer (so most likely wrong units or a
+#: glitch), and near the ends of float64 where 1/ω, ω² or G'/G'' overflow or lose all precision.
+#: The bounds are ours (common practice, no single source), wide enough for 1e-6–1e8 rad/s and 1e-3–1e10 Pa.
+OMEGA_RANGE = (1e-12, 1e12)
+MODULUS_RANGE = (1e-20, 1e20)
+
+
+def _frozen_array(values: Any, name: str, source: str) -> np.ndarray:
+    try:
+        arr = np.array(values, dtype=float, copy=True).reshape(-1)
+    except (TypeError, ValueError) as exc:
+        raise SweepError(f"{name} is not a list of numbers ({exc})", source) from None
+    arr.setflags(write=False)
+    return arr
+
+
+@dataclasses.dataclass(frozen=True, eq=False)
+class Sweep:
+    """A frequency sweep: storage and loss moduli against angular frequency.
+
+    All arrays are SI: ``omega`` in rad/s, ``storage`` (G') and ``loss`` (G'')
+    in Pa.  Construction validates: the three arrays have equal length, every
+    value is finite, ω > 0, ω strictly increasing (no duplicates), moduli
+    positive, and at least :data:`MIN_POINTS` points.  Readers sort and drop
+    non-positive points before building a Sweep; the constructor refuses them.
+
+    Parameters
+    ----------
+    omega, storage, loss : array_like
+        Angular frequency (rad/s), storage modulus G' (Pa), loss modulus G'' (Pa).
+    name : str
+        Sample name (from ``# sample:`` metadata or the file name).
+    meta : mapping of str to str
+        Metadata from ``# key: value`` lines, keys lower case with underscores.
+    source : str
+        Where the sweep came from (a path), used in error messages.
+    """
+
+    omega: np.ndarray
+    storage: np.ndarray
+    loss: np.ndarray
+    name: str = "sample"
+    meta: Mapping[str, str] = dataclasses.field(default_factory=dict)
+    source: str = ""
+
+    def __post_init__(self) -> None:
+        src = self.source or self.name
+        arrays = {}
+        for field in ("omega", "storage", "loss"):
+            arrays[field] = _frozen_array(getattr(self, field), field, src)
+            object.__setattr__(self, field, arrays[field])
+        object.__setattr__(self, "meta", MappingProxyType(dict(self.meta)))
+        problems = []
+        n = {len(a) for a in arrays.values()}
+        if len(n) != 1:
+            raise SweepError("omega, storage and loss have different lengths", src)
+        for field, arr in arrays.items():
+            if not np.all(np.isfinite(arr)):
+                problems.append(f"{field} has non-finite values")
+        if not problems:
+            if np.any(arrays["omega"] <= 0):
+                problems.append("frequencies must be positive")
+            if np.any(np.diff(arrays["omega"]) <= 0):
+                problems.append("frequencies must be strictly increasing (sorted, no duplicates)")
+            if np.any(arrays["storage"] <= 0) or np.any(arrays["loss"] <= 0):
+                problems.append("moduli must be positive")
+        if not problems:
+            for field, (lo, hi), unit in (("omega", OMEGA_RANGE, "rad/s"), ("storage", MODULUS_RANGE, "Pa"),
+                                          ("loss", MODULUS_RANGE, "Pa")):
+                if np.any((arrays[field] < lo) | (arrays[field] > hi)):
+                    problems.append(f"{field} has values outside {lo:g}–{hi:g} {unit}, the range tauspec computes with")
+        if len(arrays["omega"]) < MIN_POINTS:
+            problems.append(f"{len(arrays['omega'])} points; at least {MIN_POINTS} are needed")
+        if problems:
+            raise SweepError("; ".join(problems), src)
+
+    def __len__(self) -> int:
+        return len(self.omega)
+
+    @property
+    def decades(self) -> float:
+        """Width of the frequency range in decades, log10(ω_max/ω_min)."""
+        return float(math.log10(self.omega[-1] / self.omega[0]))
+
+    def replace(self, **changes: Any) -> Sweep:
+        """Return a copy with some fields changed (validated again)."""
+        return dataclasses.replace(self, **changes)
+
+    def meta_number(self, key: str, kind: str | None = None) -> float | None:
+        """Return a numeric metadata value, or ``None`` when absent.
+
+        ``kind="temperature"`` converts °C (the default when no unit is
+        given) or K to kelvin.
+
+        Raises
+        ------
+        SweepError
+            When the value is present but not a number.
+        """
+        text = self.meta.get(key)
+        if text is None:
+            return None
+        try:
+            value, unit = parse_quantity(text)
+        except ValueError:
+            raise SweepError(f"metadata {key!r} is not a number: {text!r}", self.source or self.name) from None
+        if kind == "temperature":
+            try:
+                return temperature_kelvin(text)
+            except ValueError as exc:
+                raise SweepError(str(exc), self.source or self.name) from None
+        return value
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return the JSON form (SI arrays as lists)."""
+        return {
+            "sample": self.name,
+            "source": self.source,
+            "meta": dict(self.meta),
+            "omega": self.omega.tolist(),
+            "storage": self.storage.tolist(),
+            "loss": self.loss.tolist(),
+        }
