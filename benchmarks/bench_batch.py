@@ -79,7 +79,8 @@ def _worker_rss() -> tuple[int, int]:
 def child(mode: str, archive: str, out: str, jobs: int, full: bool) -> dict:
     from joblib import Parallel, delayed
 
-    from tauspec.batch.run import DiagnoseOptions, ModesOptions, Settings, run_batch
+    from tauspec.batch.run import run_batch
+    from tauspec.batch.settings import DiagnoseOptions, ModesOptions, Settings
 
     files = sorted(str(p) for p in Path(archive).rglob("*.csv"))
     t_cold = time.perf_counter()

@@ -33,8 +33,10 @@ from scipy.optimize import nnls
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 from synthetic import lognormal_H, lognormal_sweep  # noqa: E402
-from tauspec.spectrum.invert import build_problem, default_grid, invert  # noqa: E402
+from tauspec.spectrum.invert import invert  # noqa: E402
+from tauspec.spectrum.problem import build_problem
 from tauspec.spectrum.regularize import TikhonovPath, objective, solve_cvxpy  # noqa: E402
+from tauspec.spectrum.window import default_grid
 
 
 def _best(fn, repeats):

@@ -76,7 +76,8 @@ def _bare(files: list[Path]) -> float:
 
 
 def _batch(files_root: Path, out: Path, jobs: int, backend: str = "loky") -> float:
-    from tauspec.batch.run import run_batch, settings_from_mapping
+    from tauspec.batch.run import run_batch
+    from tauspec.batch.settings import settings_from_mapping
 
     settings = settings_from_mapping({"modes": {"run": False}, "diagnose": {"run": False}})  # as the bare loop
     t = time.perf_counter()

@@ -14,7 +14,7 @@ import numpy as np
 from scipy.special import gamma
 
 from tauspec.data.sweep import Sweep
-from tauspec.models.beadspring import chain_moduli, rouse_moduli
+from tauspec.models.chains import chain_moduli, rouse_moduli
 from tauspec.spectrum.kernels import log_grid, modes_moduli, spectrum_moduli
 
 

@@ -14,18 +14,11 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_sweep, maxwell_sweep
-from tauspec.batch import run as batch
-from tauspec.batch.run import (
-    DiagnoseOptions,
-    InvertOptions,
-    ModesOptions,
-    Settings,
-    find_inputs,
-    load_settings,
-    process,
-    read_summary,
-    run_batch,
-)
+from tauspec.batch.inputs import find_inputs
+from tauspec.batch.pipeline import process
+from tauspec.batch.run import run_batch
+from tauspec.batch.settings import DiagnoseOptions, InvertOptions, ModesOptions, Settings, load_settings
+from tauspec.batch.summary import SUMMARY_COLUMNS, read_summary
 from tauspec.cli.main import main
 from tauspec.data.read import read_sweep
 from tauspec.errors import SettingsError
@@ -84,9 +77,9 @@ def test_outputs_summary_and_hashes(archive, reference):
     rows = read_summary(out)
     files = [r["file"] for r in rows]
     assert files == sorted(files) and len(files) == 8 and "notes.md" not in files
-    assert set(batch.SUMMARY_COLUMNS) >= {"file", "status", "verdict", "tau_R", "G0", "alpha", "eta0", "lambda",
+    assert set(SUMMARY_COLUMNS) >= {"file", "status", "verdict", "tau_R", "G0", "alpha", "eta0", "lambda",
                                           "error"}
-    assert list(rows[0]) == list(batch.SUMMARY_COLUMNS)
+    assert list(rows[0]) == list(SUMMARY_COLUMNS)
     for row in rows:
         folder = out / os.path.splitext(row["file"])[0]
         assert (folder / "spectrum.csv").exists() and (folder / "fit.csv").exists()

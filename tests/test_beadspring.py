@@ -10,7 +10,9 @@ import pytest
 from scipy import integrate
 from scipy.special import zeta
 
-from tauspec.models import beadspring as bs
+from tauspec.models.beadspring import fit_chain
+from tauspec.models.chains import chain_moduli, mode_times, rouse_moduli, zimm_moduli
+from tauspec.models.intervals import add_intervals, jacobian_intervals
 from tauspec.models.signatures import ROUSE_G_COEFF
 from tauspec.spectrum.kernels import modes_moduli
 
@@ -32,7 +34,7 @@ def test_rouse_coefficient_pi_over_2_sqrt2_by_quadrature():
 def test_finite_rouse_chain_reaches_the_intermediate_asymptote(x):
     # Ferry 1980, ch. 9: for 1 ≪ ωτ_1 ≪ N², G'' = G' + G0/2 = (π/(2√2)) G0 √(ωτ_1).
     G0, tau1, N = 2.0, 1.0, 3000
-    gp, gpp = bs.rouse_moduli(np.array([x]), G0, tau1, N)
+    gp, gpp = rouse_moduli(np.array([x]), G0, tau1, N)
     target = ROUSE_G_COEFF * G0 * math.sqrt(x)
     assert gpp[0] == pytest.approx(target, rel=0.02)
     assert gp[0] + G0 / 2 == pytest.approx(target, rel=0.02)
@@ -51,25 +53,25 @@ def test_tan_delta_of_the_asymptotic_power_laws(a, tan_expected):
     # the discrete long chain at ωτ_1 = 100: G' + G0/2 (Euler–Maclaurin end term) and G'' plus the viscous
     # contribution ω Σ_{p>N} τ_p of the modes cut off at N (Hurwitz zeta) give the same ratio
     N = 4000
-    gp_d, gpp_d = bs.chain_moduli(np.array([x * 2]), 1.0, 1.0, N, a=a, form="power")
+    gp_d, gpp_d = chain_moduli(np.array([x * 2]), 1.0, 1.0, N, a=a, form="power")
     tail = 2 * x * float(zeta(a, N + 1))
     assert (gpp_d[0] + tail) / (gp_d[0] + 0.5) == pytest.approx(tan_expected, rel=0.02)
 
 
 def test_rouse_sums_and_terminal_limit():
     # Ferry 1980, ch. 9 (values in REFERENCES.md): Σ τ_p → (π²/6) τ_1, and G'/ω² → G0 τ_1² π⁴/90 for ω → 0.
-    tau = bs.mode_times(1.0, 2000, 2.0, "sine")
+    tau = mode_times(1.0, 2000, 2.0, "sine")
     assert tau.sum() == pytest.approx(math.pi**2 / 6, rel=2e-3)
     assert (tau**2).sum() == pytest.approx(math.pi**4 / 90, rel=1e-4)
     w = np.array([1e-5])
-    gp, gpp = bs.rouse_moduli(w, 3.0, 1.0, 2000)
+    gp, gpp = rouse_moduli(w, 3.0, 1.0, 2000)
     assert gp[0] / w[0] ** 2 == pytest.approx(3.0 * math.pi**4 / 90, rel=1e-3)
     assert gpp[0] / w[0] == pytest.approx(3.0 * math.pi**2 / 6, rel=2e-3)
 
 
 def test_sine_form_tends_to_inverse_square_for_low_modes():
     # Rouse 1953: τ_p → τ_1/p² for p ≪ N.
-    tau = bs.mode_times(2.0, 500, 2.0, "sine")
+    tau = mode_times(2.0, 500, 2.0, "sine")
     p = np.arange(1, 11)
     np.testing.assert_allclose(tau[:10], 2.0 / p**2, rtol=5e-4)
     assert tau[0] == 2.0
@@ -79,27 +81,27 @@ def test_binned_fast_modes_match_the_exact_mode_sum():
     # The binned sum over p (midpoint rule) against the plain sum of every Maxwell mode (Ferry 1980, ch. 3).
     w = np.geomspace(1e-3, 1e6, 60)
     for n, a, form in [(150, 2.0, "sine"), (4000, 2.0, "sine"), (3000, 1.5, "power"), (700, 1.764, "power")]:
-        exact = modes_moduli(w, np.ones(n), bs.mode_times(1.0, n, a, form), eta_s=0.2)
-        approx = bs.chain_moduli(w, 1.0, 1.0, n, a=a, form=form, eta_s=0.2)
+        exact = modes_moduli(w, np.ones(n), mode_times(1.0, n, a, form), eta_s=0.2)
+        approx = chain_moduli(w, 1.0, 1.0, n, a=a, form=form, eta_s=0.2)
         for e, f in zip(exact, approx):
             np.testing.assert_allclose(f, e, rtol=1e-4)
 
 
 def test_continuous_N_is_the_chain_at_integers_and_between_them():
     w = np.geomspace(0.01, 100, 20)
-    np.testing.assert_allclose(bs.rouse_moduli(w, 1, 1, 17.0)[0], bs.chain_moduli(w, 1, 1, 17, a=2.0)[0])
-    mid = bs.rouse_moduli(w, 1, 1, 17.25)[1]
-    lo, hi = bs.rouse_moduli(w, 1, 1, 17)[1], bs.rouse_moduli(w, 1, 1, 18)[1]
+    np.testing.assert_allclose(rouse_moduli(w, 1, 1, 17.0)[0], chain_moduli(w, 1, 1, 17, a=2.0)[0])
+    mid = rouse_moduli(w, 1, 1, 17.25)[1]
+    lo, hi = rouse_moduli(w, 1, 1, 17)[1], rouse_moduli(w, 1, 1, 18)[1]
     np.testing.assert_allclose(mid, 0.75 * lo + 0.25 * hi)
 
 
 def test_bad_model_arguments():
     with pytest.raises(ValueError, match="at least one mode"):
-        bs.mode_times(1.0, 0)
+        mode_times(1.0, 0)
     with pytest.raises(ValueError, match="unknown form"):
-        bs.mode_times(1.0, 5, form="cosine")
+        mode_times(1.0, 5, form="cosine")
     with pytest.raises(ValueError, match="unknown model"):
-        bs.fit_chain(np.ones(6), np.ones(6), np.ones(6), "reptation")
+        fit_chain(np.ones(6), np.ones(6), np.ones(6), "reptation")
 
 
 # ------------------------------------------------------------------------------------------------- fits
@@ -107,7 +109,7 @@ def test_bad_model_arguments():
 
 def _exact_rouse(N, tau1=1.0, G0=1.0, eta=0.0, wmin=0.01, wmax=1000.0, n=40):
     w = np.geomspace(wmin, wmax, n)
-    gp, gpp = bs.rouse_moduli(w, G0, tau1, N, eta_s=eta)
+    gp, gpp = rouse_moduli(w, G0, tau1, N, eta_s=eta)
     return w, gp, gpp
 
 
@@ -116,13 +118,13 @@ def test_free_exponent_with_fitted_N_recovers_two_on_exact_rouse_data(N):
     # Pitfall measured by colleagues: a pure power law with a large fixed N gives a ≈ 1.90 on exact Rouse data
     # of N ≈ 30–40; with N fitted and the finite-N (sine) form the exponent is 2 (Rouse 1953).
     w, gp, gpp = _exact_rouse(N, eta=0.002)
-    f = bs.fit_chain(w, gp, gpp, "general_sine")
+    f = fit_chain(w, gp, gpp, "general_sine")
     assert f.a == pytest.approx(2.0, abs=0.01)
     assert f.N == pytest.approx(N, rel=0.05)
     assert f.tau1 == pytest.approx(1.0, rel=0.01)
     assert f.rms < 1e-3
     # the truncated power law with a large fixed N (here N = 1000) is worse and biased low
-    prob_fit = bs.fit_chain(w, gp, gpp, "general_power")
+    prob_fit = fit_chain(w, gp, gpp, "general_power")
     assert prob_fit.chi2 > f.chi2
 
 
@@ -130,9 +132,9 @@ def test_finite_N_form_is_biased_on_a_zimm_spectrum_and_the_power_form_is_not():
     # Measured pitfall (colleagues): the sine form applied to τ_p = τ_1 p^(−3ν), ν = 0.588, biases a upward
     # (≈ 1.87); the power form recovers 3ν and fits better (Zimm 1956).
     w = np.geomspace(0.01, 1000, 40)
-    gp, gpp = bs.zimm_moduli(w, 1.0, 1.0, 100, nu=0.588)
-    fs = bs.fit_chain(w, gp, gpp, "general_sine")
-    fp = bs.fit_chain(w, gp, gpp, "general_power")
+    gp, gpp = zimm_moduli(w, 1.0, 1.0, 100, nu=0.588)
+    fs = fit_chain(w, gp, gpp, "general_sine")
+    fp = fit_chain(w, gp, gpp, "general_power")
     assert fp.a == pytest.approx(1.764, abs=0.01)
     assert fs.a > fp.a + 0.03
     assert fp.bic < fs.bic
@@ -146,12 +148,12 @@ def test_profile_intervals_cover_the_truth_on_noisy_rouse_data(seed):
     w, gp, gpp = _exact_rouse(N, tau1=tau1, G0=G0, eta=0.05 * G0 * tau1, wmin=0.01 / tau1, wmax=500 / tau1)
     gp = gp * (1 + 0.02 * rng.standard_normal(len(w)))
     gpp = gpp * (1 + 0.02 * rng.standard_normal(len(w)))
-    f = bs.add_intervals(bs.fit_chain(w, gp, gpp, "rouse"), w, gp, gpp)
+    f = add_intervals(fit_chain(w, gp, gpp, "rouse"), w, gp, gpp)
     assert f.ci_method == "profile likelihood"
     assert f.tau1_ci[0] < tau1 < f.tau1_ci[1]
     assert f.G0_ci[0] < G0 < f.G0_ci[1]
     assert f.tau1_ci[0] < f.tau1 < f.tau1_ci[1]
-    j = bs.jacobian_intervals(f, w, gp, gpp)
+    j = jacobian_intervals(f, w, gp, gpp)
     assert j.ci_method == "jacobian"
     # the Wald and profile intervals agree roughly for this well-determined parameter
     assert math.log(j.tau1_ci[1] / j.tau1_ci[0]) == pytest.approx(math.log(f.tau1_ci[1] / f.tau1_ci[0]), rel=0.5)
@@ -162,7 +164,7 @@ def test_fit_statistics_are_consistent():
     w, gp, gpp = _exact_rouse(25, eta=0.01)
     rng = np.random.default_rng(0)
     gp = gp * (1 + 0.01 * rng.standard_normal(len(w)))
-    f = bs.fit_chain(w, gp, gpp, "rouse")
+    f = fit_chain(w, gp, gpp, "rouse")
     n, k = f.n_data, f.n_params
     assert n == 80 and k == 4
     assert f.aic == pytest.approx(n * math.log(f.chi2 / n) + 2 * k)

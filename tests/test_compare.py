@@ -8,18 +8,18 @@ import numpy as np
 import pytest
 
 from synthetic import bsw_H, lognormal_H, lognormal_moduli, noisy_sweep, rouse_times
-from tauspec.analysis.comparison.compare import (
+from tauspec.analysis.comparison.compare import compare
+from tauspec.analysis.comparison.series import (
     characteristic_modulus,
     characteristic_time,
-    compare,
     fit_power_law,
-    fit_shift,
-    rouse_ratios,
     series_scaling,
-    spectrum_from_dict,
 )
+from tauspec.analysis.comparison.shape import rouse_ratios
+from tauspec.analysis.comparison.shift import fit_shift
 from tauspec.cli.main import main
 from tauspec.errors import SettingsError, TauspecError
+from tauspec.output.results import spectrum_from_dict
 from tauspec.spectrum.invert import invert
 from tauspec.spectrum.kernels import log_grid, modes_moduli, spectrum_moduli
 
@@ -165,7 +165,7 @@ def test_errors_are_one_line_settings_errors():
 def test_a_band_sets_the_weights():
     # A band (lo, hi) = H·e^(∓1.96 s) read as a 95 % interval gives σ of ln H equal to s where H ≫ ε (normal
     # quantile 1.96 for 95 %), plus the data noise in quadrature.
-    from tauspec.analysis.comparison.compare import sample_uncertainty
+    from tauspec.analysis.comparison.replicates import sample_uncertainty
 
     sp = invert(shifted_pair(9)[0])
     s = 0.05

@@ -12,16 +12,10 @@ from scipy.integrate import quad
 from synthetic import lognormal_H, lognormal_sweep, rouse_sweep, rouse_times
 from tauspec.data.write import dumps_json
 from tauspec.errors import SettingsError
-from tauspec.modes.derived import (
-    complex_viscosity,
-    creep_compliance,
-    derive,
-    relaxation_modulus,
-    retardation_spectrum,
-    shear_viscosity,
-    side_by_side,
-)
+from tauspec.modes.curves import complex_viscosity, creep_compliance, relaxation_modulus, shear_viscosity
+from tauspec.modes.derived import derive, side_by_side
 from tauspec.modes.fit import fit_modes
+from tauspec.modes.retardation import retardation_spectrum
 from tauspec.output.tables import curve_csv_text
 
 W6 = np.geomspace(1e-3, 1e3, 61)

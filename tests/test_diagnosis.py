@@ -17,11 +17,12 @@ from synthetic_sweeps import (
     zimm_sweep,
 )
 from tauspec import diagnose
-from tauspec.analysis.diagnosis.diagnose import VERDICTS, Evidence, decide
+from tauspec.analysis.diagnosis.evidence import Evidence
+from tauspec.analysis.diagnosis.verdict import VERDICTS, decide
 from tauspec.data.sweep import Sweep
 from tauspec.data.write import dumps_json
 from tauspec.errors import SettingsError
-from tauspec.models.beadspring import rouse_moduli
+from tauspec.models.chains import rouse_moduli
 
 # The continuous-spectrum tests are exercised in test_diagnosis_spectrum.py; here the fits, the data-level
 # signatures and the discrete modes decide, which keeps this file quick.

@@ -187,7 +187,7 @@ def test_debug_shows_the_traceback(tmp_path, capsys, command):
 
 
 def test_batch_bad_files_are_error_rows_exit_1(tmp_path, capsys):
-    from tauspec.batch.run import read_summary
+    from tauspec.batch.summary import read_summary
 
     work = tmp_path / "arch"
     work.mkdir()
@@ -336,7 +336,7 @@ def test_extreme_data_invert_and_diagnose(tmp_path, capsys, name):
 
 
 def test_extreme_narrow_window_through_batch(tmp_path):
-    from tauspec.batch.run import read_summary
+    from tauspec.batch.summary import read_summary
 
     work = tmp_path / "arch"
     work.mkdir()
@@ -394,14 +394,15 @@ def _failing_writer(real, k, err):
 @pytest.mark.parametrize("err", [errno.ENOSPC, errno.EACCES])
 @pytest.mark.parametrize("jobs", ["1", "2"])
 def test_write_failure_keeps_finished_results_and_a_rerun_completes(tmp_path, capsys, monkeypatch, err, jobs):
-    import tauspec.batch.run
+    import tauspec.batch.store
+    import tauspec.batch.summary
 
     work, settings_file = _archive(tmp_path)
     out = tmp_path / "out"
     argv = ["batch", str(work), "--out", str(out), "--quiet", "--jobs", jobs, "--settings", str(settings_file)]
-    real = tauspec.batch.run.atomic_write_bytes
+    real = tauspec.batch.store.atomic_write_bytes
     # 3 results, 2 files each
-    monkeypatch.setattr(tauspec.batch.run, "atomic_write_bytes", _failing_writer(real, 6, err))
+    monkeypatch.setattr(tauspec.batch.store, "atomic_write_bytes", _failing_writer(real, 6, err))
     assert main(argv) == 1
     stdout, stderr = capsys.readouterr()
     assert "Traceback" not in stderr
@@ -412,7 +413,7 @@ def test_write_failure_keeps_finished_results_and_a_rerun_completes(tmp_path, ca
     assert f"{len(first)} of 5 files finished and kept, {5 - len(first)} of 5 files not done" in lines[0]
     assert 0 < len(first) < 5
     assert not list(out.rglob("*.tmp"))
-    monkeypatch.setattr(tauspec.batch.run, "atomic_write_bytes", real)
+    monkeypatch.setattr(tauspec.batch.store, "atomic_write_bytes", real)
     assert main(argv) == 0
     capsys.readouterr()
     second = _finished(out)
@@ -442,18 +443,19 @@ def test_read_only_output_folder(tmp_path, capsys):
 
 
 def test_disk_full_at_the_summary_keeps_every_result(tmp_path, capsys, monkeypatch):
-    import tauspec.batch.run
+    import tauspec.batch.store
+    import tauspec.batch.summary
 
     work, settings_file = _archive(tmp_path, n=3)
     out = tmp_path / "out"
     argv = ["batch", str(work), "--out", str(out), "--quiet", "--settings", str(settings_file)]
-    real = tauspec.batch.run.atomic_write_text
-    monkeypatch.setattr(tauspec.batch.run, "atomic_write_text", _failing_writer(real, 0, errno.ENOSPC))
+    real = tauspec.batch.summary.atomic_write_text
+    monkeypatch.setattr(tauspec.batch.summary, "atomic_write_text", _failing_writer(real, 0, errno.ENOSPC))
     assert main(argv) == 1
     stderr = capsys.readouterr().err
     assert len(stderr.strip().splitlines()) == 1 and "summary not written" in stderr, stderr
     assert len(_finished(out)) == 3
-    monkeypatch.setattr(tauspec.batch.run, "atomic_write_text", real)
+    monkeypatch.setattr(tauspec.batch.summary, "atomic_write_text", real)
     assert main(argv) == 0
     assert json.loads((out / "run.json").read_text())["counts"]["skipped"] == 3
 

@@ -9,9 +9,11 @@ import pytest
 from synthetic import lognormal_H, lognormal_moduli, lognormal_sweep, noisy_sweep
 from tauspec.data.sweep import Sweep
 from tauspec.errors import SettingsError, WeakResultWarning
-from tauspec.spectrum.invert import build_problem, default_grid, invert, supported_window
+from tauspec.spectrum.invert import invert
+from tauspec.spectrum.problem import build_problem
 from tauspec.spectrum.regularize import TikhonovPath, objective, solve_cvxpy
 from tauspec.spectrum.rules import curvature, lcurve_corner
+from tauspec.spectrum.window import default_grid, supported_window
 
 
 def rel_error(spectrum, H_true):

@@ -10,7 +10,8 @@ import pytest
 from synthetic import lognormal_H, lognormal_sweep, noisy_sweep
 from tauspec.data.sweep import Sweep
 from tauspec.errors import SettingsError, WeakResultWarning
-from tauspec.modes.derived import creep_compliance, derive, relaxation_modulus
+from tauspec.modes.curves import creep_compliance, relaxation_modulus
+from tauspec.modes.derived import derive
 from tauspec.modes.fit import fit_modes
 from tauspec.output.tables import write_modes_csv
 from tauspec.spectrum.kernels import modes_moduli

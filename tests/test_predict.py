@@ -13,7 +13,7 @@ from tauspec.cli import predict
 from tauspec.data.read import read_sweep
 from tauspec.data.write import write_csv
 from tauspec.errors import SettingsError
-from tauspec.modes.derived import creep_compliance, relaxation_modulus
+from tauspec.modes.curves import creep_compliance, relaxation_modulus
 from tauspec.modes.fit import fit_modes
 from tauspec.spectrum.kernels import modes_moduli
 
@@ -111,7 +111,7 @@ def test_missing_file_and_several_files(sweep_file, tmp_path, capsys):
 
 def test_through_the_command_line(sweep_file, tmp_path, capsys, monkeypatch):
     # only this subcommand is registered here, so the test does not depend on the other command modules
-    from tauspec.cli import main as cli
+    import tauspec.cli.main as cli
 
     monkeypatch.setattr(cli, "SUBCOMMANDS", {"predict": cli.SUBCOMMANDS["predict"]})
     main = cli.main

@@ -14,7 +14,8 @@ import numpy as np
 import pytest
 
 from synthetic import bsw_H, lognormal_H
-from tauspec.analysis.superposition.master import MasterCurve, noise_level, superpose
+from tauspec.analysis.superposition.master import MasterCurve, superpose
+from tauspec.analysis.superposition.pairs import noise_level
 from tauspec.data.read import read_sweep
 from tauspec.data.sweep import Sweep
 from tauspec.errors import SettingsError, TauspecError, WeakResultWarning
@@ -404,7 +405,8 @@ def test_superpose_then_invert_recovers_the_spectrum_over_the_widened_window():
     # 1955), 2 % noise: the master curve spans ~8 decades, so the Davies–Anderssen window (Davies & Anderssen
     # 1997) is ~5 decades wider than one three-decade sweep's, and the inversion of the master curve must recover
     # H inside that window.
-    from tauspec.spectrum.invert import invert, supported_window
+    from tauspec.spectrum.invert import invert
+    from tauspec.spectrum.window import supported_window
 
     def H_true(tau):
         return lognormal_H(tau, G_t=6e5, tau_m=0.05, sigma=2.5) + lognormal_H(tau, G_t=1e5, tau_m=1e-4, sigma=1.5)

@@ -13,14 +13,10 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_H, lognormal_sweep, noisy_sweep
-from tauspec.analysis.uncertainty.bands import (
-    STATISTICS,
-    Statistic,
-    confidence_bands,
-    estimate_noise,
-    pointwise_interval,
-    resample_sweeps,
-)
+from tauspec.analysis.uncertainty.bands import confidence_bands, pointwise_interval
+from tauspec.analysis.uncertainty.noise import estimate_noise
+from tauspec.analysis.uncertainty.resample import resample_sweeps
+from tauspec.analysis.uncertainty.statistics import STATISTICS, Statistic
 from tauspec.data.write import dumps_json
 from tauspec.errors import SettingsError, TauspecError
 from tauspec.spectrum.invert import invert

@@ -43,7 +43,7 @@ def band_settings(args: argparse.Namespace) -> dict[str, Any]:
         raise SettingsError(f"--noise must be a relative size in (0, 0.2], not {args.noise}")
     statistics = None
     if args.band_statistics is not None:
-        from ..analysis.uncertainty.bands import STATISTICS
+        from ..analysis.uncertainty.statistics import STATISTICS
 
         statistics = [name.strip() for name in args.band_statistics.split(",") if name.strip()]
         unknown = sorted(set(statistics) - set(STATISTICS))

@@ -32,7 +32,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     """Run the batch; print the counts (and failed files), or JSON lines; exit 1 when any file failed."""
-    from ..batch.run import load_settings, read_summary, run_batch
+    from ..batch.run import run_batch
+    from ..batch.settings import load_settings
+    from ..batch.summary import read_summary
 
     settings = load_settings(args.settings, plots=args.plots)
     progress = not args.quiet and not args.json and sys.stderr.isatty()

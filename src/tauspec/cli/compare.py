@@ -22,6 +22,7 @@ from .common import each_file
 
 __all__ = ["add_arguments", "run", "load_result", "read_manifest"]
 
+
 MANIFEST_COLUMNS = ("file", "M", "c", "T", "label")
 
 
@@ -54,7 +55,7 @@ def load_result(path: str, settings: dict[str, Any]) -> tuple[Any, Any]:
     A result.json is either a spectrum (``tauspec invert --out``) or a batch result wrapping one (with its
     diagnosis, when the batch made one).
     """
-    from ..analysis.comparison.compare import diagnosis_from_dict, spectrum_from_dict
+    from ..output.results import diagnosis_from_dict, spectrum_from_dict
     from ..spectrum.invert import invert
 
     p = Path(path)
@@ -137,7 +138,9 @@ def _manifest_entry(manifest: dict[str, dict[str, Any]], path: str) -> dict[str,
 
 def run(args: argparse.Namespace) -> int:
     """Load every sample, compare them and print the result (one JSON object with --json)."""
-    from ..analysis.comparison.compare import LEVEL, N_REPLICATES, compare
+    from ..analysis.comparison.compare import compare
+    from ..analysis.comparison.replicates import N_REPLICATES
+    from ..analysis.comparison.shape import LEVEL
     from ..output.figures.overlay import save_overlay
 
     files = list(each_file(args.files))

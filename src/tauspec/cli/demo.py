@@ -24,7 +24,9 @@ def run(args: argparse.Namespace) -> int:
 
     Exit status 0 when the only failure is the archive's deliberately corrupted export.
     """
-    from ..batch.run import Settings, read_summary, run_batch, summary_table
+    from ..batch.run import run_batch
+    from ..batch.settings import Settings
+    from ..batch.summary import read_summary, summary_table
     from ..output.report import write_report
     from .demo_archive import CORRUPTED, write_demo_archive
 

@@ -25,10 +25,11 @@ from pathlib import Path
 import numpy as np
 
 from ..data.write import atomic_write_text
-from ..models.beadspring import mode_times
+from ..models.chains import mode_times
 from ..spectrum.kernels import log_grid, modes_moduli, spectrum_moduli
 
 __all__ = ["DemoSample", "demo_samples", "write_demo_archive", "GAS_CONSTANT", "CORRUPTED"]
+
 
 #: Molar gas constant R, J/(mol K) (CODATA 2018, exact).
 GAS_CONSTANT = 8.314462618

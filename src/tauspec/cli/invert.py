@@ -11,7 +11,8 @@ from ..data.write import atomic_write_text, dumps_json
 from ..errors import SettingsError
 from ..output.results import modes_entries
 from ..output.tables import spectrum_tables, write_modes_csv
-from ..spectrum.invert import Spectrum, invert
+from ..spectrum.invert import invert
+from ..spectrum.result import Spectrum
 from .bands import add_band_arguments, band_fields, band_settings
 from .common import add_output_arguments, output_dir_for, run_each_file
 

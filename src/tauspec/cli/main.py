@@ -23,6 +23,7 @@ from ..errors import TauspecError, TauspecWarning
 
 __all__ = ["main", "SUBCOMMANDS"]
 
+
 #: name -> (module under tauspec.cli, one-line help)
 SUBCOMMANDS: dict[str, tuple[str, str]] = {
     "invert": ("invert", "recover the continuous relaxation spectrum H(τ) from sweep files"),

@@ -106,7 +106,8 @@ def predict_file(path: str, args: argparse.Namespace) -> dict[str, Any]:
     """Predict one file's curve, write the CSV (and PNG); return the JSON object."""
     from ..data.read import read_sweep
     from ..data.write import atomic_write_text
-    from ..modes import derived as dv
+    from ..modes.curves import creep_compliance, relaxation_modulus, shear_viscosity
+    from ..modes.derived import derive, side_by_side
     from ..output.tables import curve_csv_text
 
     sweep = read_sweep(path)
@@ -115,10 +116,10 @@ def predict_file(path: str, args: argparse.Namespace) -> dict[str, Any]:
     w = sweep.omega
     if args.quantity == "viscosity":
         x = parse_points(args.rates, "rates") if args.rates else np.geomspace(w[0], w[-1], _POINTS)
-        curve = dv.shear_viscosity(source, x)
+        curve = shear_viscosity(source, x)
     else:
         x = parse_points(args.times, "times") if args.times else np.geomspace(1.0 / w[-1], 1.0 / w[0], _POINTS)
-        curve = (dv.relaxation_modulus if args.quantity == "relaxation" else dv.creep_compliance)(source, x)
+        curve = (relaxation_modulus if args.quantity == "relaxation" else creep_compliance)(source, x)
     csv, png = _output_paths(args, path)
     try:
         atomic_write_text(csv, curve_csv_text(curve))
@@ -126,7 +127,7 @@ def predict_file(path: str, args: argparse.Namespace) -> dict[str, Any]:
             _plot(curve, png, f"{sweep.name}: {curve.y_name}")
     except OSError as exc:
         raise TauspecError(f"cannot write the prediction ({exc.strerror or exc})", str(csv)) from None
-    derived = dv.derive(source)
+    derived = derive(source)
     return {
         "sample": sweep.name,
         "source": sweep.source,
@@ -135,7 +136,7 @@ def predict_file(path: str, args: argparse.Namespace) -> dict[str, Any]:
         "modes": modes.to_dict(),
         "derived": derived.to_dict(),
         "files": {"csv": str(csv), "png": str(png) if args.plot else None},
-        "_text": "\n".join([modes.report(), curve.report(), dv.side_by_side(derived),
+        "_text": "\n".join([modes.report(), curve.report(), side_by_side(derived),
                             f"wrote {csv}" + (f" and {png}" if args.plot else "")]),
     }
 

@@ -34,6 +34,7 @@ __all__ = [
     "decode_text",
 ]
 
+
 #: Files larger than this are refused before reading (a sweep is a few kB).
 MAX_FILE_BYTES = 32 * 1024 * 1024
 

@@ -15,6 +15,7 @@ from .units import parse_quantity, temperature_kelvin
 
 __all__ = ["Sweep", "MIN_POINTS", "OMEGA_RANGE", "MODULUS_RANGE"]
 
+
 #: Fewest usable points a sweep must have (common practice: an inversion with
 #: fewer points than a handful per decade is not meaningful).
 MIN_POINTS = 6

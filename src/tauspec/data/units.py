@@ -12,6 +12,7 @@ import re
 
 __all__ = ["KIND_UNITS", "normalize_unit", "to_si", "celsius_to_kelvin", "parse_quantity", "temperature_kelvin"]
 
+
 _TWO_PI = 2.0 * math.pi
 
 #: Multiplicative factors to SI, by kind of quantity and normalized unit text.

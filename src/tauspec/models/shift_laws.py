@@ -51,6 +51,7 @@ __all__ = [
     "compare_fits",
 ]
 
+
 #: Molar gas constant R in J/(mol K) (CODATA 2018, exact since the 2019 SI redefinition).
 GAS_CONSTANT = 8.314462618
 

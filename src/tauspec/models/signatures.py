@@ -33,6 +33,7 @@ __all__ = [
     "sparse_modes",
 ]
 
+
 #: Rouse intermediate-region coefficient: G'' − η_s ω → (π/(2√2)) G0 (ωτ_1)^(1/2) (Ferry 1980, ch. 9).
 ROUSE_G_COEFF = math.pi / (2 * math.sqrt(2))
 

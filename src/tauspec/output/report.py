@@ -31,6 +31,7 @@ from ..errors import TauspecError
 
 __all__ = ["write_report", "REPORT_NAME"]
 
+
 REPORT_NAME = "report.html"
 
 _CSS = """

@@ -35,6 +35,7 @@ from scipy.optimize import nnls
 
 __all__ = ["TikhonovPath", "PathSolution", "second_difference", "solve_cvxpy", "objective"]
 
+
 # Reciprocal condition number (of M_FF, estimated from its Cholesky factor)
 # below which the normal equations are not trusted and NNLS is used instead.
 _RCOND_MIN = 1e-11

@@ -6,7 +6,7 @@ import os
 
 import numpy as np
 
-from ...models import beadspring as bs
+from ...models.chains import chain_moduli
 
 __all__ = ["plot_diagnosis"]
 
@@ -32,7 +32,7 @@ def plot_diagnosis(diag, path: str | os.PathLike[str]) -> None:
     rouse = diag.fits["rouse"]
     zname = min(("zimm_theta", "zimm_good"), key=lambda m: diag.fits[m].bic)
     for fit, style, label in ((rouse, "-", "Rouse"), (diag.fits[zname], "--", zname.replace("_", " "))):
-        gp, gpp = bs.chain_moduli(wd, fit.G0, fit.tau1, fit.N, a=fit.a, form=fit.form, eta_s=fit.eta_s)
+        gp, gpp = chain_moduli(wd, fit.G0, fit.tau1, fit.N, a=fit.a, form=fit.form, eta_s=fit.eta_s)
         ax.loglog(wd, gp, style, color="C0", lw=1)
         ax.loglog(wd, gpp, style, color="C1", lw=1, label=f"{label} fit (rms {fit.rms:.3f})")
     ax.set_xlabel("ω (rad/s)")

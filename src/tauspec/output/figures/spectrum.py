@@ -15,6 +15,7 @@ import numpy as np
 __all__ = ["fit_figure", "plot_fit", "plot_residuals", "plot_spectrum", "plot_lcurve", "save_spectrum_figures",
            "new_axes"]
 
+
 #: Single journal column: 3.4 in wide.
 COLUMN_WIDTH = 3.4
 STYLE = {

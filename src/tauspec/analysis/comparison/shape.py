@@ -1,0 +1,192 @@
+"""One pair of samples compared: the shifts with intervals and the shape test against replicates of each sample."""
+
+from __future__ import annotations
+
+import dataclasses
+import itertools
+import math
+from collections.abc import Mapping
+from typing import Any
+
+import numpy as np
+from scipy import stats
+
+from .replicates import SampleUncertainty, _spread
+from .shift import fit_shift
+
+__all__ = ["LEVEL", "CI_LEVEL", "scaled_chi2", "PairComparison", "rouse_ratios"]
+
+
+#: Level of the shape test: `same_shape` is false when the p-value is below it.
+LEVEL = 0.05
+
+#: Confidence level of the reported intervals.
+CI_LEVEL = 0.95
+
+
+def _null_distances(unc: SampleUncertainty, min_overlap: float) -> np.ndarray:
+    """D² between every two replicates i, j of one sample, each pair fitted like a real pair.
+
+    The weights of pair (i, j) come from the spread of the *other* replicates, so that, as for a real pair,
+    the residuals are independent of the σ that scales them (with in-sample weights the mean of D² over all
+    pairs would be pinned at 1 by construction, while an out-of-sample σ² estimate inflates D² by
+    E[σ²/s²] > 1).
+    """
+    reps = unc.replicates
+    R = len(reps)
+    out = []
+    if R < 4 or unc.source == "band":
+        sigmas = {(i, j): unc.sigma for i, j in itertools.combinations(range(R), 2)}
+    else:
+        sigmas = {}
+        for i, j in itertools.combinations(range(R), 2):
+            rest = np.delete(reps, [i, j], axis=0)
+            sigmas[i, j] = np.sqrt(_spread(rest) + unc.noise**2)
+    for (i, j), sig in sigmas.items():
+        fit = fit_shift(unc.u, reps[i], sig, unc.u, reps[j], sig, min_overlap=min_overlap,
+                        floors=(unc.floor_level, unc.floor_level))
+        if fit is not None:
+            out.append(fit.distance2)
+    return np.array(out)
+
+
+def scaled_chi2(null: np.ndarray) -> tuple[float, float]:
+    """Return (g, h) of the scaled χ² g·χ²_h with the mean and variance of ``null``.
+
+    g = var/(2 mean), h = 2 mean²/var (Satterthwaite 1946; Box 1954).
+    """
+    mean = float(np.mean(null))
+    var = float(np.var(null, ddof=1))
+    if not (mean > 0 and var > 0):
+        return math.nan, math.nan
+    return var / (2 * mean), 2 * mean * mean / var
+
+
+# ----------------------------------------------------------------------------------------- results
+@dataclasses.dataclass(frozen=True, kw_only=True)
+class PairComparison:
+    """Two spectra compared: H_B(τ) ≈ b · H_A(τ/a) and the shape left after the shift.
+
+    ``time_shift`` is a, ``modulus_shift`` is b, each with a 95 % interval from the spread of the shifts
+    fitted between replicate pairs.  ``shape_distance`` is D² (the weighted mean square of the ln H residual
+    after the shift, in units of its noise variance); ``p_value`` is P(g χ²_h ≥ D²) under the null
+    distribution of D² between replicates of the same sample; ``same_shape`` is p ≥ ``level`` (``None`` when
+    there are no replicates).  ``shape_rms`` is the unweighted rms of the ln H residual (a typical factor
+    e^rms between the shifted spectra).
+    """
+
+    a: str
+    b: str
+    time_shift: float
+    time_shift_ci: tuple[float, float]
+    modulus_shift: float
+    modulus_shift_ci: tuple[float, float]
+    shape_distance: float
+    shape_rms: float
+    p_value: float
+    p_value_empirical: float
+    same_shape: bool | None
+    level: float
+    overlap: tuple[float, float]
+    n_points: int
+    null: Mapping[str, float]
+    rouse: Mapping[str, Any] | None = None
+    notes: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return the JSON form (keys are a public contract: add, never rename)."""
+        return {
+            "a": self.a,
+            "b": self.b,
+            "time_shift": self.time_shift,
+            "time_shift_ci": list(self.time_shift_ci),
+            "modulus_shift": self.modulus_shift,
+            "modulus_shift_ci": list(self.modulus_shift_ci),
+            "shape_distance": self.shape_distance,
+            "shape_rms": self.shape_rms,
+            "p_value": self.p_value,
+            "p_value_empirical": self.p_value_empirical,
+            "same_shape": self.same_shape,
+            "level": self.level,
+            "overlap": list(self.overlap),
+            "n_points": self.n_points,
+            "null": dict(self.null),
+            "rouse": None if self.rouse is None else dict(self.rouse),
+            "notes": list(self.notes),
+        }
+
+
+# ----------------------------------------------------------------------------------------- pairs
+def _interval(center: float, values: np.ndarray) -> tuple[float, float]:
+    """exp(center ± t·sd) from replicate estimates in logs (parametric bootstrap standard error)."""
+    v = values[np.isfinite(values)]
+    if len(v) < 2:
+        return (math.nan, math.nan)
+    half = float(stats.t.ppf(0.5 + CI_LEVEL / 2, len(v) - 1) * np.std(v, ddof=1))
+    return (math.exp(center - half), math.exp(center + half))
+
+
+def _compare_pair(name_a: str, name_b: str, ua: SampleUncertainty, ub: SampleUncertainty, null: np.ndarray,
+                  level: float, min_overlap: float) -> PairComparison:
+    floors = (ua.floor_level, ub.floor_level)
+    fit = fit_shift(ua.u, ua.ell, ua.sigma, ub.u, ub.ell, ub.sigma, min_overlap=min_overlap, floors=floors)
+    nan2 = (math.nan, math.nan)
+    if fit is None:
+        return PairComparison(a=name_a, b=name_b, time_shift=math.nan, time_shift_ci=nan2, modulus_shift=math.nan,
+                              modulus_shift_ci=nan2, shape_distance=math.nan, shape_rms=math.nan, p_value=math.nan,
+                              p_value_empirical=math.nan, same_shape=None, level=level, overlap=nan2, n_points=0,
+                              null={}, notes=(f"no shift leaves {min_overlap:.0%} of the narrower window "
+                                              "overlapping; not compared",))
+    R = min(len(ua.replicates), len(ub.replicates))
+    la, lb = [], []
+    for i in range(R):
+        f = fit_shift(ua.u, ua.replicates[i], ua.sigma, ub.u, ub.replicates[i], ub.sigma, min_overlap=min_overlap,
+                      floors=floors)
+        if f is not None:
+            la.append(f.log_a)
+            lb.append(f.log_b)
+    g, h = scaled_chi2(null) if len(null) >= 3 else (math.nan, math.nan)
+    notes = []
+    if math.isfinite(g):
+        p = float(stats.chi2.sf(fit.distance2 / g, h))
+        p_emp = float((1 + np.sum(null >= fit.distance2)) / (1 + len(null)))
+        same = bool(p >= level)
+    else:
+        p = p_emp = math.nan
+        same = None
+        notes.append("too few replicates for the shape test (need at least 3 replicate pairs)")
+    if fit.at_edge:
+        notes.append(f"the best shift lies at the edge of the admissible range (overlap down to {min_overlap:.0%} of "
+                     "the narrower window): either the shapes differ, or the samples are too far apart in τ for these "
+                     "windows; a and b are not reliable, and the shape test only covers the shifts allowed")
+    return PairComparison(
+        a=name_a, b=name_b,
+        time_shift=math.exp(fit.log_a), time_shift_ci=_interval(fit.log_a, np.array(la)),
+        modulus_shift=math.exp(fit.log_b), modulus_shift_ci=_interval(fit.log_b, np.array(lb)),
+        shape_distance=fit.distance2, shape_rms=fit.rms, p_value=p, p_value_empirical=p_emp, same_shape=same,
+        level=level, overlap=fit.overlap, n_points=fit.n,
+        null={"n": len(null), "mean": float(np.mean(null)) if len(null) else math.nan,
+              "var": float(np.var(null, ddof=1)) if len(null) > 1 else math.nan, "scale": g, "dof": h},
+        notes=tuple(notes),
+    )
+
+
+def rouse_ratios(da: Any, db: Any) -> dict[str, Any] | None:
+    """τ_R,B/τ_R,A and G0_B/G0_A with 95 % intervals when both diagnoses say ``rouse``.
+
+    Each diagnosis interval is read as a 95 % interval symmetric in logs; the standard errors of the logs add
+    in quadrature.
+    """
+    if da is None or db is None or getattr(da, "verdict", None) != "rouse" or getattr(db, "verdict", None) != "rouse":
+        return None
+    z = stats.norm.ppf(0.5 + CI_LEVEL / 2)
+    out: dict[str, Any] = {}
+    for key in ("tau_R", "G0"):
+        va, vb = float(getattr(da, key)), float(getattr(db, key))
+        se2 = sum(((math.log(ci[1]) - math.log(ci[0])) / (2 * z)) ** 2 if ci[0] > 0 and ci[1] > 0 else math.nan
+                  for ci in (getattr(da, f"{key}_ci"), getattr(db, f"{key}_ci")))
+        ratio = vb / va
+        half = z * math.sqrt(se2) if math.isfinite(se2) else math.nan
+        out[f"{key}_ratio"] = ratio
+        out[f"{key}_ratio_ci"] = [ratio * math.exp(-half), ratio * math.exp(half)]
+    return out

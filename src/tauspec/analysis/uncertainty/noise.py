@@ -1,0 +1,136 @@
+"""The relative noise of G' and G'' of a sweep, estimated from the residuals of its regularized fit."""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Sequence
+from typing import Any
+
+import numpy as np
+
+from ...data.sweep import Sweep
+from ...errors import SettingsError
+from ...spectrum.problem import build_problem
+from ...spectrum.result import Spectrum
+
+__all__ = ["MAX_NOISE", "Noise", "sweep_of", "estimate_noise"]
+
+
+#: Largest relative noise the resampling accepts: beyond it 1 + σε can turn negative.
+MAX_NOISE = 0.2
+
+
+# --------------------------------------------------------------------------- results
+@dataclasses.dataclass(frozen=True, kw_only=True)
+class Noise:
+    """The relative noise of G' and G'' used for resampling.
+
+    Attributes
+    ----------
+    storage, loss : float
+        Relative standard deviations σ', σ'' of G' and G''.
+    given : bool
+        True when the user gave them, False when estimated from the residuals.
+    dof : float
+        Effective number of fitted parameters (trace of the influence matrix);
+        NaN when the noise was given.
+    how : str
+        How the numbers were obtained, in words.
+    """
+
+    storage: float
+    loss: float
+    given: bool
+    dof: float
+    how: str
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return the JSON form."""
+        return {"storage": self.storage, "loss": self.loss, "given": self.given, "dof": self.dof, "how": self.how}
+
+
+# --------------------------------------------------------------------------- noise
+def sweep_of(spectrum: Spectrum, storage: np.ndarray | None = None, loss: np.ndarray | None = None) -> Sweep:
+    """Return the sweep a spectrum was computed from (or with other moduli on the same frequencies)."""
+    return Sweep(omega=spectrum.omega, storage=spectrum.storage if storage is None else storage,
+                 loss=spectrum.loss if loss is None else loss, name=spectrum.sample, meta=spectrum.meta,
+                 source=spectrum.source)
+
+
+def _influence(spectrum: Spectrum) -> np.ndarray:
+    """Influence matrix H_λ = A_F (A_FᵀA_F + λ² L_FᵀL_F)⁻¹ A_Fᵀ of the fit, on its free set F."""
+    s = spectrum.settings
+    eta_known = s.get("eta_s_known")
+    solvent = bool(s.get("solvent", True))
+    plateau = bool(s.get("plateau", False))
+    prob = build_problem(sweep_of(spectrum), spectrum.tau, solvent=solvent, plateau=plateau, eta_s=eta_known)
+    values = [spectrum.H]
+    if prob.solvent:
+        values.append([spectrum.eta_s])
+    if prob.plateau:
+        values.append([spectrum.G_e])
+    x = np.concatenate(values) / prob.scale
+    F = x > 1e-10 * max(float(np.max(x)), 1e-300)
+    A, L = prob.A[:, F], prob.L[:, F]
+    M = A.T @ A + spectrum.strength**2 * (L.T @ L)
+    try:
+        Z = np.linalg.solve(M, A.T)
+    except np.linalg.LinAlgError:
+        Z = np.linalg.lstsq(M, A.T, rcond=None)[0]
+    return A @ Z
+
+
+def estimate_noise(spectrum: Spectrum) -> Noise:
+    """Estimate the relative noise σ', σ'' of G' and G'' from the fit residuals.
+
+    With relative residuals r = G_fit/G − 1 ≈ −R ε, R = I − H_λ (H_λ the
+    influence matrix of the regularized fit on its free set), the expected
+    squared residuals of the G' rows and of the G'' rows are
+
+        E‖r'‖²  = σ'² Σ_{i∈',j∈'} R_ij² + σ''² Σ_{i∈',j∈''} R_ij²
+        E‖r''‖² = σ'² Σ_{i∈'',j∈'} R_ij² + σ''² Σ_{i∈'',j∈''} R_ij²
+
+    solved for σ'², σ''².  When the solution is not positive (the cross
+    terms are large), each block is corrected by its own share of the
+    trace instead: σ_B² = ‖r_B‖² / (m_B − tr_B H_λ).
+
+    References
+    ----------
+    Hastie, T. & Tibshirani, R. (1990). *Generalized Additive Models*, §3.4
+    (residual variance of a linear smoother); Wahba (1983), J. R. Stat. Soc.
+    B 45:133.
+    """
+    n = len(spectrum.omega)
+    Hm = _influence(spectrum)
+    R = np.eye(2 * n) - Hm
+    W = R * R
+    C = np.array([[W[:n, :n].sum(), W[:n, n:].sum()], [W[n:, :n].sum(), W[n:, n:].sum()]])
+    rp = spectrum.storage_fit / spectrum.storage - 1.0
+    rpp = spectrum.loss_fit / spectrum.loss - 1.0
+    ss = np.array([rp @ rp, rpp @ rpp])
+    dof = float(np.trace(Hm))
+    try:
+        s2 = np.linalg.solve(C, ss)
+    except np.linalg.LinAlgError:
+        s2 = np.array([-1.0, -1.0])
+    how = "estimated from the relative residuals, corrected by the influence matrix of the fit"
+    if not np.all(s2 > 0):
+        d = np.diag(Hm)
+        free = np.array([n - d[:n].sum(), n - d[n:].sum()])
+        if np.any(free <= 0.5):
+            raise SettingsError("too few frequencies to estimate the noise from the residuals; give the noise",
+                                spectrum.source or spectrum.sample)
+        s2 = ss / free
+        how = "estimated from the relative residuals, each modulus corrected by its share of the fitted parameters"
+    return Noise(storage=float(np.sqrt(s2[0])), loss=float(np.sqrt(s2[1])), given=False, dof=dof,
+                 how=f"{how} ({dof:.1f} effective parameters, {2 * n} data)")
+
+
+def _given_noise(noise: float | Sequence[float]) -> Noise:
+    vals = np.atleast_1d(np.asarray(noise, dtype=float)).ravel()
+    if vals.size == 1:
+        vals = np.repeat(vals, 2)
+    if vals.size != 2 or not np.all(np.isfinite(vals)) or np.any(vals <= 0):
+        raise SettingsError(f"noise must be a positive relative size (or one for G' and one for G''), not {noise!r}")
+    return Noise(storage=float(vals[0]), loss=float(vals[1]), given=True, dof=math.nan, how="given")

@@ -1,0 +1,103 @@
+"""Finding the input files of a batch: folders searched for sweep files, files named directly, a manifest."""
+
+from __future__ import annotations
+
+import csv
+import dataclasses
+import io
+import os
+from collections import Counter
+from collections.abc import Iterator, Sequence
+from pathlib import Path
+
+from ..errors import TauspecError
+
+__all__ = ["SWEEP_SUFFIXES", "Input", "find_inputs"]
+
+
+#: Suffixes (case-insensitive) of the files a folder is searched for.
+SWEEP_SUFFIXES = (".csv", ".tsv", ".txt", ".dat")
+
+
+# --------------------------------------------------------------------------- inputs
+
+
+@dataclasses.dataclass(frozen=True)
+class Input:
+    """One input file: where to read it, its name in the summary and its result folder under ``--out``."""
+
+    path: Path
+    file: str
+    key: str
+
+
+def _walk(folder: Path, exclude: Path) -> Iterator[Path]:
+    for root, dirs, files in os.walk(folder):
+        r = Path(root)
+        dirs[:] = sorted(d for d in dirs if not d.startswith(".") and (r / d) != exclude)
+        for f in sorted(files):
+            if not f.startswith(".") and os.path.splitext(f)[1].lower() in SWEEP_SUFFIXES:
+                yield r / f
+
+
+def _read_manifest(path: Path) -> list[Path]:
+    source = str(path)
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except OSError as exc:
+        raise TauspecError(f"manifest cannot be read ({exc.strerror or exc})", source) from None
+    except UnicodeDecodeError:
+        raise TauspecError("manifest is not UTF-8 text", source) from None
+    reader = csv.DictReader(io.StringIO(text))
+    if not reader.fieldnames or "file" not in [f.strip() for f in reader.fieldnames]:
+        raise TauspecError("manifest needs a header row with a 'file' column", source, 1)
+    out = []
+    for row in reader:
+        row = {(k or "").strip(): (v or "").strip() for k, v in row.items()}
+        if row["file"]:
+            f = Path(row["file"])
+            out.append(f if f.is_absolute() else path.parent / f)
+    return out
+
+
+def find_inputs(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[str],
+                manifest: str | os.PathLike[str] | None = None) -> list[Input]:
+    """Return the input files, sorted by their path relative to the common folder of ``paths`` (and the manifest).
+
+    Folders are searched recursively for files ending in :data:`SWEEP_SUFFIXES`
+    (hidden files and folders, and the output folder, are left out); files
+    named explicitly or in the ``file`` column of ``manifest`` are taken
+    whatever their suffix.  A file's result folder is its relative path
+    without the suffix, or with it when two inputs would share a folder.
+    """
+    out_abs = Path(os.path.abspath(out))
+    found: list[Path] = []
+    bases: list[str] = []
+    for p in paths:
+        a = Path(os.path.abspath(p))
+        if a.is_dir():
+            bases.append(str(a))
+            found.extend(_walk(a, out_abs))
+        elif a.exists():
+            bases.append(str(a.parent))
+            found.append(a)
+        else:
+            raise TauspecError("no such file or folder", str(p))
+    if manifest is not None:
+        bases.append(os.path.abspath(Path(manifest).parent))  # its entries are named relative to its folder
+        for f in _read_manifest(Path(manifest)):
+            a = Path(os.path.abspath(f))
+            bases.append(str(a.parent))
+            found.append(a)
+    if not bases:
+        raise TauspecError("no input given")
+    root = os.path.commonpath(bases)
+    by_file = {Path(os.path.relpath(f, root)).as_posix(): f for f in found}
+    if not by_file:
+        raise TauspecError(f"no sweep files ({' '.join(SWEEP_SUFFIXES)}) found", ", ".join(map(str, paths)))
+    stems = Counter(os.path.splitext(f)[0] for f in by_file)
+    inputs = []
+    for file in sorted(by_file):
+        stem = os.path.splitext(file)[0]
+        inputs.append(Input(by_file[file], file, stem if stems[stem] == 1 else file))
+    return inputs

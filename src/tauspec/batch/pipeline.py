@@ -1,0 +1,156 @@
+"""The pipeline step sent to the workers: one sweep file's text in, its JSON result and tables out."""
+
+from __future__ import annotations
+
+import functools
+import os
+import tempfile
+import time
+import warnings
+from collections.abc import Callable, Mapping
+from pathlib import Path
+from typing import Any
+
+from ..data.read import parse_sweep_text
+from ..data.sweep import Sweep
+from ..data.write import dumps_json
+from ..errors import TauspecError
+from .settings import Settings
+from .store import _header, _sha256
+
+__all__ = ["process"]
+
+
+# --------------------------------------------------------------------------- the pipeline step
+
+
+@functools.lru_cache(maxsize=1)
+def _blas_controller(pid: int) -> Any:  # noqa: ARG001 - one per process (a forked worker gets its own)
+    from threadpoolctl import ThreadpoolController
+
+    return ThreadpoolController()
+
+
+def _invert_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tuple[dict[str, Any], dict[str, str]]:
+    from ..output.tables import spectrum_tables
+    from ..spectrum.invert import invert
+
+    spectrum = invert(sweep, **settings.invert.kwargs())
+    state["spectrum"] = spectrum
+    return {"spectrum": spectrum.to_dict()}, spectrum_tables(spectrum)
+
+
+def _modes_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tuple[dict[str, Any], dict[str, str]]:
+    from ..modes.fit import fit_modes
+    from ..output.results import modes_entries
+    from ..output.tables import modes_csv_text
+
+    o = settings.invert
+    modes = fit_modes(sweep, state["spectrum"], solvent=o.solvent, plateau=o.plateau, eta_s=o.eta_s,
+                      **settings.modes.kwargs())
+    return modes_entries(modes, state["spectrum"]), {"modes.csv": modes_csv_text(modes)}
+
+
+def _diagnose_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tuple[dict[str, Any], dict[str, str]]:
+    from ..analysis.diagnosis.diagnose import diagnose
+
+    d = diagnose(sweep, spectrum=state["spectrum"], solvent=settings.invert.solvent, **settings.diagnose.kwargs())
+    state["diagnosis"] = d
+    return {"diagnosis": d.to_dict()}, {}
+
+
+#: (name, step) in order; each step takes the sweep, the settings and the state of earlier steps and returns
+#: (result entries, {file name: CSV text}).
+_PIPELINE: tuple[tuple[str, Callable[..., tuple[dict[str, Any], dict[str, str]]]], ...] = (
+    ("invert", _invert_step),
+    ("modes", _modes_step),
+    ("diagnose", _diagnose_step),
+)
+
+
+def _figures(state: Mapping[str, Any]) -> dict[str, bytes]:
+    """PNG bytes of the spectrum's figures (and the diagnosis's), drawn into a scratch folder of the worker."""
+    from ..output.figures.spectrum import save_spectrum_figures
+
+    with tempfile.TemporaryDirectory(prefix="tauspec-fig-") as tmp:
+        paths = save_spectrum_figures(state["spectrum"], tmp)
+        if "diagnosis" in state:
+            from ..output.figures.diagnosis import plot_diagnosis
+
+            plot_diagnosis(state["diagnosis"], Path(tmp) / "diagnosis.png")
+            paths.append(Path(tmp) / "diagnosis.png")
+        return {p.name: p.read_bytes() for p in paths}
+
+
+def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | None = None,
+            input_sha256: str | None = None) -> dict[str, Any]:
+    """Run the pipeline on one sweep: read, invert (then modes and diagnosis as they become available).
+
+    The one function sent to the workers: top level, picklable, no global
+    state.  BLAS (numpy's and scipy's OpenBLAS alike) is limited to one thread
+    while it runs.  Errors in the data do not raise: they come back as
+    ``status="error"`` with the one-line reason.
+
+    Parameters
+    ----------
+    sweep_or_text : Sweep or str
+        A sweep, or the text of a sweep file (see :func:`tauspec.io.parse_sweep_text`).
+    settings : Settings
+    source : str, optional
+        The name of the file, used in messages and results.
+    input_sha256 : str, optional
+        The sha256 of the file's bytes, recorded in the result (the resume key).
+
+    Returns
+    -------
+    dict
+        ``result`` (JSON-ready; identical for identical input and settings),
+        ``files`` (name → text or bytes to write into the result folder, ``result.json``
+        among them, serialized here so that the workers do that work) and ``seconds``
+        (time per step; kept out of ``result``).
+    """
+    if isinstance(sweep_or_text, Sweep):
+        source = source or sweep_or_text.source or sweep_or_text.name
+    source = source or "<text>"
+    result = _header(source, input_sha256, settings)
+    files: dict[str, str | bytes] = {}
+    seconds: dict[str, float] = {}
+    caught: list[warnings.WarningMessage] = []
+    t = time.perf_counter()
+    try:
+        with _blas_controller(os.getpid()).limit(limits=1), warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            if isinstance(sweep_or_text, Sweep):
+                sweep = sweep_or_text
+            else:
+                sweep = parse_sweep_text(sweep_or_text, source=source,
+                                         default_name=os.path.splitext(os.path.basename(source))[0])
+            result["sample"] = sweep.name
+            seconds["read"] = time.perf_counter() - t
+            state: dict[str, Any] = {}
+            for name, step in _PIPELINE:
+                if name not in settings.steps:
+                    continue
+                t = time.perf_counter()
+                entries, tables = step(sweep, settings, state)
+                result.update(entries)
+                files.update(tables)
+                seconds[name] = time.perf_counter() - t
+            if settings.plots:
+                t = time.perf_counter()
+                files.update(_figures(state))
+                seconds["plots"] = time.perf_counter() - t
+    except TauspecError as exc:
+        if exc.source is None:
+            exc = type(exc)(exc.reason, source, exc.line)
+        result.update(status="error", error=exc.one_line())
+    except Exception as exc:  # a bug: recorded for this file, retried on the next run
+        result.update(status="error", error=f"{source}: internal error: {type(exc).__name__}: {exc}", retry=True)
+    notes = list(dict.fromkeys(f"{w.category.__name__}: {w.message}" for w in caught))
+    result["notes"] = notes
+    t = time.perf_counter()
+    result["tables"] = {name: _sha256(text.encode("utf-8")) for name, text in sorted(files.items())
+                        if name.endswith(".csv")}
+    files["result.json"] = dumps_json(result) + "\n"
+    seconds["json"] = time.perf_counter() - t
+    return {"result": result, "files": files, "seconds": seconds}

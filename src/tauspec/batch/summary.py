@@ -1,0 +1,105 @@
+"""summary.csv: one row per input file, rebuilt from the stored results, and its text table."""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import os
+from collections.abc import Iterable, Mapping, Sequence
+from pathlib import Path
+from typing import Any
+
+from ..data.write import atomic_write_text
+from .inputs import Input
+from .store import _load_json
+
+__all__ = ["SUMMARY_COLUMNS", "summary_row", "write_summary", "read_summary", "summary_table"]
+
+
+#: Columns of ``summary.csv``, in order.
+SUMMARY_COLUMNS = ("file", "status", "sample", "verdict", "tau_R", "G0", "alpha", "eta0", "lambda", "eta_s",
+                   "residual_rms", "n_modes", "warnings", "error")
+
+
+# --------------------------------------------------------------------------- the summary
+
+
+def _num(v: Any) -> str:
+    if isinstance(v, bool) or v is None:
+        return ""
+    if isinstance(v, int | float):
+        return repr(float(v)) if math.isfinite(v) else ""
+    return str(v)
+
+
+def summary_row(result: Mapping[str, Any] | None, file: str) -> dict[str, str]:
+    """One row of ``summary.csv`` from a stored result (blank where a step is not available)."""
+    if result is None:
+        return {**dict.fromkeys(SUMMARY_COLUMNS, ""), "file": file, "status": "error",
+                "error": f"{file}: no result stored (run the batch again)"}
+    spectrum = result.get("spectrum") or {}
+    diagnosis = result.get("diagnosis") or {}
+    derived = result.get("derived") or {}
+    modes = result.get("modes") or {}
+    warn = list(result.get("notes") or [])  # every warning of every step (the spectrum's are among them)
+    row = {
+        "file": file,
+        "status": str(result.get("status", "error")),
+        "sample": str(result.get("sample") or ""),
+        "verdict": str(diagnosis.get("verdict") or ""),
+        "tau_R": _num(diagnosis.get("tau_R")),
+        "G0": _num(diagnosis.get("G0")),
+        "alpha": _num(diagnosis.get("alpha")),
+        "eta0": _num(derived.get("eta0")),
+        "lambda": _num(spectrum.get("lambda")),
+        "eta_s": _num(spectrum.get("eta_s")),
+        "residual_rms": _num(spectrum.get("residual_rms")),
+        "n_modes": str(len(modes["g"])) if "g" in modes else "",
+        "warnings": str(len(warn)) if result.get("status") == "ok" else "",
+        "error": str(result.get("error") or ""),
+    }
+    return row
+
+
+def write_summary(out: str | os.PathLike[str], inputs: Iterable[Input]) -> Path:
+    """Rebuild ``summary.csv`` from the stored results, one row per input, in the order given (sorted).
+
+    Results are read one at a time; only the rows are kept.
+    """
+    out = Path(out)
+    buf = io.StringIO()
+    writer = csv.DictWriter(buf, fieldnames=SUMMARY_COLUMNS, lineterminator="\n")
+    writer.writeheader()
+    for inp in inputs:
+        writer.writerow(summary_row(_load_json(out / inp.key / "result.json"), inp.file))
+    path = out / "summary.csv"
+    atomic_write_text(path, buf.getvalue())
+    return path
+
+
+def read_summary(out: str | os.PathLike[str]) -> list[dict[str, str]]:
+    """Read ``summary.csv`` back as a list of rows."""
+    with open(Path(out) / "summary.csv", encoding="utf-8", newline="") as fh:
+        return list(csv.DictReader(fh))
+
+
+def _g(text: str, fmt: str = ".3g") -> str:
+    return format(float(text), fmt) if text else "–"
+
+
+def summary_table(rows: Sequence[Mapping[str, str]]) -> str:
+    """Return the summary rows as a plain-text table (errors with their reason)."""
+    width = max([len(r["file"]) for r in rows] + [4])
+    head = (f"{'file':{width}s}  {'status':6s}  {'verdict':12s}  {'tau_R [s]':>9s}  {'G0 [Pa]':>9s}  "
+            f"{'alpha':>6s}  {'eta0 [Pa·s]':>11s}  {'λ':>8s}  {'rms':>6s}")
+    lines = [head, "-" * len(head)]
+    for r in rows:
+        if r["status"] != "ok":
+            lines.append(f"{r['file']:{width}s}  {r['status']:6s}  {r['error']}")
+            continue
+        rms = f"{float(r['residual_rms']):.2%}" if r["residual_rms"] else "–"
+        lines.append(f"{r['file']:{width}s}  {r['status']:6s}  {r['verdict'] or '–':12s}  {_g(r['tau_R']):>9s}  "
+                     f"{_g(r['G0']):>9s}  {_g(r['alpha'], '.3f'):>6s}  {_g(r['eta0']):>11s}  "
+                     f"{_g(r['lambda']):>8s}  {rms:>6s}")
+    return "\n".join(lines)

@@ -1,0 +1,146 @@
+"""Curves predicted from a spectrum or modes: G(t), J(t), |η*|(ω) and the steady-shear viscosity (Cox–Merz)."""
+
+from __future__ import annotations
+
+import dataclasses
+from typing import Any
+
+import numpy as np
+
+from ..errors import SettingsError
+from ..spectrum.kernels import modes_moduli
+from .basis import FLAG_SHARE, _as_set, _Set, _share
+from .retardation import retardation_spectrum
+
+__all__ = ["Curve", "relaxation_modulus", "creep_compliance", "complex_viscosity", "shear_viscosity"]
+
+
+# --------------------------------------------------------------------------- curves
+
+
+@dataclasses.dataclass(frozen=True, kw_only=True, eq=False)
+class Curve:
+    """A predicted material function on a set of abscissae, with per-point out-of-window shares."""
+
+    quantity: str
+    x: np.ndarray
+    y: np.ndarray
+    x_name: str
+    x_unit: str
+    y_name: str
+    y_unit: str
+    outside_share: np.ndarray
+    basis: str
+    method: str
+    window: tuple[float, float] | None
+
+    def __post_init__(self) -> None:
+        for name in ("x", "y", "outside_share"):
+            arr = np.array(getattr(self, name), dtype=float, copy=True)
+            arr.setflags(write=False)
+            object.__setattr__(self, name, arr)
+
+    @property
+    def flags(self) -> np.ndarray:
+        """True where more than 5 % of the value comes from outside the supported window."""
+        return self.outside_share > FLAG_SHARE
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return the JSON form."""
+        return {
+            "quantity": self.quantity,
+            "x_name": self.x_name,
+            "x_unit": self.x_unit,
+            "y_name": self.y_name,
+            "y_unit": self.y_unit,
+            "x": self.x.tolist(),
+            "y": self.y.tolist(),
+            "outside_share": self.outside_share.tolist(),
+            "flags": self.flags.tolist(),
+            "basis": self.basis,
+            "method": self.method,
+            "window": None if self.window is None else list(self.window),
+        }
+
+    def report(self) -> str:
+        """Return a short description in words, including where the curve leans on the unsupported spectrum."""
+        n = int(self.flags.sum())
+        lines = [f"{self.y_name} from {self.basis}: {self.x.size} points, {self.x_name} "
+                 f"{self.x.min():.4g} to {self.x.max():.4g} {self.x_unit}; {self.method}"]
+        if n:
+            xs = self.x[self.flags]
+            lines.append(f"{n} of {self.x.size} points ({self.x_name} {xs.min():.4g} to {xs.max():.4g} "
+                         f"{self.x_unit}) take more than 5 % of their value from relaxation times outside the "
+                         f"supported window; there the curve is an extrapolation")
+        else:
+            lines.append("every point takes at least 95 % of its value from the supported window")
+        return "\n".join(lines)
+
+
+def _positive(values: Any, what: str) -> np.ndarray:
+    arr = np.atleast_1d(np.asarray(values, dtype=float))
+    if arr.ndim != 1 or arr.size == 0 or not np.all(np.isfinite(arr)) or np.any(arr <= 0):
+        raise SettingsError(f"{what} must be positive finite numbers")
+    return arr
+
+
+def _G_of_t(s: _Set, t: np.ndarray) -> np.ndarray:
+    return s.G_e + np.exp(-np.outer(t, 1.0 / s.tau)) @ s.g if s.tau.size else np.full(t.shape, s.G_e)
+
+
+def _J_of_t(s: _Set, t: np.ndarray) -> np.ndarray:
+    try:
+        return retardation_spectrum(s.g, s.tau, eta_s=s.eta_s, G_e=s.G_e).compliance(t)
+    except SettingsError:
+        return np.full(t.shape, np.nan)
+
+
+def _eta_star(s: _Set, w: np.ndarray) -> np.ndarray:
+    gp, gpp = modes_moduli(w, s.g, s.tau, eta_s=s.eta_s, G_e=s.G_e)
+    return np.hypot(gp, gpp) / w
+
+
+def _curve(obj: Any, x: Any, what: str, fn: Any, **labels: str) -> Curve:
+    s = _as_set(obj)
+    xs = _positive(x, what)
+    y = fn(s, xs)
+    share = _share(y, fn(s.inside_part(), xs)) if s.window is not None else np.zeros_like(y)
+    return Curve(x=xs, y=y, outside_share=np.atleast_1d(share), basis=s.kind, window=s.window, **labels)
+
+
+def relaxation_modulus(obj: Any, t: Any) -> Curve:
+    """Return the relaxation modulus G(t) = G_e + Σ g e^(−t/τ) in Pa (Ferry 1980, ch. 3).
+
+    A solvent viscosity adds η_s δ(t), which is zero at every t > 0 and is not shown.
+    """
+    return _curve(obj, t, "times", _G_of_t, quantity="relaxation", x_name="t", x_unit="s", y_name="G(t)",
+                  y_unit="Pa", method="G(t) = G_e + sum g exp(-t/tau) (Ferry 1980, ch. 3)")
+
+
+def creep_compliance(obj: Any, t: Any) -> Curve:
+    """Return the creep compliance J(t) in 1/Pa from the exact retardation spectrum of the set.
+
+    See :func:`retardation_spectrum`; for a spectrum the grid (trapezoid
+    weights) is treated as a discrete mode set.
+    """
+    return _curve(obj, t, "times", _J_of_t, quantity="creep", x_name="t", x_unit="s", y_name="J(t)",
+                  y_unit="1/Pa", method="exact interconversion via the retardation spectrum: zeros of the "
+                  "operator modulus Q(s) = s G(s) (Tschoegl 1989)")
+
+
+def complex_viscosity(obj: Any, omega: Any) -> Curve:
+    """Return |η*|(ω) = √(G'² + G''²)/ω in Pa·s (Ferry 1980, ch. 1)."""
+    return _curve(obj, omega, "angular frequencies", _eta_star, quantity="complex_viscosity", x_name="omega",
+                  x_unit="rad/s", y_name="|eta*|", y_unit="Pa s", method="|eta*| = |G*|/omega")
+
+
+def shear_viscosity(obj: Any, rates: Any) -> Curve:
+    """Return the steady-shear viscosity estimate η(γ̇) ≈ |η*|(ω = γ̇) by the Cox–Merz rule.
+
+    The Cox–Merz rule is empirical (Cox & Merz 1958, J. Polym. Sci. 28, 619): common practice, no
+    theory behind it; it fails for many structured fluids and gels.
+    """
+    return _curve(obj, rates, "shear rates", _eta_star, quantity="viscosity", x_name="shear_rate", x_unit="1/s",
+                  y_name="eta_cox_merz", y_unit="Pa s",
+                  method="Cox-Merz rule eta(rate) = |eta*|(omega = rate), empirical (Cox & Merz 1958), "
+                  "common practice")

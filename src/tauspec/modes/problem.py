@@ -1,0 +1,125 @@
+"""The nonlinear least-squares problem of discrete Maxwell modes: parameters, residuals, Jacobian, bounds."""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+
+from ..spectrum.kernels import loss_kernel, modes_moduli, storage_kernel
+
+__all__ = []
+
+
+#: A fitted mode whose largest contribution to G' or G'' is below this share of
+#: the data is dropped and the fit repeated.
+_NEGLIGIBLE = 1e-4
+
+#: Relaxation times are kept within this factor beyond the measured 1/ω range ...
+_TAU_MARGIN = 100.0
+#: ... or within this factor on the side where a solvent viscosity (or a plateau) is fitted, since
+#: a mode beyond it cannot be told apart from η_s (or G_e).
+_NEAR = 10.0
+
+
+# --------------------------------------------------------------------------- the fit
+
+
+@dataclasses.dataclass(frozen=True)
+class _Problem:
+    omega: np.ndarray
+    storage: np.ndarray
+    loss: np.ndarray
+    solvent: bool
+    plateau: bool
+    eta_ref: float
+    G_ref: float
+    ln_tau_bounds: tuple[float, float]
+    ln_g_bounds: tuple[float, float]
+    eta_known: float = 0.0
+
+    @property
+    def n_data(self) -> int:
+        return 2 * self.omega.size
+
+    def n_extra(self) -> int:
+        return int(self.solvent) + int(self.plateau)
+
+    def unpack(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray, float, float]:
+        m = (x.size - self.n_extra()) // 2
+        g = np.exp(x[:m])
+        tau = np.exp(x[m:2 * m])
+        k = 2 * m
+        eta_s = G_e = 0.0
+        if self.solvent:
+            eta_s = x[k] * self.eta_ref
+            k += 1
+        if self.plateau:
+            G_e = x[k] * self.G_ref
+        return g, tau, eta_s, G_e
+
+    def residuals(self, x: np.ndarray) -> np.ndarray:
+        g, tau, eta_s, G_e = self.unpack(x)
+        gp, gpp = modes_moduli(self.omega, g, tau, eta_s=eta_s + self.eta_known, G_e=G_e)
+        return np.concatenate([gp / self.storage - 1.0, gpp / self.loss - 1.0])
+
+    def target(self) -> np.ndarray:
+        """Right-hand side of the linear starts: 1, less the known solvent's share of G''."""
+        b = np.ones(self.n_data)
+        b[self.omega.size:] -= self.eta_known * self.omega / self.loss
+        return b
+
+    def jacobian(self, x: np.ndarray) -> np.ndarray:
+        g, tau, _, _ = self.unpack(x)
+        m = g.size
+        xt = np.outer(self.omega, tau)
+        kp = storage_kernel(xt)
+        kpp = loss_kernel(xt)
+        J = np.zeros((self.n_data, x.size))
+        n = self.omega.size
+        sp = 1.0 / self.storage[:, None]
+        sl = 1.0 / self.loss[:, None]
+        J[:n, :m] = kp * g * sp
+        J[n:, :m] = kpp * g * sl
+        # d/d ln τ of x²/(1+x²) is 2K'(1−K'); of x/(1+x²) is K''(1−2K').
+        J[:n, m:2 * m] = 2.0 * kp * (1.0 - kp) * g * sp
+        J[n:, m:2 * m] = kpp * (1.0 - 2.0 * kp) * g * sl
+        k = 2 * m
+        if self.solvent:
+            J[n:, k] = self.eta_ref * self.omega / self.loss
+            k += 1
+        if self.plateau:
+            J[:n, k] = self.G_ref / self.storage
+        return J
+
+    def pack(self, g: np.ndarray, tau: np.ndarray, eta_s: float, G_e: float) -> np.ndarray:
+        lo, hi = self.ln_tau_bounds
+        glo, ghi = self.ln_g_bounds
+        parts = [np.clip(np.log(np.maximum(g, 1e-300)), glo + 1e-9, ghi - 1e-9),
+                 np.clip(np.log(tau), lo + 1e-9, hi - 1e-9)]
+        if self.solvent:
+            parts.append([max(eta_s, 0.0) / self.eta_ref])
+        if self.plateau:
+            parts.append([max(G_e, 0.0) / self.G_ref])
+        return np.concatenate([np.asarray(p, dtype=float) for p in parts])
+
+    def bounds(self, m: int) -> tuple[np.ndarray, np.ndarray]:
+        lo, hi = self.ln_tau_bounds
+        glo, ghi = self.ln_g_bounds
+        lower = np.concatenate([np.full(m, glo), np.full(m, lo), np.zeros(self.n_extra())])
+        upper = np.concatenate([np.full(m, ghi), np.full(m, hi), np.full(self.n_extra(), np.inf)])
+        return lower, upper
+
+
+@dataclasses.dataclass(frozen=True)
+class _Fit:
+    g: np.ndarray
+    tau: np.ndarray
+    eta_s: float
+    G_e: float
+    rss: float
+    x: np.ndarray
+
+    @property
+    def n_modes(self) -> int:
+        return int(self.g.size)

@@ -1,0 +1,102 @@
+"""The dimensionless Tikhonov problem of one sweep and its initial path of strengths."""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+
+from ..data.sweep import Sweep
+from .kernels import spectrum_matrix
+from .regularize import second_difference
+
+__all__ = ["N_STRENGTHS", "Problem", "build_problem", "strength_path"]
+
+
+#: Default number of strengths on the path.
+N_STRENGTHS = 50
+
+#: The path spans this many decades of λ² around its problem-derived centre.
+_PATH_DECADES = (-9.0, 3.0)
+
+
+@dataclasses.dataclass(frozen=True)
+class Problem:
+    """The dimensionless least-squares problem for one sweep (see :func:`build_problem`).
+
+    Unknowns x = [h_1..h_n, (η_s/s_η), (G_e/s_G)], with h = H/s_H.
+    """
+
+    A: np.ndarray
+    b: np.ndarray
+    L: np.ndarray
+    tau: np.ndarray
+    scale: np.ndarray  # multiply x by this to get SI values (H in Pa, η_s in Pa·s, G_e in Pa)
+    solvent: bool
+    plateau: bool
+    loss_offset: np.ndarray  # known η_s·ω subtracted from G''
+
+    @property
+    def n_grid(self) -> int:
+        """Number of τ grid points."""
+        return len(self.tau)
+
+
+def build_problem(
+    sweep: Sweep,
+    tau: np.ndarray,
+    *,
+    solvent: bool = True,
+    plateau: bool = False,
+    eta_s: float | None = None,
+) -> Problem:
+    """Form the weighted, dimensionless problem ‖A x − 1‖² + λ²‖L x‖².
+
+    Rows are G'_i and G''_i divided by their measured values (relative
+    residuals); H is scaled by the geometric mean of the moduli, and the η_s
+    and G_e columns to unit norm, so that the problem — and hence the chosen
+    strength — is invariant to the units of the moduli.  A known ``eta_s``
+    is subtracted from G'' (its column is then omitted).
+    """
+    omega = sweep.omega
+    y = np.concatenate([sweep.storage, sweep.loss])
+    Kp, Kpp = spectrum_matrix(omega, tau)
+    s_H = float(np.exp(np.mean(np.log(y))))
+    offset = np.zeros(len(omega)) if eta_s is None else eta_s * omega
+    target = np.concatenate([sweep.storage, sweep.loss - offset])
+    w = 1.0 / y
+    cols = [np.vstack([Kp, Kpp]) * (w[:, None] * s_H)]
+    scale = [np.full(len(tau), s_H)]
+    if solvent and eta_s is None:
+        c = np.concatenate([np.zeros_like(omega), omega]) * w
+        s = 1.0 / float(np.linalg.norm(c))
+        cols.append((c * s)[:, None])
+        scale.append(np.array([s]))
+    if plateau:
+        c = np.concatenate([np.ones_like(omega), np.zeros_like(omega)]) * w
+        s = 1.0 / float(np.linalg.norm(c))
+        cols.append((c * s)[:, None])
+        scale.append(np.array([s]))
+    A = np.hstack(cols)
+    b = target * w
+    du = float(np.log(tau[1] / tau[0])) if len(tau) > 1 else 1.0
+    D = second_difference(len(tau), du)
+    L = np.hstack([D, np.zeros((D.shape[0], A.shape[1] - len(tau)))])
+    return Problem(A=A, b=b, L=L, tau=tau, scale=np.concatenate(scale), solvent=solvent and eta_s is None,
+                   plateau=plateau, loss_offset=offset)
+
+
+def strength_path(problem: Problem, n: int = N_STRENGTHS) -> np.ndarray:
+    """Return the initial path: ``n`` strengths from large to small, scaled from the problem itself.
+
+    The centre λ₀² = tr(A_hᵀA_h)/tr(LᵀL) balances the two terms of the
+    objective for a unit change of h; the path spans λ² from 10⁻⁹ λ₀² to
+    10³ λ₀².  :func:`_solve_path` extends it where its ends are not yet
+    over- and under-smoothed.
+    """
+    n_h = problem.n_grid
+    Ah = problem.A[:, :n_h]
+    Lh = problem.L[:, :n_h]
+    lam0_sq = float(np.sum(Ah * Ah)) / max(float(np.sum(Lh * Lh)), 1e-300)
+    exps = np.linspace(_PATH_DECADES[1], _PATH_DECADES[0], n)
+    return np.sqrt(lam0_sq * 10.0**exps)
