@@ -80,7 +80,7 @@ def child(mode: str, archive: str, out: str, jobs: int, full: bool) -> dict:
     from joblib import Parallel, delayed
 
     from tauspec.batch.run import run_batch
-    from tauspec.batch.settings import DiagnoseOptions, ModesOptions, Settings
+    from tauspec.batch.settings import BatchSettings
 
     files = sorted(str(p) for p in Path(archive).rglob("*.csv"))
     t_cold = time.perf_counter()
@@ -95,8 +95,8 @@ def child(mode: str, archive: str, out: str, jobs: int, full: bool) -> dict:
         else:
             Parallel(n_jobs=jobs)(delayed(_bare_one)(f, full) for f in files)
     else:
-        report = run_batch([archive], out, jobs=jobs, settings=Settings(modes=ModesOptions(run=full),
-                                                                diagnose=DiagnoseOptions(run=full)))
+        report = run_batch([archive], out, jobs=jobs, settings=BatchSettings(run_modes=full,
+                                                                     run_diagnose=full))
         assert report.ok == len(files), report
     wall, cpu = time.perf_counter() - t0, time.process_time() - c0
     workers = {}

@@ -34,6 +34,7 @@ from scipy.optimize import nnls
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 from synthetic import lognormal_H, lognormal_sweep  # noqa: E402
 from tauspec.spectrum.invert import invert  # noqa: E402
+from tauspec.spectrum.options import InvertOptions
 from tauspec.spectrum.problem import build_problem
 from tauspec.spectrum.regularize import TikhonovPath, objective, solve_cvxpy  # noqa: E402
 from tauspec.spectrum.window import default_grid
@@ -73,7 +74,7 @@ def run(quick: bool = False) -> dict:
     med, lo, hi, sp = _best(lambda: invert(sweep, grid=n_grid), repeats)
     lams = sp.lcurve.strength
     tau = default_grid(sweep.omega, n_grid)
-    pb = build_problem(sweep, tau)
+    pb = build_problem(sweep, tau, InvertOptions())
     A, b, L = pb.A, pb.b, pb.L
     rows = {"tauspec invert (auto: path + L-curve + GCV)": (med, lo, hi)}
     med_fast, lo_f, hi_f, path_sol = _best(lambda: TikhonovPath(A, b, L).path(lams), repeats)

@@ -14,7 +14,7 @@ from tauspec.spectrum.kernels import log_grid, modes_moduli, spectrum_moduli
 
 
 def lognormal_H(tau, G_t=1.0, tau_m=1.0, sigma=1.2):
-    """Log-normal spectrum H = G_t/(σ√(2π)) exp(−ln²(τ/τ_m)/(2σ²)) (REFERENCES.md)."""
+    """Log-normal spectrum H = G_t/(σ√(2π)) exp(−ln²(τ/τ_m)/(2σ²)) (docs/references.md)."""
     return G_t / (sigma * math.sqrt(2 * math.pi)) * np.exp(-np.log(np.asarray(tau) / tau_m) ** 2 / (2 * sigma**2))
 
 

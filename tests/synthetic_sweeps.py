@@ -2,7 +2,7 @@
 
 Each generator draws its parameters from the seed so that the verdict is checked on many unseen cases.
 Models: Rouse 1953 (finite-N sine form), Zimm 1956 (τ_p = τ_1 p^(−3ν)), Baumgaertel, Schausberger & Winter
-1990 (BSW spectrum; form as in REFERENCES.md, from memory), Winter & Chambon 1986 (critical gel), the
+1990 (BSW spectrum; form as in docs/references.md, from memory), Winter & Chambon 1986 (critical gel), the
 single Maxwell mode and the log-normal spectrum (Ferry 1980, ch. 3).
 """
 

@@ -14,21 +14,24 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_sweep, maxwell_sweep
+from tauspec.analysis.diagnosis.options import DiagnoseOptions
 from tauspec.batch.inputs import find_inputs
 from tauspec.batch.pipeline import process
 from tauspec.batch.run import run_batch
-from tauspec.batch.settings import DiagnoseOptions, InvertOptions, ModesOptions, Settings, load_settings
+from tauspec.batch.settings import BatchSettings, load_settings
 from tauspec.batch.summary import SUMMARY_COLUMNS, read_summary
 from tauspec.cli.main import main
 from tauspec.data.read import read_sweep
 from tauspec.errors import SettingsError
+from tauspec.modes.options import ModesOptions
 from tauspec.spectrum.invert import invert
+from tauspec.spectrum.options import InvertOptions
 
 SRC = str(Path(__file__).resolve().parents[1] / "src")
 GRID = 24  # small τ grids keep the suite quick
 # modes and diagnosis take seconds per sweep: the mechanics are tested without them, the demo test runs them
 OFF = "[modes]\nrun = false\n[diagnose]\nrun = false\n"
-SMALL = Settings(invert=InvertOptions(grid=GRID), modes=ModesOptions(run=False), diagnose=DiagnoseOptions(run=False))
+SMALL = BatchSettings(invert=InvertOptions(grid=GRID), run_modes=False, run_diagnose=False)
 
 
 def write_sweep(path, sweep, extra=""):
@@ -237,12 +240,15 @@ def test_local_dask_cluster_equals_local_run(archive, reference, tmp_path):
     [
         ("[invert]\ngird = 40\n", r"unknown key 'gird' in \[invert\]; known keys: strength, select, grid"),
         ("[inverse]\ngrid = 40\n", r"unknown section or key 'inverse'"),
-        ("[invert]\nselect = \"best\"\n", r"\[invert\] select must be \"lcurve\" or \"gcv\""),
+        ("[invert]\nselect = \"best\"\n", r"\[invert\] select must be one of 'gcv', 'lcurve', not 'best'"),
         ("[invert]\ngrid = 4\n", r"\[invert\] grid must be a whole number of τ points from 10 to 2000"),
-        ("[invert]\nstrength = -1\n", r"\[invert\] strength must be \"auto\" or a positive number"),
+        ("[invert]\nstrength = -1\n", r"\[invert\] strength must be 'auto' or a positive number"),
+        ("[invert]\nplateau = true\n", r"unknown key 'plateau' in \[invert\]; known keys: .*equilibrium_modulus"),
+        ("[modes]\nn_modes = 0\n", r"\[modes\] n_modes must be a whole number of modes from 1 to 50"),
         ("[invert]\nsolvent = \"yes\"\n", r"\[invert\] solvent must be true or false"),
         ("[invert\n", r"not a valid TOML file"),
-        ("[modes]\nalpha = 2\n", r"\[modes\] alpha must be a significance level between 0 and 1"),
+        ("[modes]\nalpha = 0.01\n", r"unknown key 'alpha' in \[modes\]; known keys: run, n_modes, significance"),
+        ("[modes]\nsignificance = 2\n", r"\[modes\] significance must be a test size above 0 and below 1"),
         ("[diagnose]\nrun = 1\n", r"\[diagnose\] run must be true or false"),
         ("grid = 40\n", r"unknown section or key 'grid'; known sections: \[invert\], \[modes\], \[diagnose\]"),
     ],
@@ -261,9 +267,11 @@ def test_settings_file_values_reach_invert(tmp_path):
     path.write_text(path.read_text() + "[modes]\nn_modes = 4\n[diagnose]\nintervals = false\n")
     s = load_settings(path)
     assert s.invert == InvertOptions(strength=0.01, select="gcv", grid=30, solvent=False, eta_s=0.5)
-    assert s.modes == ModesOptions(n_modes=4) and s.diagnose == DiagnoseOptions(intervals=False)
+    # the physical switches of [invert] hold for every step
+    assert s.modes == ModesOptions(n_modes=4, solvent=False, eta_s=0.5)
+    assert s.diagnose == DiagnoseOptions(intervals=False, solvent=False)
     assert s.steps == ("read", "invert", "modes", "diagnose")
-    assert s.digest() != Settings().digest() and s.digest() == load_settings(path).digest()
+    assert s.digest() != BatchSettings().digest() and s.digest() == load_settings(path).digest()
 
 
 def test_cli_usage_errors(tmp_path, capsys):

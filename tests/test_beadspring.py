@@ -25,7 +25,7 @@ def test_rouse_coefficient_pi_over_2_sqrt2_by_quadrature():
     val, _ = integrate.quad(lambda u: u**2 / (1 + u**4), 0, np.inf)
     assert val == pytest.approx(math.pi / (2 * math.sqrt(2)), rel=1e-10)
     assert float(mpmath.quad(lambda u: u**2 / (1 + u**4), [0, mpmath.inf])) == pytest.approx(ROUSE_G_COEFF, rel=1e-12)
-    # and G' + G0/2 (Euler–Maclaurin end term, REFERENCES.md) has the same asymptote: ∫ 1/(1+u⁴) du
+    # and G' + G0/2 (Euler–Maclaurin end term, docs/references.md) has the same asymptote: ∫ 1/(1+u⁴) du
     val2, _ = integrate.quad(lambda u: 1 / (1 + u**4), 0, np.inf)
     assert val2 == pytest.approx(ROUSE_G_COEFF, rel=1e-10)
 
@@ -42,7 +42,7 @@ def test_finite_rouse_chain_reaches_the_intermediate_asymptote(x):
 
 @pytest.mark.parametrize("a, tan_expected", [(2.0, 1.0), (1.5, math.sqrt(3.0)), (3 * 0.588, 1.236)])
 def test_tan_delta_of_the_asymptotic_power_laws(a, tan_expected):
-    # REFERENCES.md (from ∫ x^(c−1)/(1+x^b) dx = (π/b)/sin(πc/b), Gradshteyn & Ryzhik 3.241.2):
+    # docs/references.md (from ∫ x^(c−1)/(1+x^b) dx = (π/b)/sin(πc/b), Gradshteyn & Ryzhik 3.241.2):
     # τ_p = τ_1 p^(−a) gives tan δ = tan(π/(2a)) in the scale-free region: 1 (Rouse), √3 (Zimm θ).
     s = 1 / a
     assert math.tan(math.pi * s / 2) == pytest.approx(tan_expected, rel=2e-3)
@@ -59,7 +59,7 @@ def test_tan_delta_of_the_asymptotic_power_laws(a, tan_expected):
 
 
 def test_rouse_sums_and_terminal_limit():
-    # Ferry 1980, ch. 9 (values in REFERENCES.md): Σ τ_p → (π²/6) τ_1, and G'/ω² → G0 τ_1² π⁴/90 for ω → 0.
+    # Ferry 1980, ch. 9 (values in docs/references.md): Σ τ_p → (π²/6) τ_1, and G'/ω² → G0 τ_1² π⁴/90 for ω → 0.
     tau = mode_times(1.0, 2000, 2.0, "sine")
     assert tau.sum() == pytest.approx(math.pi**2 / 6, rel=2e-3)
     assert (tau**2).sum() == pytest.approx(math.pi**4 / 90, rel=1e-4)

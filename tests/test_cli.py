@@ -69,14 +69,14 @@ def test_bad_usage_exit_2(sweep_file, capsys):
         main(["invert", str(sweep_file), "--select", "best"])
     assert info.value.code == 2
     assert main(["invert", str(sweep_file), "--strength", "-3"]) == 1
-    assert "--strength must be positive" in capsys.readouterr().err
+    assert "--strength must be 'auto' or a positive number, not -3.0" in capsys.readouterr().err
 
 
 def test_real_subprocess(sweep_file):
     r = subprocess.run([sys.executable, "-m", "tauspec", "invert", str(sweep_file), "--json"],
                        capture_output=True, text=True, timeout=120)
     assert r.returncode == 0, r.stderr
-    assert json.loads(r.stdout)["schema"] == "tauspec.spectrum/1"
+    assert json.loads(r.stdout)["schema"] == "tauspec.spectrum/1.1"
     r = subprocess.run([sys.executable, "-m", "tauspec", "invert", "/nonexistent/x.csv"],
                        capture_output=True, text=True, timeout=120)
     assert r.returncode == 1 and r.stderr.strip() == "tauspec: error: /nonexistent/x.csv: no such file"
@@ -87,3 +87,32 @@ def test_import_is_light():
     code = "import sys, tauspec; tauspec.read_sweep; print('cvxpy' in sys.modules, 'matplotlib' in sys.modules)"
     r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
     assert r.stdout.split() == ["False", "False"]
+
+
+def test_equilibrium_modulus_switch_and_no_plateau_option(tmp_path, capsys):
+    # A Maxwell mode plus an equilibrium modulus (Ferry 1980, ch. 3: G' = G_e + g ω²τ²/(1 + ω²τ²)): the switch
+    # that fits G_e is --equilibrium-modulus on every command that inverts; "plateau" is offered nowhere.
+    w = np.geomspace(1e-2, 1e2, 30)
+    G_e, g, tau = 500.0, 1e3, 1.0
+    x = w * tau
+    gp, gpp = G_e + g * x**2 / (1 + x**2), g * x / (1 + x**2)
+    from tauspec.data.sweep import Sweep
+
+    path = write_sweep(tmp_path / "solid.csv", Sweep(omega=w, storage=gp, loss=gpp, name="solid"))
+    for command in ("invert", "diagnose", "predict", "compare", "batch"):
+        with pytest.raises(SystemExit):
+            main([command, "--help"])
+        text = capsys.readouterr().out
+        assert "plateau" not in text.lower(), command
+    for command in ("invert", "predict", "compare"):
+        with pytest.raises(SystemExit):
+            main([command, "--help"])
+        assert "--equilibrium-modulus" in capsys.readouterr().out, command
+    assert main(["invert", str(path), "--json", "--no-modes", "--equilibrium-modulus"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    assert d["settings"]["equilibrium_modulus"] is True and "plateau" not in d["settings"]
+    assert d["G_e"] == pytest.approx(G_e, rel=0.02)
+    with pytest.raises(SystemExit) as info:
+        main(["invert", str(path), "--plateau"])
+    assert info.value.code == 2
+    capsys.readouterr()

@@ -1,5 +1,6 @@
 """Comparing spectra: the shift fit, the shape test, series scaling, the stored-result loader and the CLI."""
 
+import dataclasses
 import json
 import math
 from types import SimpleNamespace
@@ -17,9 +18,10 @@ from tauspec.analysis.comparison.series import (
 )
 from tauspec.analysis.comparison.shape import rouse_ratios
 from tauspec.analysis.comparison.shift import fit_shift
+from tauspec.analysis.diagnosis.diagnose import diagnose
 from tauspec.cli.main import main
 from tauspec.errors import SettingsError, TauspecError
-from tauspec.output.results import spectrum_from_dict
+from tauspec.output.results import spectrum_from_result
 from tauspec.spectrum.invert import invert
 from tauspec.spectrum.kernels import log_grid, modes_moduli, spectrum_moduli
 
@@ -43,7 +45,7 @@ def rouse_moduli(w, G0, tau1, N):
 
 # ------------------------------------------------------------------------------------------------ shift fit
 def test_fit_shift_recovers_an_exact_shift_of_an_analytic_spectrum():
-    # ln H of a log-normal spectrum (REFERENCES.md) shifted by ln a in ln τ and ln b in ln H, without noise, on
+    # ln H of a log-normal spectrum (docs/references.md) shifted by ln a in ln τ and ln b in ln H, without noise, on
     # grids that are not aligned: the weighted least-squares fit returns a and b to 0.5 %.
     uA = np.log(np.geomspace(1e-2, 1e2, 61))
     uB = np.log(np.geomspace(2e-2, 3e2, 57))
@@ -65,7 +67,7 @@ def test_shifted_copy_same_shape_with_shifts_within_3_percent():
     assert p.time_shift_ci[0] < 3.0 < p.time_shift_ci[1] or abs(p.time_shift / 3 - 1) < 0.01
     assert p.same_shape is True
     d = c.to_dict()
-    assert d["schema"] == "tauspec.comparison/1"
+    assert d["schema"] == "tauspec.comparison/1.1"
     assert set(d["pairs"][0]) >= {"a", "b", "time_shift", "time_shift_ci", "modulus_shift", "modulus_shift_ci",
                                   "shape_distance", "same_shape"}
     assert (d["pairs"][0]["a"], d["pairs"][0]["b"]) == ("A", "B")
@@ -86,7 +88,7 @@ def test_shifted_copy_same_shape_in_90_percent_of_noise_seeds():
 def test_a_shift_beyond_the_admissible_overlap_is_flagged():
     # ℓ_B is ℓ_A shifted by 4 in u on windows 6 wide: a shift of 4 would leave 2 < 3 (half the window) overlapping,
     # so the best admissible shift is the edge, α = 3, and the fit says it is at the edge (a parabola in ln H, the
-    # log of a log-normal spectrum, REFERENCES.md).
+    # log of a log-normal spectrum, docs/references.md).
     u = np.linspace(0.0, 6.0, 61)
     fit = fit_shift(u, -((u - 3.0) ** 2), np.full(61, 0.05), u, -((u - 7.0) ** 2), np.full(61, 0.05))
     assert fit.log_a == pytest.approx(3.0, abs=0.03)
@@ -153,8 +155,8 @@ def test_errors_are_one_line_settings_errors():
         compare([A])
     with pytest.raises(SettingsError, match="reference 'Z' is not one of"):
         compare([A, B], reference="Z", replicates=0)
-    with pytest.raises(SettingsError, match="level must lie"):
-        compare([A, B], level=1.5)
+    with pytest.raises(SettingsError, match="significance must be a test size"):
+        compare([A, B], significance=1.5)
     narrow = noisy_sweep(np.geomspace(1.0, 10.0, 10), *lognormal_moduli(np.geomspace(1.0, 10.0, 10), 1e4), 0.01, 1)
     with pytest.warns(Warning):
         sp = invert(narrow)
@@ -292,14 +294,18 @@ def test_power_law_fit_against_scipy_linregress_and_an_exact_law():
 # ------------------------------------------------------------------------------------------------ stored results
 def test_spectrum_round_trips_through_its_json_form():
     sp = invert(shifted_pair(4)[0])
-    back = spectrum_from_dict(json.loads(json.dumps(sp.to_dict())))
-    assert back.to_dict() == json.loads(json.dumps(sp.to_dict()))
+    back = spectrum_from_result(json.loads(json.dumps(sp.to_dict())))
+    assert back == sp and back.to_dict() == json.loads(json.dumps(sp.to_dict()))
+    batch_result = {"schema": "tauspec.batch/1.1", "status": "ok", "spectrum": sp.to_dict()}
+    assert spectrum_from_result(json.loads(json.dumps(batch_result))) == sp
     with pytest.raises(TauspecError, match="schema"):
-        spectrum_from_dict({"schema": "other"}, "x.json")
+        spectrum_from_result({"schema": "other"}, "x.json")
+    with pytest.raises(TauspecError, match="holds no spectrum \\(status 'error': x.csv: bad\\)"):
+        spectrum_from_result({"status": "error", "error": "x.csv: bad", "spectrum": None}, "r.json")
     bad = sp.to_dict()
     del bad["H"]
     with pytest.raises(TauspecError, match="no 'H'"):
-        spectrum_from_dict(bad, "x.json")
+        spectrum_from_result(bad, "x.json")
 
 
 # ------------------------------------------------------------------------------------------------ CLI
@@ -350,12 +356,13 @@ def test_cli_reads_batch_results_with_their_stored_diagnosis(tmp_path, capsys):
     # A batch result folder wraps the spectrum and its diagnosis ({"schema": "tauspec.batch/1", "status": ...,
     # "spectrum": {...}, "diagnosis": {...}}); the stored Rouse parameters give the ratios without re-diagnosing.
     A, B = shifted_pair(12)
+    real = diagnose(A, intervals=False, use_spectrum=False)  # a whole stored diagnosis, its numbers set below
     for name, sw, tau_R, G0 in (("a", A, 1.0, 100.0), ("b", B, 3.0, 250.0)):
         (tmp_path / name).mkdir()
-        result = {"schema": "tauspec.batch/1", "file": f"{name}.csv", "status": "ok", "error": None,
-                  "spectrum": invert(sw).to_dict(),
-                  "diagnosis": {"verdict": "rouse", "tau_R": tau_R, "tau_R_ci": [0.9 * tau_R, 1.1 * tau_R], "G0": G0,
-                                "G0_ci": [0.9 * G0, 1.1 * G0]}}
+        stored = dataclasses.replace(real, verdict="rouse", tau_R=tau_R, tau_R_ci=(0.9 * tau_R, 1.1 * tau_R),
+                                     G0=G0, G0_ci=(0.9 * G0, 1.1 * G0))
+        result = {"schema": "tauspec.batch/1.1", "file": f"{name}.csv", "status": "ok", "error": None,
+                  "spectrum": invert(sw).to_dict(), "diagnosis": stored.to_dict()}
         (tmp_path / name / "result.json").write_text(json.dumps(result))
     assert main(["compare", str(tmp_path / "a"), str(tmp_path / "b"), "--json", "--replicates", "0"]) == 0
     d = json.loads(capsys.readouterr().out)

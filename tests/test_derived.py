@@ -38,7 +38,7 @@ def lognormal_spec(omega, G_t=1e4, tau_m=1.0, sigma=1.2):
 
 def test_reference_values_themselves():
     # Log-normal moments by quadrature (scipy.integrate): η0 = G_t τ_m e^(σ²/2) = 2.054433, J_e⁰ G_t = e^(σ²)
-    # = 4.220696 at σ = 1.2 (REFERENCES.md).  Rouse sums for N = 2000: Σ τ_p/τ_1 → π²/6, Σ τ_p²/(Σ τ_p)² → 2/5
+    # = 4.220696 at σ = 1.2 (docs/references.md).  Rouse sums for N = 2000: Σ τ_p/τ_1 → π²/6, Σ τ_p²/(Σ τ_p)² → 2/5
     # (Ferry 1980, ch. 9).
     s = 1.2
     H = lambda u: math.exp(-u * u / (2 * s * s)) / (s * math.sqrt(2 * math.pi))  # noqa: E731
@@ -71,7 +71,7 @@ def test_rouse_viscosity_and_compliance_from_noisy_sweeps(seed):
 
 @pytest.mark.parametrize("seed", [0, 1, 2])
 def test_lognormal_viscosity_and_compliance_from_noisy_sweeps(seed):
-    # Log-normal spectrum, σ = 1.2 (REFERENCES.md, checked above): η0 = 2.054433 G_t τ_m, J_e⁰ G_t = 4.220696.
+    # Log-normal spectrum, σ = 1.2 (docs/references.md, checked above): η0 = 2.054433 G_t τ_m, J_e⁰ G_t = 4.220696.
     G_t, tau_m = 1e4, 1.0
     m = fit_modes(lognormal_sweep(seed, G_t=G_t, tau_m=tau_m, sigma=1.2))
     d = derive(m)
@@ -173,7 +173,7 @@ def test_convolution_identity_for_fitted_modes():
 
 
 def test_single_maxwell_mode_exact_forms():
-    # Maxwell: G(t) = g e^(−t/τ), J(t) = 1/g + t/(gτ), |η*| = gτ/√(1 + ω²τ²) (REFERENCES.md; Ferry 1980 ch. 3).
+    # Maxwell: G(t) = g e^(−t/τ), J(t) = 1/g + t/(gτ), |η*| = gτ/√(1 + ω²τ²) (docs/references.md; Ferry 1980 ch. 3).
     class M:
         g = np.array([2.5e3])
         tau = np.array([0.7])

@@ -89,7 +89,7 @@ def test_zimm_sweeps_are_called_zimm_with_the_right_exponent(seed, nu):
 
 @pytest.mark.parametrize("seed", [51, 52, 53])
 def test_bsw_entangled_spectra_are_called_entangled(seed):
-    # Baumgaertel, Schausberger & Winter 1990 (BSW form, REFERENCES.md).
+    # Baumgaertel, Schausberger & Winter 1990 (BSW form, docs/references.md).
     sw, _ = bsw_sweep(seed)
     d = _run(sw)
     assert d.verdict == "entangled", d.reason

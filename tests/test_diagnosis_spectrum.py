@@ -32,7 +32,7 @@ def test_cumulative_spectrum_slope_is_minus_one_half_for_rouse(rouse_with_spectr
 
 @pytest.mark.parametrize("seed", [200, 202])
 def test_zimm_theta_spectrum_slope_is_steeper_than_rouse(seed):
-    # Zimm θ: s = 1/(3ν) = 2/3 (Zimm 1956; REFERENCES.md: H slope −2/3).
+    # Zimm θ: s = 1/(3ν) = 2/3 (Zimm 1956; docs/references.md: H slope −2/3).
     sw, _ = zimm_sweep(seed, 0.5)
     d = diagnose(sw)
     assert d.verdict == "zimm", d.reason

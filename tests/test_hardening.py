@@ -124,7 +124,7 @@ def test_compare_bad_file_one_line_exit_1(tmp_path, capsys, kind):
     good = tmp_path / "good.csv"
     good.write_text(GOOD_TEXT)
     path = _bad_file(tmp_path, kind)
-    assert main(["compare", "--grid", "40", "--no-modes", str(good), str(path), "--json"]) == 1
+    assert main(["compare", "--grid", "40", str(good), str(path), "--json"]) == 1
     out, err = capsys.readouterr()
     assert out == ""
     _check_one_error_line(err, path, BAD[kind][1])

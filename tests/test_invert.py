@@ -10,6 +10,7 @@ from synthetic import lognormal_H, lognormal_moduli, lognormal_sweep, noisy_swee
 from tauspec.data.sweep import Sweep
 from tauspec.errors import SettingsError, WeakResultWarning
 from tauspec.spectrum.invert import invert
+from tauspec.spectrum.options import InvertOptions
 from tauspec.spectrum.problem import build_problem
 from tauspec.spectrum.regularize import TikhonovPath, objective, solve_cvxpy
 from tauspec.spectrum.rules import curvature, lcurve_corner
@@ -36,7 +37,7 @@ SEEDS = [0, 1, 2, 3, 4, 5, 10, 16, 20]
 
 
 def test_lognormal_recovery_lcurve():
-    # Log-normal spectrum (REFERENCES.md), 1 % noise, ω over 6 decades: the L-curve choice recovers H inside
+    # Log-normal spectrum (docs/references.md), 1 % noise, ω over 6 decades: the L-curve choice recovers H inside
     # the window to ≤ 5 % (median over seeds) and ≤ 10 % for every seed.
     errors = []
     for seed in SEEDS:
@@ -60,7 +61,7 @@ def test_naive_corner_search_fails_where_guarded_one_does_not():
     for seed in (10, 16, 20):
         sw = lognormal_sweep(seed)
         tau = default_grid(sw.omega)
-        pb = build_problem(sw, tau)
+        pb = build_problem(sw, tau, InvertOptions())
         Ah, Lh = pb.A[:, : len(tau)], pb.L[:, : len(tau)]
         lams = np.sqrt(np.sum(Ah**2) / np.sum(Lh**2) * 10 ** np.linspace(6, -16, 90))
         path = TikhonovPath(pb.A, pb.b, pb.L).path(lams)
@@ -101,11 +102,11 @@ def test_solvent_viscosity_recovered():
         assert max(errors) <= worst, (share, errors)
 
 
-def test_known_solvent_viscosity_and_plateau():
+def test_known_solvent_viscosity_and_equilibrium_modulus():
     w = np.geomspace(1e-2, 1e2, 40)
     gp, gpp = lognormal_moduli(w, G_t=1e3, sigma=1.0)
     sw = noisy_sweep(w, gp + 50.0, gpp + 3.0 * w, 0.005, 1)
-    sp = invert(sw, eta_s=3.0, plateau=True)
+    sp = invert(sw, eta_s=3.0, equilibrium_modulus=True)
     assert sp.eta_s == 3.0
     assert sp.G_e == pytest.approx(50.0, rel=0.2)  # the equilibrium modulus G_e of a weak solid-like network
     with pytest.warns(WeakResultWarning, match="systematic"):  # no solvent, no plateau: a visible misfit
@@ -116,7 +117,7 @@ def test_cvxpy_and_fast_path_agree():
     # Same problem, two solvers: relative objective within 1e-6 at several strengths.
     sw = lognormal_sweep(7, eta_s=1.0)
     tau = default_grid(sw.omega, 60)
-    pb = build_problem(sw, tau)
+    pb = build_problem(sw, tau, InvertOptions())
     path = TikhonovPath(pb.A, pb.b, pb.L)
     lams = [1e-1, 1e-2, 1e-3]
     X = solve_cvxpy(pb.A, pb.b, pb.L, lams)
@@ -131,10 +132,10 @@ def test_invert_with_cvxpy_solver_and_bounds():
     sw = lognormal_sweep(2, eta_s=1.0)
     fast = invert(sw, strength=0.01)
     conic = invert(sw, strength=0.01, solver="cvxpy")
-    assert abs(conic.settings["objective"] - fast.settings["objective"]) / fast.settings["objective"] <= 1e-6
+    assert abs(conic.objective - fast.objective) / fast.objective <= 1e-6
     bounded = invert(sw, strength=0.01, bounds={"eta_s": (0.0, 0.5)})
     assert bounded.eta_s <= 0.5 * (1 + 1e-6)
-    assert bounded.settings["solver"] == "cvxpy"
+    assert bounded.options.solver == "cvxpy"
 
 
 def test_fast_path_kkt_against_nnls():
@@ -142,7 +143,7 @@ def test_fast_path_kkt_against_nnls():
     from scipy.optimize import nnls
 
     sw = lognormal_sweep(5)
-    pb = build_problem(sw, default_grid(sw.omega))
+    pb = build_problem(sw, default_grid(sw.omega), InvertOptions())
     lams = np.geomspace(10, 1e-4, 25)
     sol = TikhonovPath(pb.A, pb.b, pb.L).path(lams)
     for lam, x in zip(lams, sol.x):
@@ -189,10 +190,10 @@ def test_narrow_window_warns():
     ({"select": "best"}, "select must be one of"),
     ({"strength": -1.0}, "positive number"),
     ({"strength": "big"}, "'auto' or a positive number"),
-    ({"grid": 3}, "between 10 and 2000"),
+    ({"grid": 3}, "from 10 to 2000"),
     ({"solver": "magic"}, "solver must be"),
     ({"bounds": {"x": (0, 1)}}, "bounds may name"),
-    ({"bounds": {"G_e": (0, 1)}}, "need plateau=True"),
+    ({"bounds": {"G_e": (0, 1)}}, "need equilibrium_modulus=True"),
     ({"eta_s": -1.0}, "nonnegative"),
     ({"grid": [1.0, 2.0, 5.0]}, "uniformly spaced"),
 ])

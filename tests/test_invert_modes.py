@@ -27,7 +27,7 @@ def test_json_has_modes_and_derived(sweep_file, tmp_path, capsys):
     assert list(d["modes"]) == ["g", "tau", "g_se", "tau_se"]
     assert {"eta0", "Je0", "tau_n", "tau_w", "tau_longest", "flags"} <= set(d["derived"])
     assert d["derived"]["basis"] == "modes" and d["derived_spectrum"]["basis"] == "spectrum"
-    # log-normal σ = 1.2: η0 = 2.054433 G_t τ_m, J_e⁰ G_t = 4.220696 (REFERENCES.md, checked in test_derived.py)
+    # log-normal σ = 1.2: η0 = 2.054433 G_t τ_m, J_e⁰ G_t = 4.220696 (docs/references.md, checked in test_derived.py)
     for key in ("derived", "derived_spectrum"):
         assert d[key]["eta0"] == pytest.approx(2.054433e4, rel=0.05)
     assert d["derived"]["Je0"] == pytest.approx(4.220696e-4, rel=0.05)

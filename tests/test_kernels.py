@@ -36,7 +36,7 @@ def _quad(H, w, kernel):
 
 @pytest.mark.parametrize("omega", [0.01, 0.1, 1.0, 10.0, 100.0])
 def test_lognormal_against_quad(omega):
-    # Log-normal spectrum (REFERENCES.md) integrated by scipy.integrate.quad vs the trapezoid forward model.
+    # Log-normal spectrum (docs/references.md) integrated by scipy.integrate.quad vs the trapezoid forward model.
     sigma = 1.2
     H = lambda t: float(lognormal_H(t, 1.0, 1.0, sigma))  # noqa: E731
     gp_q = _quad(H, omega, lambda x: x * x / (1 + x * x))
@@ -47,7 +47,7 @@ def test_lognormal_against_quad(omega):
 
 
 def test_lognormal_published_values():
-    # REFERENCES.md (Kramers-Kronig pairs of the log-normal spectrum, σ = 1.2, G_t = τ_m = 1):
+    # docs/references.md (Kramers-Kronig pairs of the log-normal spectrum, σ = 1.2, G_t = τ_m = 1):
     # G'(1/τ_m) = G_t/2 exactly (symmetry of K' about x = 1 in ln x); G'' = 0.147857, 0.341750, 0.147857 and
     # G' = 0.062049, 0.5, 0.937951 at ω = 0.1, 1, 10.
     gp, gpp = lognormal_moduli(np.array([0.1, 1.0, 10.0]), sigma=1.2)
@@ -58,7 +58,7 @@ def test_lognormal_published_values():
 
 def test_bsw_check_values():
     # BSW entanglement part, G_N = τ_max = 1, n_e = 0.23 (Baumgaertel, Schausberger & Winter 1990; values in
-    # REFERENCES.md, checked here also against scipy.integrate.quad).
+    # docs/references.md, checked here also against scipy.integrate.quad).
     H = lambda t: float(bsw_H(t, 1.0, 1.0, 0.23))  # noqa: E731
     for w, gp_ref, gpp_ref in [(1.0, 0.0700578, 0.1417297), (10.0, 0.3994421, 0.1976331)]:
         f1 = lambda u, w=w: H(math.exp(u)) * (w * math.exp(u)) ** 2 / (1 + (w * math.exp(u)) ** 2)  # noqa: E731
@@ -72,7 +72,7 @@ def test_bsw_check_values():
 
 
 def test_rouse_terminal_and_intermediate_asymptotes():
-    # Ferry 1980, ch. 9 (values in REFERENCES.md): terminal slopes 2 (G') and 1 (G''), G'/ω² → G0 τ_1² π⁴/90;
+    # Ferry 1980, ch. 9 (values in docs/references.md): terminal slopes 2 (G') and 1 (G''), G'/ω² → G0 τ_1² π⁴/90;
     # intermediate region G'' − η_s ω = G' + G0/2 → (π/(2√2)) G0 √(ωτ_1) (the discrete sum carries −G0/2 in G').
     G0, tau_1, N = 1.0, 1.0, 3000
     taus = rouse_times(tau_1, N)

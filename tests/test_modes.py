@@ -13,7 +13,9 @@ from tauspec.errors import SettingsError, WeakResultWarning
 from tauspec.modes.curves import creep_compliance, relaxation_modulus
 from tauspec.modes.derived import derive
 from tauspec.modes.fit import fit_modes
+from tauspec.output.results import modes_entries
 from tauspec.output.tables import write_modes_csv
+from tauspec.spectrum.invert import invert
 from tauspec.spectrum.kernels import modes_moduli
 
 W6 = np.geomspace(1e-3, 1e3, 61)  # six decades, 10 points per decade
@@ -58,7 +60,7 @@ def test_three_mode_fluid_gives_three_modes(seed):
     np.testing.assert_allclose(m.tau, THREE_TAU, rtol=0.03)
     np.testing.assert_allclose(m.g, THREE_G, rtol=0.03)
     # the four-mode candidate was tried and judged not significant
-    assert m.candidates[-1].n_modes == 4 and m.candidates[-1].p_value >= m.alpha
+    assert m.candidates[-1].n_modes == 4 and m.candidates[-1].p_value >= m.options.significance
     assert not m.outside_window.any()
     assert m.residual_rms == pytest.approx(0.01, rel=0.3)
 
@@ -101,7 +103,7 @@ def test_modes_outside_window_are_flagged():
 
 def test_start_from_a_continuous_spectrum():
     # Start from the exact log-normal spectrum (stands in for the Tikhonov spectrum): exact η0 = G_t τ_m e^(σ²/2)
-    # and J_e⁰ G_t = e^(σ²) (log-normal moments; values in REFERENCES.md, checked in test_derived.py).
+    # and J_e⁰ G_t = e^(σ²) (log-normal moments; values in docs/references.md, checked in test_derived.py).
     G_t, tau_m, sigma = 1e4, 1.0, 1.2
 
     class _Spec:  # duck-typed like tauspec.spectrum.Spectrum
@@ -122,18 +124,18 @@ def test_known_solvent_viscosity_is_held():
     w = np.geomspace(1e-2, 1e2, 41)
     gp, gpp = modes_moduli(w, [1e3], [1.0], eta_s=0.5)
     m = fit_modes(noisy_sweep(w, gp, gpp, 0.01, 6), eta_s=0.5)
-    assert m.eta_s == 0.5 and m.eta_s_se == 0.0 and not m.solvent
+    assert m.eta_s == 0.5 and m.eta_s_se == 0.0 and not m.fits_eta_s
     assert m.n_modes == 1 and m.tau[0] == pytest.approx(1.0, rel=0.03)
     assert "given, not fitted" in m.report()
-    with pytest.raises(SettingsError, match="eta_s must be a nonnegative number"):
+    with pytest.raises(SettingsError, match="eta_s must be a nonnegative viscosity in Pa·s"):
         fit_modes(noisy_sweep(w, gp, gpp, 0.01, 6), eta_s=-1.0)
 
 
-def test_plateau_fitted_when_asked():
+def test_equilibrium_modulus_fitted_when_asked():
     # A solid: one mode plus an equilibrium modulus G_e (generalized Maxwell model with a spring, Ferry 1980 ch. 3).
     w = np.geomspace(1e-2, 1e2, 41)
     gp, gpp = modes_moduli(w, [1e4], [1.0], G_e=500.0)
-    m = fit_modes(noisy_sweep(w, gp, gpp, 0.01, 2), plateau=True, solvent=False)
+    m = fit_modes(noisy_sweep(w, gp, gpp, 0.01, 2), equilibrium_modulus=True, solvent=False)
     assert m.G_e == pytest.approx(500.0, rel=0.05)
     assert m.eta_s == 0.0
     assert np.isinf(derive(m).eta0)
@@ -145,7 +147,7 @@ def test_kelvin_voigt_data_need_no_mode():
     w = np.geomspace(1e-2, 1e2, 31)
     sw = noisy_sweep(w, np.full(w.size, 500.0), 2.0 * w, 0.01, 4)
     with pytest.warns(WeakResultWarning, match="no Maxwell mode improves significantly on eta_s and G_e"):
-        m = fit_modes(sw, plateau=True)
+        m = fit_modes(sw, equilibrium_modulus=True)
     assert m.n_modes == 0 and m.candidates[0].n_modes == 0
     assert m.G_e == pytest.approx(500.0, rel=0.01) and m.eta_s == pytest.approx(2.0, rel=0.01)
     assert creep_compliance(m, [0.25]).y[0] == pytest.approx((1 - math.exp(-0.25 * 500 / 2.0)) / 500, rel=0.02)
@@ -161,7 +163,7 @@ def test_garbage_is_reported_as_a_poor_fit():
 
 def test_to_dict_keys_and_modes_csv(tmp_path):
     m = fit_modes(three_mode_sweep(1))
-    d = m.to_dict()
+    d = modes_entries(m, invert(three_mode_sweep(1)))["modes"]  # the "modes" object of a result
     assert list(d) == ["g", "tau", "g_se", "tau_se"]
     assert d["g"] == m.g.tolist()
     path = tmp_path / "modes.csv"
@@ -189,13 +191,19 @@ def test_narrow_sweep_warns_of_an_empty_window():
 @pytest.mark.parametrize(
     ("kwargs", "match"),
     [
-        ({"alpha": 0.0}, "alpha must lie between 0 and 1"),
-        ({"alpha": 1.5}, "alpha must lie between 0 and 1"),
-        ({"per_decade": 0}, "per_decade must be positive"),
-        ({"n_modes": 0}, "n_modes must be between 1 and"),
-        ({"n_modes": 500}, "n_modes must be between 1 and"),
+        ({"significance": 0.0}, "significance must be a test size above 0 and below 1"),
+        ({"significance": 1.5}, "significance must be a test size above 0 and below 1"),
+        ({"per_decade": 0}, "per_decade must be a number of modes per decade above 0"),
+        ({"n_modes": 0}, "n_modes must be a whole number of modes from 1 to 50"),
+        ({"n_modes": 500}, "n_modes must be a whole number of modes from 1 to 50"),
     ],
 )
 def test_bad_settings(kwargs, match):
     with pytest.raises(SettingsError, match=match):
         fit_modes(three_mode_sweep(0), **kwargs)
+
+
+def test_more_modes_than_the_data_hold_are_refused():
+    # 40 points give 80 data: with η_s at most (80 − 1 − 1)/2 = 39 modes leave a residual degree of freedom
+    with pytest.raises(SettingsError, match="n_modes must be between 1 and 39 for 40 points"):
+        fit_modes(three_mode_sweep(0, omega=np.geomspace(1e-3, 1e3, 40)), n_modes=45)

@@ -178,7 +178,7 @@ def test_modes_statistic(spectrum):
 def test_default_statistics_follow_the_settings(spectrum):
     derived = {"eta0", "Je0", "tau_n", "tau_w", "tau_longest"}  # tauspec.derived, from the spectrum
     assert set(confidence_bands(spectrum, resamples=10).intervals) == {"eta_s"} | derived
-    sp = invert(small_sweep(4), grid=30, plateau=True, solvent=False)
+    sp = invert(small_sweep(4), grid=30, equilibrium_modulus=True, solvent=False)
     b = confidence_bands(sp, resamples=10)
     assert set(b.intervals) == {"G_e"} | derived
     assert math.isnan(b.intervals["eta0"].lo)  # η0 is infinite for a solid: no interval

@@ -2,14 +2,13 @@
 
 from __future__ import annotations
 
-import csv
 import dataclasses
-import io
 import os
 from collections import Counter
 from collections.abc import Iterator, Sequence
 from pathlib import Path
 
+from ..data.manifest import read_manifest
 from ..errors import TauspecError
 
 __all__ = ["SWEEP_SUFFIXES", "Input", "find_inputs"]
@@ -40,26 +39,6 @@ def _walk(folder: Path, exclude: Path) -> Iterator[Path]:
                 yield r / f
 
 
-def _read_manifest(path: Path) -> list[Path]:
-    source = str(path)
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except OSError as exc:
-        raise TauspecError(f"manifest cannot be read ({exc.strerror or exc})", source) from None
-    except UnicodeDecodeError:
-        raise TauspecError("manifest is not UTF-8 text", source) from None
-    reader = csv.DictReader(io.StringIO(text))
-    if not reader.fieldnames or "file" not in [f.strip() for f in reader.fieldnames]:
-        raise TauspecError("manifest needs a header row with a 'file' column", source, 1)
-    out = []
-    for row in reader:
-        row = {(k or "").strip(): (v or "").strip() for k, v in row.items()}
-        if row["file"]:
-            f = Path(row["file"])
-            out.append(f if f.is_absolute() else path.parent / f)
-    return out
-
-
 def find_inputs(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[str],
                 manifest: str | os.PathLike[str] | None = None) -> list[Input]:
     """Return the input files, sorted by their path relative to the common folder of ``paths`` (and the manifest).
@@ -85,8 +64,8 @@ def find_inputs(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[
             raise TauspecError("no such file or folder", str(p))
     if manifest is not None:
         bases.append(os.path.abspath(Path(manifest).parent))  # its entries are named relative to its folder
-        for f in _read_manifest(Path(manifest)):
-            a = Path(os.path.abspath(f))
+        for entry in read_manifest(manifest):
+            a = Path(os.path.abspath(entry.path))
             bases.append(str(a.parent))
             found.append(a)
     if not bases:

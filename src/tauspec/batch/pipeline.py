@@ -15,7 +15,7 @@ from ..data.read import parse_sweep_text
 from ..data.sweep import Sweep
 from ..data.write import dumps_json
 from ..errors import TauspecError
-from .settings import Settings
+from .settings import BatchSettings
 from .store import _header, _sha256
 
 __all__ = ["process"]
@@ -31,30 +31,32 @@ def _blas_controller(pid: int) -> Any:  # noqa: ARG001 - one per process (a fork
     return ThreadpoolController()
 
 
-def _invert_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tuple[dict[str, Any], dict[str, str]]:
+#: (result entries, {file name: CSV text}) of one pipeline step.
+_StepOutput = tuple[dict[str, Any], dict[str, str]]
+
+
+def _invert_step(sweep: Sweep, settings: BatchSettings, state: dict[str, Any]) -> _StepOutput:
     from ..output.tables import spectrum_tables
     from ..spectrum.invert import invert
 
-    spectrum = invert(sweep, **settings.invert.kwargs())
+    spectrum = invert(sweep, settings.invert)
     state["spectrum"] = spectrum
     return {"spectrum": spectrum.to_dict()}, spectrum_tables(spectrum)
 
 
-def _modes_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tuple[dict[str, Any], dict[str, str]]:
+def _modes_step(sweep: Sweep, settings: BatchSettings, state: dict[str, Any]) -> _StepOutput:
     from ..modes.fit import fit_modes
     from ..output.results import modes_entries
     from ..output.tables import modes_csv_text
 
-    o = settings.invert
-    modes = fit_modes(sweep, state["spectrum"], solvent=o.solvent, plateau=o.plateau, eta_s=o.eta_s,
-                      **settings.modes.kwargs())
+    modes = fit_modes(sweep, state["spectrum"], settings.modes)
     return modes_entries(modes, state["spectrum"]), {"modes.csv": modes_csv_text(modes)}
 
 
-def _diagnose_step(sweep: Sweep, settings: Settings, state: dict[str, Any]) -> tuple[dict[str, Any], dict[str, str]]:
+def _diagnose_step(sweep: Sweep, settings: BatchSettings, state: dict[str, Any]) -> _StepOutput:
     from ..analysis.diagnosis.diagnose import diagnose
 
-    d = diagnose(sweep, spectrum=state["spectrum"], solvent=settings.invert.solvent, **settings.diagnose.kwargs())
+    d = diagnose(sweep, settings.diagnose, spectrum=state["spectrum"])
     state["diagnosis"] = d
     return {"diagnosis": d.to_dict()}, {}
 
@@ -82,7 +84,7 @@ def _figures(state: Mapping[str, Any]) -> dict[str, bytes]:
         return {p.name: p.read_bytes() for p in paths}
 
 
-def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | None = None,
+def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str | None = None,
             input_sha256: str | None = None) -> dict[str, Any]:
     """Run the pipeline on one sweep: read, invert (then modes and diagnosis as they become available).
 
@@ -95,7 +97,7 @@ def process(sweep_or_text: Sweep | str, settings: Settings, *, source: str | Non
     ----------
     sweep_or_text : Sweep or str
         A sweep, or the text of a sweep file (see :func:`tauspec.io.parse_sweep_text`).
-    settings : Settings
+    settings : BatchSettings
     source : str, optional
         The name of the file, used in messages and results.
     input_sha256 : str, optional

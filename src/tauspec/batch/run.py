@@ -25,11 +25,12 @@ from typing import Any
 
 from .._version import __version__
 from ..data.read import decode_text, read_capped_bytes
+from ..data.record import record
 from ..data.write import atomic_write_text, dumps_json
 from ..errors import SettingsError, SweepError, TauspecError
 from .inputs import Input, find_inputs
 from .pipeline import process
-from .settings import Settings
+from .settings import BatchSettings
 from .store import SCHEMA, _error_files, _is_current, _sha256, _store
 from .summary import write_summary
 
@@ -42,7 +43,7 @@ WORKER_DIED = "the worker process died while processing this file (killed, or ou
 # --------------------------------------------------------------------------- running
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class BatchReport:
     """What one batch run did."""
 
@@ -60,11 +61,13 @@ class BatchReport:
         """Exit status: 0 when every file succeeded, 1 when any failed."""
         return 0 if self.failed == 0 else 1
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form."""
-        d = {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}
-        d["out"] = str(self.out)
+    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
         d["status"] = self.status
+        return d
+
+    @classmethod
+    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
+        d.pop("status", None)
         return d
 
 
@@ -150,7 +153,7 @@ def run_batch(
     paths: Sequence[str | os.PathLike[str]],
     out: str | os.PathLike[str],
     *,
-    settings: Settings | None = None,
+    settings: BatchSettings | None = None,
     jobs: int = 1,
     backend: str = "loky",
     scheduler: str | None = None,
@@ -167,7 +170,7 @@ def run_batch(
         Folders (searched recursively, see :func:`find_inputs`) and files.
     out : path-like
         The output folder (see docs/batch.md for its layout).
-    settings : Settings, optional
+    settings : BatchSettings, optional
     jobs : int
         Worker processes (loky) or local Dask workers; 1 runs in this process.
     backend : {"loky", "dask"}
@@ -186,7 +189,7 @@ def run_batch(
     -------
     BatchReport
     """
-    settings = settings or Settings()
+    settings = settings or BatchSettings()
     if not isinstance(jobs, int) or jobs < 1:
         raise SettingsError(f"--jobs must be a positive whole number, not {jobs!r}")
     if backend not in ("loky", "dask"):

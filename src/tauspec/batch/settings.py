@@ -1,101 +1,91 @@
-"""The settings of a batch run: one options object per pipeline step, read from a TOML file and validated once."""
+"""The settings of a batch run: the options objects of the pipeline steps, read from a TOML file, validated once.
+
+A settings file has one section per step, and each key is a field of that step's options record — the same
+records the Python API and the command line build::
+
+    [invert]            # InvertOptions: strength, select, grid, solvent, equilibrium_modulus, eta_s
+    [modes]             # run = false skips the step; ModesOptions: n_modes, significance, per_decade
+    [diagnose]          # run = false skips the step; DiagnoseOptions: intervals, use_spectrum
+
+The physical switches of ``[invert]`` (``solvent``, ``equilibrium_modulus``, ``eta_s``) hold for every step.
+"""
 
 from __future__ import annotations
 
 import dataclasses
 import hashlib
-import math
 import os
 import sys
 from collections.abc import Mapping
 from typing import Any
 
 from .._version import __version__
+from ..analysis.diagnosis.options import DiagnoseOptions
+from ..data.record import check_bool, field, record
 from ..data.write import dumps_json
 from ..errors import SettingsError
+from ..modes.options import ModesOptions
+from ..spectrum.options import InvertOptions
 
-__all__ = ["InvertOptions", "ModesOptions", "DiagnoseOptions", "Settings", "settings_from_mapping", "load_settings"]
+__all__ = ["BatchSettings", "SECTIONS", "settings_from_mapping", "load_settings"]
 
-
-# --------------------------------------------------------------------------- settings
-
-
-@dataclasses.dataclass(frozen=True, kw_only=True)
-class InvertOptions:
-    """Options of :func:`tauspec.spectrum.invert` used by the batch (TOML section ``[invert]``)."""
-
-    strength: str | float = "auto"
-    select: str = "lcurve"
-    grid: int | None = None
-    solvent: bool = True
-    plateau: bool = False
-    eta_s: float | None = None
-
-    def kwargs(self) -> dict[str, Any]:
-        """Keyword arguments for :func:`tauspec.spectrum.invert`."""
-        return dataclasses.asdict(self)
+#: TOML section -> (options record, the keys it offers there, whether it has a ``run`` switch).
+SECTIONS: dict[str, tuple[type, tuple[str, ...], bool]] = {
+    "invert": (InvertOptions, ("strength", "select", "grid", "solvent", "equilibrium_modulus", "eta_s"), False),
+    "modes": (ModesOptions, ("n_modes", "significance", "per_decade"), True),
+    "diagnose": (DiagnoseOptions, ("intervals", "use_spectrum"), True),
+}
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
-class ModesOptions:
-    """Options of :func:`tauspec.modes.fit_modes` (TOML section ``[modes]``); ``run = false`` skips the step.
-
-    ``solvent``, ``plateau`` and ``eta_s`` are those of ``[invert]``: one physical choice for every step.
-    """
-
-    run: bool = True
-    n_modes: int | None = None
-    alpha: float = 0.01
-    per_decade: float = 2.0
-
-    def kwargs(self) -> dict[str, Any]:
-        """Keyword arguments for :func:`tauspec.modes.fit_modes` (without ``run``)."""
-        return {k: v for k, v in dataclasses.asdict(self).items() if k != "run"}
-
-
-@dataclasses.dataclass(frozen=True, kw_only=True)
-class DiagnoseOptions:
-    """Options of :func:`tauspec.diagnosis.diagnose` (TOML section ``[diagnose]``); ``run = false`` skips it.
-
-    ``solvent`` is that of ``[invert]``; the diagnosis uses the batch's spectrum.
-    """
-
-    run: bool = True
-    intervals: bool = True
-    use_spectrum: bool = True
-
-    def kwargs(self) -> dict[str, Any]:
-        """Keyword arguments for :func:`tauspec.diagnosis.diagnose` (without ``run``)."""
-        return {k: v for k, v in dataclasses.asdict(self).items() if k != "run"}
-
-
-#: TOML section -> options class.
-_SECTIONS: dict[str, type] = {"invert": InvertOptions, "modes": ModesOptions, "diagnose": DiagnoseOptions}
-
-
-@dataclasses.dataclass(frozen=True, kw_only=True)
-class Settings:
+@record
+class BatchSettings:
     """Everything that decides a batch result, passed explicitly to every worker.
 
-    ``plots`` only decides whether figures are drawn; it is not part of
-    :meth:`digest` (a rerun with ``plots`` draws the missing figures).
+    ``modes`` and ``diagnose`` carry the physical switches of ``invert`` (made so here, once);
+    ``run_modes`` and ``run_diagnose`` say whether those steps run.  ``plots`` only decides whether figures
+    are drawn; it is not part of :meth:`digest` (a rerun with ``plots`` draws the missing figures).
     """
 
-    invert: InvertOptions = dataclasses.field(default_factory=InvertOptions)
-    modes: ModesOptions = dataclasses.field(default_factory=ModesOptions)
-    diagnose: DiagnoseOptions = dataclasses.field(default_factory=DiagnoseOptions)
-    plots: bool = False
+    invert: InvertOptions = field(default_factory=InvertOptions)
+    modes: ModesOptions = field(default_factory=ModesOptions)
+    diagnose: DiagnoseOptions = field(default_factory=DiagnoseOptions)
+    run_modes: bool = True
+    run_diagnose: bool = True
+    plots: bool = field(default=False, transient=True)
+
+    def __post_init__(self) -> None:
+        for name in ("run_modes", "run_diagnose", "plots"):
+            check_bool(name, getattr(self, name))
+        inv = self.invert
+        object.__setattr__(self, "modes", dataclasses.replace(
+            self.modes, solvent=inv.solvent, equilibrium_modulus=inv.equilibrium_modulus, eta_s=inv.eta_s))
+        object.__setattr__(self, "diagnose", dataclasses.replace(self.diagnose, solvent=inv.solvent))
 
     @property
     def steps(self) -> tuple[str, ...]:
         """The pipeline steps these settings run, in order."""
-        return ("read", "invert") + tuple(name for name in ("modes", "diagnose") if getattr(self, name).run)
+        return ("read", "invert") + (("modes",) if self.run_modes else ()) + (("diagnose",) if self.run_diagnose
+                                                                             else ())
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form: one object per section, and the pipeline steps."""
-        d: dict[str, Any] = {name: dataclasses.asdict(getattr(self, name)) for name in _SECTIONS}
-        d["steps"] = list(self.steps)
-        return d
+    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
+        """The TOML form: one object per section (its keys, and ``run``), then the pipeline steps."""
+        out: dict[str, Any] = {}
+        for section, (_, keys, has_run) in SECTIONS.items():
+            table = {"run": getattr(self, f"run_{section}")} if has_run else {}
+            table.update({k: d[section][k] for k in keys})
+            out[section] = table
+        out["steps"] = list(self.steps)
+        return out
+
+    @classmethod
+    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
+        out: dict[str, Any] = {}
+        for section, (_, keys, has_run) in SECTIONS.items():
+            table = dict(d.get(section) or {})
+            if has_run:
+                out[f"run_{section}"] = table.pop("run", True)
+            out[section] = {k: v for k, v in table.items() if k in keys}
+        return out
 
     def digest(self) -> str:
         """Return the sha256 of the settings, the steps and the tauspec version (the resume key)."""
@@ -103,69 +93,43 @@ class Settings:
         return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
-def _check_value(section: str, key: str, value: Any, source: str) -> Any:
-    where = f"[{section}] {key}"
-    number = isinstance(value, int | float) and not isinstance(value, bool)
-    if key in ("solvent", "plateau", "intervals", "use_spectrum", "run"):
-        if not isinstance(value, bool):
-            raise SettingsError(f"{where} must be true or false, not {value!r}", source)
-    elif key == "strength":
-        if not (value == "auto" or (number and value > 0 and math.isfinite(value))):
-            raise SettingsError(f"{where} must be \"auto\" or a positive number, not {value!r}", source)
-        value = value if value == "auto" else float(value)
-    elif key == "select":
-        if value not in ("lcurve", "gcv"):
-            raise SettingsError(f"{where} must be \"lcurve\" or \"gcv\", not {value!r}", source)
-    elif key == "grid":
-        if not (isinstance(value, int) and not isinstance(value, bool) and 10 <= value <= 2000):
-            raise SettingsError(f"{where} must be a whole number of τ points from 10 to 2000, not {value!r}", source)
-    elif key == "n_modes":
-        if not (isinstance(value, int) and not isinstance(value, bool) and 0 <= value <= 50):
-            raise SettingsError(f"{where} must be a whole number of modes from 0 to 50, not {value!r}", source)
-    elif key == "alpha":
-        if not (number and 0 < value < 1):
-            raise SettingsError(f"{where} must be a significance level between 0 and 1, not {value!r}", source)
-        value = float(value)
-    elif key == "per_decade":
-        if not (number and 0 < value <= 10):
-            raise SettingsError(f"{where} must be a number of modes per decade in (0, 10], not {value!r}", source)
-        value = float(value)
-    elif key == "eta_s":
-        if not (number and value >= 0 and math.isfinite(value)):
-            raise SettingsError(f"{where} must be a nonnegative viscosity in Pa·s, not {value!r}", source)
-        value = float(value)
-    return value
-
-
 def settings_from_mapping(mapping: Mapping[str, Any], *, source: str = "<settings>",
-                          plots: bool = False) -> Settings:
-    """Build :class:`Settings` from a mapping of sections (as read from TOML); unknown keys are refused.
+                          plots: bool = False) -> BatchSettings:
+    """Build :class:`BatchSettings` from a mapping of sections (as read from TOML); unknown keys are refused.
 
     Raises
     ------
     SettingsError
-        For an unknown section or key, or a value of the wrong kind.
+        For an unknown section or key, or a value outside its range (one line naming ``[section] key``).
     """
-    sections: dict[str, Any] = {}
+    parts: dict[str, Any] = {}
     for name, table in mapping.items():
-        if name not in _SECTIONS:
+        if name not in SECTIONS:
             raise SettingsError(f"unknown section or key {name!r}; known sections: "
-                                f"{', '.join(f'[{s}]' for s in _SECTIONS)}", source)
+                                f"{', '.join(f'[{s}]' for s in SECTIONS)}", source)
         if not isinstance(table, Mapping):
             raise SettingsError(f"{name!r} must be a section [{name}] of keys", source)
-        cls = _SECTIONS[name]
-        known = [f.name for f in dataclasses.fields(cls)]
+        cls, keys, has_run = SECTIONS[name]
+        known = (("run",) if has_run else ()) + keys
         unknown = sorted(set(table) - set(known))
         if unknown:
             raise SettingsError(f"unknown key {unknown[0]!r} in [{name}]; known keys: {', '.join(known)}", source)
-        sections[name] = cls(**{k: _check_value(name, k, v, source) for k, v in table.items()})
-    return Settings(plots=plots, **sections)
+        values = dict(table)
+        try:
+            if has_run:
+                run = values.pop("run", True)
+                check_bool("run", run)
+                parts[f"run_{name}"] = run
+            parts[name] = cls(**values)
+        except SettingsError as exc:
+            raise SettingsError(f"[{name}] {exc.reason}", source) from None
+    return BatchSettings(plots=plots, **parts)
 
 
-def load_settings(path: str | os.PathLike[str] | None, *, plots: bool = False) -> Settings:
+def load_settings(path: str | os.PathLike[str] | None, *, plots: bool = False) -> BatchSettings:
     """Read a TOML settings file (sections ``[invert]`` ...); ``None`` gives the defaults."""
     if path is None:
-        return Settings(plots=plots)
+        return BatchSettings(plots=plots)
     if sys.version_info >= (3, 11):
         import tomllib
     else:  # pragma: no cover - Python 3.10

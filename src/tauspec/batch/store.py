@@ -10,12 +10,12 @@ from typing import Any
 
 from ..data.write import atomic_write_bytes, dumps_json
 from .inputs import Input
-from .settings import Settings
+from .settings import BatchSettings
 
 __all__ = ["SCHEMA", "RESULT_FILES", "FIGURES"]
 
 
-SCHEMA = "tauspec.batch/1"
+SCHEMA = "tauspec.batch/1.1"
 
 
 #: Every file the pipeline may write into a result folder (stale ones are removed when a result changes).
@@ -23,7 +23,7 @@ RESULT_FILES = ("spectrum.csv", "fit.csv", "modes.csv", "fit.png", "spectrum.png
 FIGURES = ("fit.png", "spectrum.png", "lcurve.png")
 
 
-def _header(file: str, input_sha: str | None, settings: Settings, status: str = "ok", error: str | None = None,
+def _header(file: str, input_sha: str | None, settings: BatchSettings, status: str = "ok", error: str | None = None,
             retry: bool = False) -> dict[str, Any]:
     return {"schema": SCHEMA, "file": file, "status": status, "error": error, "retry": retry,
             "input_sha256": input_sha, "settings_sha256": settings.digest()}
@@ -76,7 +76,8 @@ def _store(out: Path, inp: Input, files: Mapping[str, str | bytes]) -> None:
         atomic_write_bytes(folder / name, data, fsync=name == "result.json")
 
 
-def _error_files(inp: Input, message: str, input_sha: str | None, settings: Settings, retry: bool) -> dict[str, str]:
+def _error_files(inp: Input, message: str, input_sha: str | None, settings: BatchSettings,
+                 retry: bool) -> dict[str, str]:
     result = _header(inp.file, input_sha, settings, "error", message, retry)
     result["notes"] = []
     return {"result.json": dumps_json(result) + "\n"}

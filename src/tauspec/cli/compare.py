@@ -7,28 +7,27 @@ Each FILE is a sweep file (inverted with the ``invert`` options), a ``result.jso
 from __future__ import annotations
 
 import argparse
-import csv
-import json
-import math
 from pathlib import Path
 from typing import Any
 
+from ..analysis.comparison.options import CompareOptions
+from ..data.manifest import MANIFEST_COLUMNS, ManifestEntry, read_manifest
 from ..data.read import read_sweep
-from ..data.units import temperature_kelvin
 from ..data.write import atomic_write_text, dumps_json, write_csv
 from ..errors import SettingsError, TauspecError
+from ..spectrum.options import InvertOptions
 from . import invert as invert_command
 from .common import each_file
+from .options import add_options, options_from_args
 
-__all__ = ["add_arguments", "run", "load_result", "read_manifest"]
+__all__ = ["add_arguments", "run", "load_result"]
 
 
-MANIFEST_COLUMNS = ("file", "M", "c", "T", "label")
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
     """Register the options of ``compare`` (the ``invert`` options apply to sweep files)."""
-    invert_command.add_inversion_options(p)
+    invert_command.add_inversion_options(p, modes=False)
     for action in p._actions:
         if action.dest == "files":
             action.help = "sweep files, result.json files or result folders written by 'tauspec invert --out'"
@@ -39,118 +38,63 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--manifest", metavar="CSV", default=None,
                    help="CSV with columns file,M,c,T,label giving molecular weight, concentration, "
                         "temperature and a label per file (overrides the '# key: value' metadata)")
-    p.add_argument("--replicates", type=int, default=None, metavar="N",
-                   help="replicate spectra per sample for the shape test and the intervals (default 12; 0: none)")
-    p.add_argument("--level", type=float, default=None, help="level of the shape test (default 0.05)")
-    p.add_argument("--seed", type=int, default=0, help="seed of the resampling (default 0)")
-    p.add_argument("--fixed-strength", action="store_true",
-                   help="keep each sample's own strength λ in its replicates instead of re-choosing it (faster)")
+    add_options(p, CompareOptions)
     p.add_argument("--diagnose", action="store_true",
                    help="run the bead-spring diagnosis for Rouse parameter ratios and τ_R in the series")
 
 
-def load_result(path: str, settings: dict[str, Any]) -> tuple[Any, Any]:
+def load_result(path: str, options: InvertOptions) -> tuple[Any, Any]:
     """Return (Spectrum, stored diagnosis or None) from a sweep file (inverted), a result.json, or its folder.
 
     A result.json is either a spectrum (``tauspec invert --out``) or a batch result wrapping one (with its
     diagnosis, when the batch made one).
     """
-    from ..output.results import diagnosis_from_dict, spectrum_from_dict
+    from ..output.results import diagnosis_from_result, read_result_json, spectrum_from_result
     from ..spectrum.invert import invert
 
     p = Path(path)
-    if p.is_dir():
-        p = p / "result.json"
-        if not p.is_file():
-            raise TauspecError("folder has no result.json (write one with 'tauspec invert --out')", path)
-    if p.suffix.lower() == ".json":
-        try:
-            data = json.loads(p.read_text(encoding="utf-8"))
-        except FileNotFoundError:
-            raise TauspecError("no such file", str(p)) from None
-        except (OSError, UnicodeDecodeError) as exc:
-            raise TauspecError(f"cannot read ({exc})", str(p)) from None
-        except json.JSONDecodeError as exc:
-            raise TauspecError(f"not valid JSON ({exc.msg})", str(p), exc.lineno) from None
-        return spectrum_from_dict(data, str(p)), diagnosis_from_dict(data)
-    return invert(read_sweep(path), **settings), None
+    if p.is_dir() or p.suffix.lower() == ".json":
+        data = read_result_json(p)
+        return spectrum_from_result(data, str(p)), diagnosis_from_result(data)
+    return invert(read_sweep(path), options), None
 
 
-def _number(text: str, what: str, source: str, line: int) -> float | None:
-    text = (text or "").strip()
-    if not text:
-        return None
-    try:
-        value = float(text)
-    except ValueError:
-        raise SettingsError(f"{what} {text!r} is not a number", source, line) from None
-    if not (value > 0 and math.isfinite(value)):
-        raise SettingsError(f"{what} must be positive, not {text!r}", source, line)
-    return value
-
-
-def read_manifest(path: str) -> dict[str, dict[str, Any]]:
-    """Read a manifest CSV ``file,M,c,T,label``; return a mapping from the file column to its values.
-
-    Empty cells mean "not given".  T is in °C unless written with K (e.g. ``403.15 K``).
-    """
-    try:
-        text = Path(path).read_text(encoding="utf-8-sig")
-    except OSError as exc:
-        raise SettingsError(f"cannot read the manifest ({exc.strerror or exc})", path) from None
-    rows = list(csv.reader(line for line in text.splitlines() if line.strip() and not line.startswith("#")))
-    if not rows:
-        raise SettingsError("the manifest is empty", path)
-    header = [h.strip() for h in rows[0]]
-    if "file" not in header:
-        raise SettingsError(f"the manifest needs a header row with the columns {','.join(MANIFEST_COLUMNS)}", path, 1)
-    unknown = set(header) - set(MANIFEST_COLUMNS)
-    if unknown:
-        raise SettingsError(f"unknown manifest columns {sorted(unknown)} (allowed: {','.join(MANIFEST_COLUMNS)})",
-                            path, 1)
-    out: dict[str, dict[str, Any]] = {}
-    for k, row in enumerate(rows[1:], start=2):
-        cells = dict(zip(header, (c.strip() for c in row)))
-        name = cells.get("file", "")
-        if not name:
-            raise SettingsError("a manifest row has no file", path, k)
-        T = None
-        if cells.get("T"):
-            try:
-                T = temperature_kelvin(cells["T"])
-            except ValueError as exc:
-                raise SettingsError(f"T {cells['T']!r}: {exc}", path, k) from None
-        out[name] = {"M": _number(cells.get("M", ""), "M", path, k), "c": _number(cells.get("c", ""), "c", path, k),
-                     "T": T, "label": cells.get("label") or None}
-    return out
-
-
-def _manifest_entry(manifest: dict[str, dict[str, Any]], path: str) -> dict[str, Any]:
-    if path in manifest:
-        return manifest[path]
+def _manifest_entry(manifest: list[ManifestEntry], path: str) -> ManifestEntry | None:
+    """The manifest row of a FILE argument: the same path as written, the same file, or a unique file name."""
+    for entry in manifest:
+        if entry.file == path:
+            return entry
     resolved = Path(path).resolve()
-    for key, value in manifest.items():
-        if Path(key).resolve() == resolved:
-            return value
-    by_name = [v for k, v in manifest.items() if Path(k).name == Path(path).name]
-    return by_name[0] if len(by_name) == 1 else {}
+    for entry in manifest:
+        if Path(entry.file).resolve() == resolved or entry.path.resolve() == resolved:
+            return entry
+    by_name = [e for e in manifest if Path(e.file).name == Path(path).name]
+    return by_name[0] if len(by_name) == 1 else None
+
+
+def _read_manifest(path: str) -> list[ManifestEntry]:
+    """The manifest of ``--manifest``; compare uses M, c, T and label and refuses other columns."""
+    entries = read_manifest(path)
+    extra = sorted({k for e in entries for k in e.extra})
+    if extra:
+        raise SettingsError(f"unknown manifest columns {extra} (allowed: {','.join(MANIFEST_COLUMNS)})", path, 1)
+    return entries
 
 
 def run(args: argparse.Namespace) -> int:
     """Load every sample, compare them and print the result (one JSON object with --json)."""
     from ..analysis.comparison.compare import compare
-    from ..analysis.comparison.replicates import N_REPLICATES
-    from ..analysis.comparison.shape import LEVEL
     from ..output.figures.overlay import save_overlay
 
     files = list(each_file(args.files))
     if len(files) < 2:
         raise SettingsError("compare needs at least two files")
-    settings = invert_command.invert_settings(args)
+    options = options_from_args(args, CompareOptions)
+    inversion = invert_command.invert_options(args)
     spectra, stored = [], []
     for f in files:
         try:
-            spectrum, diagnosis = load_result(f, settings)
+            spectrum, diagnosis = load_result(f, inversion)
         except TauspecError as exc:
             if exc.source is None:
                 exc = type(exc)(exc.reason, f, exc.line)
@@ -159,10 +103,11 @@ def run(args: argparse.Namespace) -> int:
         stored.append(diagnosis)
     # stored diagnoses (batch results) are used unless --diagnose asks for fresh ones
     diagnoses = stored if any(d is not None for d in stored) and not args.diagnose else None
-    manifest = read_manifest(args.manifest) if args.manifest else {}
+    manifest = _read_manifest(args.manifest) if args.manifest else []
     entries = [_manifest_entry(manifest, f) for f in files]
-    metadata = [{k: e.get(k) for k in ("M", "c", "T")} for e in entries]
-    labels = [e.get("label") or sp.sample or Path(f).stem for e, sp, f in zip(entries, spectra, files)]
+    metadata = [{"M": e.M, "c": e.c, "T": e.T} if e is not None else {} for e in entries]
+    labels = [(e.label if e is not None else None) or sp.sample or Path(f).stem
+              for e, sp, f in zip(entries, spectra, files)]
     if len(set(labels)) < len(labels):  # sample names repeat: fall back to the files as given
         labels = files
     reference = None
@@ -172,11 +117,8 @@ def run(args: argparse.Namespace) -> int:
         if not matches:
             raise SettingsError(f"--reference {args.reference!r} is not one of the FILEs")
         reference = matches[0]
-    result = compare(spectra, labels=labels, reference=reference, metadata=metadata,
-                     replicates=N_REPLICATES if args.replicates is None else args.replicates,
-                     level=LEVEL if args.level is None else args.level, seed=args.seed, diagnose=args.diagnose,
-                     diagnoses=diagnoses,
-                     reselect=not args.fixed_strength)
+    result = compare(spectra, options, labels=labels, reference=reference, metadata=metadata,
+                     diagnose=args.diagnose, diagnoses=diagnoses)
     data = result.to_dict()
     if args.out is not None:
         out = Path(args.out)

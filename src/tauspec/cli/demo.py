@@ -25,7 +25,7 @@ def run(args: argparse.Namespace) -> int:
     Exit status 0 when the only failure is the archive's deliberately corrupted export.
     """
     from ..batch.run import run_batch
-    from ..batch.settings import Settings
+    from ..batch.settings import BatchSettings
     from ..batch.summary import read_summary, summary_table
     from ..output.report import write_report
     from .demo_archive import CORRUPTED, write_demo_archive
@@ -35,7 +35,7 @@ def run(args: argparse.Namespace) -> int:
     print(f"demo archive: {len(files)} sweep files in {archive} (an invented coatings lab; see tauspec/demo.py)")
     print(f"running: tauspec batch {archive} --out {results} --jobs {args.jobs}" + (" --plots" if args.plots else ""))
     sys.stdout.flush()
-    report = run_batch([archive], results, settings=Settings(plots=args.plots), jobs=args.jobs,
+    report = run_batch([archive], results, settings=BatchSettings(plots=args.plots), jobs=args.jobs,
                        progress=sys.stderr.isatty())
     rows = read_summary(results)
     print()

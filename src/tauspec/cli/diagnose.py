@@ -5,7 +5,9 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
+from ..analysis.diagnosis.options import DiagnoseOptions
 from .common import add_output_arguments, output_dir_for, run_each_file
+from .options import add_options, options_from_args
 
 __all__ = ["add_arguments", "run"]
 
@@ -14,9 +16,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     """Register the options of ``diagnose``."""
     p.add_argument("files", nargs="+", metavar="FILE", help="sweep files (text tables with a header row)")
     add_output_arguments(p)
-    p.add_argument("--no-spectrum", action="store_true",
-                   help="skip the continuous-spectrum tests (faster; they are then listed as not made)")
-    p.add_argument("--no-solvent", dest="solvent", action="store_false", help="do not fit a solvent viscosity η_s")
+    add_options(p, DiagnoseOptions)
 
 
 def run(args: argparse.Namespace) -> int:
@@ -25,9 +25,11 @@ def run(args: argparse.Namespace) -> int:
     from ..data.read import read_sweep
     from ..data.write import atomic_write_text, dumps_json
 
+    options = options_from_args(args, DiagnoseOptions)
+
     def work(path: str) -> tuple[dict, str]:
         sweep = read_sweep(path)
-        diag = diagnose(sweep, use_spectrum=not args.no_spectrum, solvent=args.solvent)
+        diag = diagnose(sweep, options)
         result = diag.to_dict()
         out = output_dir_for(args, path)
         if out is not None:

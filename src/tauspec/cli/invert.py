@@ -8,13 +8,15 @@ from typing import Any
 
 from ..data.read import read_sweep
 from ..data.write import atomic_write_text, dumps_json
-from ..errors import SettingsError
+from ..modes.options import ModesOptions
 from ..output.results import modes_entries
 from ..output.tables import spectrum_tables, write_modes_csv
 from ..spectrum.invert import invert
+from ..spectrum.options import InvertOptions
 from ..spectrum.result import Spectrum
 from .bands import add_band_arguments, band_fields, band_settings
 from .common import add_output_arguments, output_dir_for, run_each_file
+from .options import add_options, options_from_args
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -23,55 +25,34 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     add_band_arguments(p)
 
 
-def add_inversion_options(p: argparse.ArgumentParser) -> None:
+def add_inversion_options(p: argparse.ArgumentParser, *, modes: bool = True) -> None:
     """Register the files, output and inversion options (shared with commands that invert sweeps)."""
     p.add_argument("files", nargs="+", metavar="FILE", help="sweep files (text tables with a header row)")
     add_output_arguments(p)
-    p.add_argument("--strength", default="auto", metavar="auto|VALUE",
-                   help="regularization strength λ: 'auto' (default) or a positive number")
-    p.add_argument("--select", default="lcurve", choices=["lcurve", "gcv"],
-                   help="rule for --strength auto: L-curve corner (default) or GCV")
-    p.add_argument("--grid", type=int, default=None, metavar="N", help="number of τ grid points")
-    p.add_argument("--no-solvent", dest="solvent", action="store_false", help="do not fit a solvent viscosity η_s")
-    p.add_argument("--plateau", action="store_true", help="fit an equilibrium modulus G_e (gels, solids)")
-    p.add_argument("--eta-s", type=float, default=None, metavar="PA_S",
-                   help="known solvent viscosity in Pa·s (subtracted instead of fitted)")
-    p.add_argument("--no-modes", dest="modes", action="store_false",
-                   help="skip the discrete Maxwell modes and the numbers derived from them")
+    add_options(p, InvertOptions)
+    if modes:
+        p.add_argument("--no-modes", dest="modes", action="store_false",
+                       help="skip the discrete Maxwell modes and the numbers derived from them")
+        add_options(p, ModesOptions)
 
 
-def strength_value(text: str) -> str | float:
-    """Parse ``--strength``: 'auto' or a positive number."""
-    if text == "auto":
-        return "auto"
-    try:
-        value = float(text)
-    except ValueError:
-        raise SettingsError(f"--strength must be 'auto' or a positive number, not {text!r}") from None
-    if not value > 0:
-        raise SettingsError(f"--strength must be positive, not {text!r}")
-    return value
-
-
-def invert_settings(args: argparse.Namespace) -> dict:
-    """Keyword arguments for :func:`tauspec.spectrum.invert` from the parsed options."""
-    return {
-        "strength": strength_value(args.strength),
-        "select": args.select,
-        "grid": args.grid,
-        "solvent": args.solvent,
-        "plateau": args.plateau,
-        "eta_s": args.eta_s,
-    }
+def invert_options(args: argparse.Namespace) -> InvertOptions:
+    """The inversion options from the parsed arguments."""
+    return options_from_args(args, InvertOptions)
 
 
 def add_modes(sweep: Any, spectrum: Spectrum, args: argparse.Namespace, result: dict) -> Any:
     """Fit Maxwell modes started from ``spectrum`` and add them to ``result`` (see :func:`modes_entries`)."""
     from ..modes.fit import fit_modes
 
-    modes = fit_modes(sweep, spectrum, solvent=args.solvent, plateau=args.plateau, eta_s=args.eta_s)
+    modes = fit_modes(sweep, spectrum, options_from_args(args, ModesOptions, **_physics(spectrum.options)))
     result.update(modes_entries(modes, spectrum))
     return modes
+
+
+def _physics(options: InvertOptions) -> dict[str, Any]:
+    """The physical switches of an inversion, which the modes share."""
+    return {"solvent": options.solvent, "equilibrium_modulus": options.equilibrium_modulus, "eta_s": options.eta_s}
 
 
 def modes_report(spectrum: Spectrum, modes: Any) -> str:
@@ -91,19 +72,20 @@ def write_spectrum_files(spectrum: Spectrum, out: Path, result: dict) -> None:
 
 def run(args: argparse.Namespace) -> int:
     """Invert every file; print JSON lines or a text report."""
-    settings = invert_settings(args)
-    bands_kw = band_settings(args) if args.bands else None
+    options = invert_options(args)
+    options_from_args(args, ModesOptions)  # refuse a bad --modes before any work
+    band_options = band_settings(args) if args.bands else None
 
     def work(path: str) -> tuple[dict, str]:
         sweep = read_sweep(path)
-        spectrum = invert(sweep, **settings)
+        spectrum = invert(sweep, options)
         result = spectrum.to_dict()
         modes = add_modes(sweep, spectrum, args, result) if getattr(args, "modes", True) else None
         bands = None
-        if bands_kw is not None:
+        if band_options is not None:
             from ..analysis.uncertainty.bands import confidence_bands
 
-            bands = confidence_bands(spectrum, **bands_kw)
+            bands = confidence_bands(spectrum, band_options)
             result.update(band_fields(bands))
         out = output_dir_for(args, path)
         if out is not None:

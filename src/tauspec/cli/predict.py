@@ -16,7 +16,9 @@ from typing import Any
 import numpy as np
 
 from ..errors import SettingsError, TauspecError
+from ..spectrum.options import InvertOptions
 from .common import add_output_arguments, output_dir_for, run_each_file
+from .options import add_options, options_from_args
 
 QUANTITIES = ("relaxation", "creep", "viscosity")
 _POINTS = 50
@@ -35,9 +37,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                              "default the measured frequency range")
     parser.add_argument("--basis", choices=("modes", "spectrum"), default="modes",
                         help="predict from the fitted Maxwell modes (default) or the continuous spectrum")
-    parser.add_argument("--no-solvent", dest="solvent", action="store_false",
-                        help="fit no solvent viscosity eta_s")
-    parser.add_argument("--plateau", action="store_true", help="fit an equilibrium modulus G_e")
+    add_options(parser, InvertOptions, only=("solvent", "equilibrium_modulus"))
     add_output_arguments(parser)
 
 
@@ -71,13 +71,15 @@ def _output_paths(args: argparse.Namespace, path: str) -> tuple[Path, Path]:
 
 def _basis(sweep: Any, args: argparse.Namespace) -> tuple[Any, Any]:
     from ..modes.fit import fit_modes
+    from ..modes.options import ModesOptions
 
+    options = options_from_args(args, InvertOptions, only=("solvent", "equilibrium_modulus"))
     spectrum = None
     if args.basis == "spectrum":
         from ..spectrum.invert import invert
 
-        spectrum = invert(sweep, solvent=args.solvent, plateau=args.plateau)
-    modes = fit_modes(sweep, spectrum, solvent=args.solvent, plateau=args.plateau)
+        spectrum = invert(sweep, options)
+    modes = fit_modes(sweep, spectrum, ModesOptions.like(options))
     return modes, spectrum
 
 
@@ -108,6 +110,7 @@ def predict_file(path: str, args: argparse.Namespace) -> dict[str, Any]:
     from ..data.write import atomic_write_text
     from ..modes.curves import creep_compliance, relaxation_modulus, shear_viscosity
     from ..modes.derived import derive, side_by_side
+    from ..output.results import modes_json
     from ..output.tables import curve_csv_text
 
     sweep = read_sweep(path)
@@ -133,7 +136,7 @@ def predict_file(path: str, args: argparse.Namespace) -> dict[str, Any]:
         "source": sweep.source,
         "quantity": args.quantity,
         "curve": curve.to_dict(),
-        "modes": modes.to_dict(),
+        "modes": modes_json(modes),
         "derived": derived.to_dict(),
         "files": {"csv": str(csv), "png": str(png) if args.plot else None},
         "_text": "\n".join([modes.report(), curve.report(), side_by_side(derived),

@@ -11,6 +11,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import SweepError
+from .record import field, record
 from .units import parse_quantity, temperature_kelvin
 
 __all__ = ["Sweep", "MIN_POINTS", "OMEGA_RANGE", "MODULUS_RANGE"]
@@ -35,7 +36,7 @@ def _frozen_array(values: Any, name: str, source: str) -> np.ndarray:
     return arr
 
 
-@dataclasses.dataclass(frozen=True, eq=False)
+@record
 class Sweep:
     """A frequency sweep: storage and loss moduli against angular frequency.
 
@@ -57,27 +58,27 @@ class Sweep:
         Where the sweep came from (a path), used in error messages.
     """
 
+    name: str = field(key="sample", default="sample")
+    source: str = ""
+    meta: Mapping[str, str] = field(default_factory=dict)
     omega: np.ndarray
     storage: np.ndarray
     loss: np.ndarray
-    name: str = "sample"
-    meta: Mapping[str, str] = dataclasses.field(default_factory=dict)
-    source: str = ""
 
     def __post_init__(self) -> None:
         src = self.source or self.name
         arrays = {}
-        for field in ("omega", "storage", "loss"):
-            arrays[field] = _frozen_array(getattr(self, field), field, src)
-            object.__setattr__(self, field, arrays[field])
+        for q in ("omega", "storage", "loss"):
+            arrays[q] = _frozen_array(getattr(self, q), q, src)
+            object.__setattr__(self, q, arrays[q])
         object.__setattr__(self, "meta", MappingProxyType(dict(self.meta)))
         problems = []
         n = {len(a) for a in arrays.values()}
         if len(n) != 1:
             raise SweepError("omega, storage and loss have different lengths", src)
-        for field, arr in arrays.items():
+        for q, arr in arrays.items():
             if not np.all(np.isfinite(arr)):
-                problems.append(f"{field} has non-finite values")
+                problems.append(f"{q} has non-finite values")
         if not problems:
             if np.any(arrays["omega"] <= 0):
                 problems.append("frequencies must be positive")
@@ -86,10 +87,10 @@ class Sweep:
             if np.any(arrays["storage"] <= 0) or np.any(arrays["loss"] <= 0):
                 problems.append("moduli must be positive")
         if not problems:
-            for field, (lo, hi), unit in (("omega", OMEGA_RANGE, "rad/s"), ("storage", MODULUS_RANGE, "Pa"),
+            for q, (lo, hi), unit in (("omega", OMEGA_RANGE, "rad/s"), ("storage", MODULUS_RANGE, "Pa"),
                                           ("loss", MODULUS_RANGE, "Pa")):
-                if np.any((arrays[field] < lo) | (arrays[field] > hi)):
-                    problems.append(f"{field} has values outside {lo:g}–{hi:g} {unit}, the range tauspec computes with")
+                if np.any((arrays[q] < lo) | (arrays[q] > hi)):
+                    problems.append(f"{q} has values outside {lo:g}–{hi:g} {unit}, the range tauspec computes with")
         if len(arrays["omega"]) < MIN_POINTS:
             problems.append(f"{len(arrays['omega'])} points; at least {MIN_POINTS} are needed")
         if problems:
@@ -131,14 +132,3 @@ class Sweep:
             except ValueError as exc:
                 raise SweepError(str(exc), self.source or self.name) from None
         return value
-
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form (SI arrays as lists)."""
-        return {
-            "sample": self.name,
-            "source": self.source,
-            "meta": dict(self.meta),
-            "omega": self.omega.tolist(),
-            "storage": self.storage.tolist(),
-            "loss": self.loss.tolist(),
-        }

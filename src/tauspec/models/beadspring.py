@@ -32,7 +32,6 @@ Bates, D. M. & Watts, D. G. (1988). *Nonlinear Regression Analysis and Its Appli
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from collections.abc import Sequence
 from typing import Any
@@ -40,6 +39,7 @@ from typing import Any
 import numpy as np
 from scipy import optimize
 
+from ..data.record import field, record
 from .chains import A_BOUNDS, N_MAX, NU_GOOD, _chain_unit, mode_times
 
 __all__ = ["MODELS", "BeadSpringFit", "fit_chain", "fit_all"]
@@ -58,7 +58,7 @@ MODELS: dict[str, tuple[str, float | None]] = {
 # --------------------------------------------------------------------------------------------- fitting
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class BeadSpringFit:
     """A bead-spring model fitted to one sweep.
 
@@ -71,11 +71,15 @@ class BeadSpringFit:
     model: str
     form: str
     G0: float
+    G0_ci: tuple[float, float] = (math.nan, math.nan)
     tau1: float
+    tau1_ci: tuple[float, float] = (math.nan, math.nan)
     N: float
     eta_s: float
     a: float
     a_free: bool
+    a_ci: tuple[float, float] = (math.nan, math.nan)
+    ci_method: str = "none"
     chi2: float
     n_data: int
     n_params: int
@@ -83,42 +87,25 @@ class BeadSpringFit:
     aic: float
     bic: float
     rms: float
-    storage_fit: np.ndarray
-    loss_fit: np.ndarray
-    G0_ci: tuple[float, float] = (math.nan, math.nan)
-    tau1_ci: tuple[float, float] = (math.nan, math.nan)
-    a_ci: tuple[float, float] = (math.nan, math.nan)
-    ci_method: str = "none"
     notes: tuple[str, ...] = ()
+    storage_fit: np.ndarray = field(transient=True, default=None)
+    loss_fit: np.ndarray = field(transient=True, default=None)
+
+    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
+        if not self.a_free:  # a held at its model value
+            d["a_ci"] = [self.a, self.a]
+        return d
+
+    @classmethod
+    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
+        if not d.get("a_free", True):
+            d.pop("a_ci", None)
+        return d
 
     def mode_times(self) -> np.ndarray:
         """Return the mode times of the fitted chain (N rounded to the nearest integer)."""
         return mode_times(self.tau1, max(1, round(self.N)), self.a, self.form)
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON-ready form (without the fitted curves)."""
-        return {
-            "model": self.model,
-            "form": self.form,
-            "G0": self.G0,
-            "G0_ci": list(self.G0_ci),
-            "tau1": self.tau1,
-            "tau1_ci": list(self.tau1_ci),
-            "N": self.N,
-            "eta_s": self.eta_s,
-            "a": self.a,
-            "a_free": self.a_free,
-            "a_ci": list(self.a_ci) if self.a_free else [self.a, self.a],
-            "ci_method": self.ci_method,
-            "chi2": self.chi2,
-            "n_data": self.n_data,
-            "n_params": self.n_params,
-            "reduced_chi2": self.reduced_chi2,
-            "aic": self.aic,
-            "bic": self.bic,
-            "rms": self.rms,
-            "notes": list(self.notes),
-        }
 
 
 class _Problem:

@@ -33,12 +33,13 @@ Burnham, K. P. & Anderson, D. R. (2002). *Model Selection and Multimodel Inferen
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from typing import Any
 
 import numpy as np
 from scipy import optimize
+
+from ..data.record import field, record
 
 __all__ = [
     "GAS_CONSTANT",
@@ -74,7 +75,7 @@ def arrhenius_log_aT(T: Any, T_ref: float, Ea: float) -> np.ndarray:
     return Ea / GAS_CONSTANT * (1.0 / T - 1.0 / T_ref) / math.log(10.0)
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class WLFFit:
     """The WLF constants at ``T_ref`` with 95 % intervals.
 
@@ -84,11 +85,11 @@ class WLFFit:
     explored range (the data look Arrhenius-like, or C2 is not determined).
     """
 
-    T_ref: float
     C1: float
     C2: float
     C1_ci: tuple[float, float]
     C2_ci: tuple[float, float]
+    T_ref: float = field(key="T_ref_K")
     chi2: float
     dof: int
     aic: float
@@ -99,28 +100,15 @@ class WLFFit:
         """Return the fitted log10 a_T at temperatures ``T`` (K)."""
         return wlf_log_aT(T, self.T_ref, self.C1, self.C2)
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form."""
-        return {
-            "C1": self.C1,
-            "C2": self.C2,
-            "C1_ci": list(self.C1_ci),
-            "C2_ci": list(self.C2_ci),
-            "T_ref_K": self.T_ref,
-            "chi2": self.chi2,
-            "dof": self.dof,
-            "aic": self.aic,
-            "at_bound": self.at_bound,
-        }
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class ArrheniusFit:
     """The Arrhenius activation energy ``Ea`` (J/mol) at ``T_ref`` with its 95 % interval."""
 
-    T_ref: float
     Ea: float
     Ea_ci: tuple[float, float]
+    T_ref: float = field(key="T_ref_K")
     chi2: float
     dof: int
     aic: float
@@ -129,16 +117,6 @@ class ArrheniusFit:
         """Return the fitted log10 a_T at temperatures ``T`` (K)."""
         return arrhenius_log_aT(T, self.T_ref, self.Ea)
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form (Ea in J/mol)."""
-        return {
-            "Ea": self.Ea,
-            "Ea_ci": list(self.Ea_ci),
-            "T_ref_K": self.T_ref,
-            "chi2": self.chi2,
-            "dof": self.dof,
-            "aic": self.aic,
-        }
 
 
 def _pairs(temperatures: np.ndarray, shifts: np.ndarray, errors: np.ndarray):

@@ -2,11 +2,11 @@
 
 from __future__ import annotations
 
-import dataclasses
 from typing import Any
 
 import numpy as np
 
+from ..data.record import insert_after, record
 from ..errors import SettingsError
 from ..spectrum.kernels import modes_moduli
 from .basis import FLAG_SHARE, _as_set, _Set, _share
@@ -18,17 +18,17 @@ __all__ = ["Curve", "relaxation_modulus", "creep_compliance", "complex_viscosity
 # --------------------------------------------------------------------------- curves
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True, eq=False)
+@record
 class Curve:
     """A predicted material function on a set of abscissae, with per-point out-of-window shares."""
 
     quantity: str
-    x: np.ndarray
-    y: np.ndarray
     x_name: str
     x_unit: str
     y_name: str
     y_unit: str
+    x: np.ndarray
+    y: np.ndarray
     outside_share: np.ndarray
     basis: str
     method: str
@@ -45,22 +45,13 @@ class Curve:
         """True where more than 5 % of the value comes from outside the supported window."""
         return self.outside_share > FLAG_SHARE
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form."""
-        return {
-            "quantity": self.quantity,
-            "x_name": self.x_name,
-            "x_unit": self.x_unit,
-            "y_name": self.y_name,
-            "y_unit": self.y_unit,
-            "x": self.x.tolist(),
-            "y": self.y.tolist(),
-            "outside_share": self.outside_share.tolist(),
-            "flags": self.flags.tolist(),
-            "basis": self.basis,
-            "method": self.method,
-            "window": None if self.window is None else list(self.window),
-        }
+    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
+        return insert_after(d, "outside_share", "flags", self.flags.tolist())
+
+    @classmethod
+    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
+        d.pop("flags", None)
+        return d
 
     def report(self) -> str:
         """Return a short description in words, including where the curve leans on the unsupported spectrum."""

@@ -39,7 +39,6 @@ Tschoegl, N. W. (1989). *The Phenomenological Theory of Linear Viscoelastic Beha
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from collections.abc import Mapping
 from types import MappingProxyType
@@ -47,6 +46,7 @@ from typing import Any
 
 import numpy as np
 
+from ..data.record import field, record
 from .basis import FLAG_SHARE, LONGEST_SHARE, _as_set, _Set, _share
 
 __all__ = ["Derived", "derive", "side_by_side"]
@@ -88,7 +88,7 @@ _SCALAR_WORDS = {
 }
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True, eq=False)
+@record
 class Derived:
     """The derived numbers of one mode set or spectrum, with their out-of-window shares and flags.
 
@@ -110,42 +110,24 @@ class Derived:
         For each quantity, which side of the window contributes more: ``"long"`` or ``"short"`` times.
     """
 
-    basis: str
     eta0: float
     Je0: float
-    Je0_polymer: float
     tau_n: float
     tau_w: float
     tau_longest: float
+    flags: Mapping[str, bool]
+    outside_share: Mapping[str, float]
+    outside_side: Mapping[str, str] = field(default_factory=dict)
+    Je0_polymer: float
     eta_s: float
     G_e: float
     window: tuple[float, float] | None
-    outside_share: Mapping[str, float]
-    flags: Mapping[str, bool]
-    outside_side: Mapping[str, str] = dataclasses.field(default_factory=dict)
-    notes: tuple[str, ...] = ()
+    basis: str
+    notes: tuple[str, ...] = field(default=(), transient=True)
 
     def __post_init__(self) -> None:
         for name in ("outside_share", "flags", "outside_side"):
             object.__setattr__(self, name, MappingProxyType(dict(getattr(self, name))))
-
-    def to_dict(self) -> dict[str, Any]:
-        """Return the ``derived`` object of the JSON output."""
-        return {
-            "eta0": self.eta0,
-            "Je0": self.Je0,
-            "tau_n": self.tau_n,
-            "tau_w": self.tau_w,
-            "tau_longest": self.tau_longest,
-            "flags": dict(self.flags),
-            "outside_share": dict(self.outside_share),
-            "outside_side": dict(self.outside_side),
-            "Je0_polymer": self.Je0_polymer,
-            "eta_s": self.eta_s,
-            "G_e": self.G_e,
-            "window": None if self.window is None else list(self.window),
-            "basis": self.basis,
-        }
 
     def report(self) -> str:
         """Return the numbers in words, saying which lean on the spectrum outside the window."""

@@ -30,9 +30,11 @@ from typing import Any
 
 import numpy as np
 
+from ..data.record import resolve_options
 from ..errors import SettingsError, WeakResultWarning
 from ..spectrum.kernels import loss_kernel, modes_moduli, quadrature_weights, storage_kernel
 from ..spectrum.window import outside_mask, supported_window
+from .options import ModesOptions
 from .problem import _NEAR, _NEGLIGIBLE, _TAU_MARGIN, _Fit, _Problem
 from .result import ModeCandidate, Modes
 from .starts import _clusters, _grown_starts, _lumps, _nnls_start, _not_duplicate, _peaks
@@ -78,7 +80,7 @@ def _no_modes(prob: _Problem) -> _Fit:
     cols = []
     if prob.solvent:
         cols.append(np.concatenate([np.zeros_like(w), prob.eta_ref * w / prob.loss]))
-    if prob.plateau:
+    if prob.equilibrium_modulus:
         cols.append(np.concatenate([prob.G_ref / prob.storage, np.zeros_like(w)]))
     x, _ = nnls(np.column_stack(cols), prob.target())
     _, _, eta_s, G_e = prob.unpack(x)
@@ -116,17 +118,7 @@ def _covariance(prob: _Problem, fit: _Fit) -> np.ndarray:
     return cov
 
 
-def fit_modes(
-    sweep: Any,
-    spectrum: Any = None,
-    *,
-    solvent: bool = True,
-    plateau: bool = False,
-    n_modes: int | None = None,
-    alpha: float = 0.01,
-    per_decade: float = 2.0,
-    eta_s: float | None = None,
-) -> Modes:
+def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = None, **changes: Any) -> Modes:
     """Fit nonnegative discrete Maxwell modes to a frequency sweep.
 
     Parameters
@@ -137,22 +129,11 @@ def fit_modes(
         A continuous spectrum with attributes ``tau`` and ``H`` (and ``eta_s``,
         ``G_e``); its lumps of H d ln τ start the fit.  Without it the start is
         unregularized NNLS on a fine grid (Jakeš 1995).
-    solvent : bool
-        Fit a solvent viscosity η_s ≥ 0 (G'' gains η_s ω).
-    plateau : bool
-        Fit an equilibrium modulus G_e ≥ 0 (G' gains G_e).
-    n_modes : int, optional
-        Fix the number of modes instead of choosing it.
-    eta_s : float, optional
-        A known solvent viscosity (Pa·s), held fixed instead of fitted (as ``invert(eta_s=...)``).
-    alpha : float
-        Significance level of the F-test that decides whether one more mode
-        improves the fit.
-    per_decade : float
-        Resolution limit: at most about ``per_decade`` modes per decade of the
-        measured frequency range, and adjacent modes at least
-        1/``per_decade`` decade apart (about 1–2 modes per decade is common
-        practice, no single source).
+    options : ModesOptions, optional
+        The mode count (fixed or chosen), the F-test size, the resolution limit and the physical switches
+        (solvent, equilibrium modulus, known η_s); see :class:`~tauspec.modes.options.ModesOptions`.
+    **changes
+        Fields of ``ModesOptions`` given directly (``fit_modes(sweep, n_modes=4)``).
 
     Returns
     -------
@@ -164,7 +145,7 @@ def fit_modes(
     ln τ_i, η_s and G_e.  Going from M to M + 1 modes adds two parameters; the
     statistic F = [(RSS_M − RSS_{M+1})/2] / [RSS_{M+1}/(n − p_{M+1})] is
     compared with the F(2, n − p_{M+1}) distribution; the smallest M whose
-    successor is not significant at level ``alpha`` (or is not resolved)
+    successor is not significant at the size ``significance`` (or is not resolved)
     is kept.  Standard errors are s²(JᵀJ)⁻¹ with s² = RSS/(n − p).
 
     References
@@ -178,21 +159,17 @@ def fit_modes(
 
     from scipy.stats import f as f_dist
 
-    if not 0.0 < alpha < 1.0:
-        raise SettingsError(f"alpha must lie between 0 and 1 (got {alpha!r})")
-    if not per_decade > 0:
-        raise SettingsError(f"per_decade must be positive (got {per_decade!r})")
-    if eta_s is not None:
-        if not (math.isfinite(eta_s) and eta_s >= 0):
-            raise SettingsError(f"eta_s must be a nonnegative number (got {eta_s!r})")
-        solvent = False  # known, not fitted
+    opts = resolve_options(ModesOptions, options, changes, "fit_modes()")
+    eta_s, per_decade, significance, n_modes = opts.eta_s, opts.per_decade, opts.significance, opts.n_modes
+    solvent = opts.solvent and eta_s is None  # a known η_s is held, not fitted
+    equilibrium = opts.equilibrium_modulus
     omega = np.asarray(sweep.omega, dtype=float)
     storage = np.asarray(sweep.storage, dtype=float)
     loss = np.asarray(sweep.loss, dtype=float)
     source = str(getattr(sweep, "source", "") or getattr(sweep, "name", ""))
     decades = math.log10(omega[-1] / omega[0])
     n_data = 2 * omega.size
-    n_extra = int(solvent) + int(plateau)
+    n_extra = int(solvent) + int(equilibrium)
     # at most per_decade modes per measured decade (plus one), and at least 3 residual degrees of freedom
     m_max = max(1, min(int(math.floor(per_decade * decades)) + 1, (n_data - n_extra - 3) // 2))
     if n_modes is not None:
@@ -201,12 +178,12 @@ def fit_modes(
                                 f"{omega.size} points (got {n_modes!r})", source)
         n_modes = int(n_modes)
     prob = _Problem(
-        omega=omega, storage=storage, loss=loss, solvent=solvent, plateau=plateau,
+        omega=omega, storage=storage, loss=loss, solvent=solvent, equilibrium_modulus=equilibrium,
         eta_ref=float(loss[-1] / omega[-1]), G_ref=float(storage[0]),
-        # a mode much faster than 1/ω_max is a solvent viscosity, one much slower than 1/ω_min a plateau:
+        # a mode much faster than 1/ω_max is a solvent viscosity, one much slower than 1/ω_min an equilibrium modulus:
         # when η_s (G_e) is fitted, modes stay within one decade of the measured range on that side
         ln_tau_bounds=(math.log(1.0 / ((_NEAR if solvent else _TAU_MARGIN) * omega[-1])),
-                       math.log((_NEAR if plateau else _TAU_MARGIN) / omega[0])),
+                       math.log((_NEAR if equilibrium else _TAU_MARGIN) / omega[0])),
         # a mode cannot carry more than the data allow at τ = τ_min (g ωτ ≤ G''), nor be far below the data
         ln_g_bounds=(math.log(1e-8 * float(min(storage.min(), loss.min()))),
                      math.log(_TAU_MARGIN * 100.0 * float(max(storage.max(), loss.max())))),
@@ -260,7 +237,7 @@ def fit_modes(
                 continue
             good = [f for f in fits if _resolved(f, min_spacing)]
             best = (min(good, key=lambda f: f.rss), True) if good else (min(fits, key=lambda f: f.rss), False)
-            if prev is None or (best[1] and f_test(best[0], prev)[1] < alpha):
+            if prev is None or (best[1] and f_test(best[0], prev)[1] < significance):
                 break
         return best
 
@@ -299,7 +276,7 @@ def fit_modes(
             f_stat, p_value = f_test(fit, prev)
             candidates.append(ModeCandidate(n_modes=m, rss=fit.rss, n_params=p_new, f_stat=float(f_stat),
                                             p_value=p_value, resolved=ok))
-            if not ok or p_value >= alpha:
+            if not ok or p_value >= significance:
                 break
             prev = fit
         else:
@@ -309,7 +286,7 @@ def fit_modes(
         if chosen is None:
             raise SettingsError("no Maxwell-mode fit converged for these data", source)
         if chosen.n_modes == 0:
-            alone = " and ".join(n for n, on in (("eta_s", solvent), ("G_e", plateau)) if on)
+            alone = " and ".join(n for n, on in (("eta_s", solvent), ("G_e", equilibrium)) if on)
             loud.append(f"no Maxwell mode improves significantly on {alone} alone; the result has no modes")
 
     cov = _covariance(prob, chosen)
@@ -323,7 +300,7 @@ def fit_modes(
     if solvent:
         eta_se = float(se[k] * prob.eta_ref)
         k += 1
-    if plateau:
+    if equilibrium:
         ge_se = float(se[k] * prob.G_ref)
     window = supported_window(omega)
     outside = outside_mask(chosen.tau, window)
@@ -342,6 +319,6 @@ def fit_modes(
         g=chosen.g, tau=chosen.tau, g_se=g_se, tau_se=tau_se, eta_s=chosen.eta_s + prob.eta_known, eta_s_se=eta_se,
         G_e=chosen.G_e, G_e_se=ge_se, window=window, outside_window=outside, residual_rms=rms,
         omega=omega, storage=storage, loss=loss, storage_fit=gp, loss_fit=gpp, candidates=tuple(candidates),
-        start=start, alpha=alpha, per_decade=per_decade, solvent=solvent, plateau=plateau,
+        start=start, options=opts,
         sample=str(getattr(sweep, "name", "")), source=str(getattr(sweep, "source", "")), warnings=tuple(loud + notes),
     )

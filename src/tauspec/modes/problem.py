@@ -17,7 +17,7 @@ _NEGLIGIBLE = 1e-4
 
 #: Relaxation times are kept within this factor beyond the measured 1/ω range ...
 _TAU_MARGIN = 100.0
-#: ... or within this factor on the side where a solvent viscosity (or a plateau) is fitted, since
+#: ... or within this factor on the side where a solvent viscosity (or an equilibrium modulus) is fitted, since
 #: a mode beyond it cannot be told apart from η_s (or G_e).
 _NEAR = 10.0
 
@@ -31,7 +31,7 @@ class _Problem:
     storage: np.ndarray
     loss: np.ndarray
     solvent: bool
-    plateau: bool
+    equilibrium_modulus: bool
     eta_ref: float
     G_ref: float
     ln_tau_bounds: tuple[float, float]
@@ -43,7 +43,7 @@ class _Problem:
         return 2 * self.omega.size
 
     def n_extra(self) -> int:
-        return int(self.solvent) + int(self.plateau)
+        return int(self.solvent) + int(self.equilibrium_modulus)
 
     def unpack(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray, float, float]:
         m = (x.size - self.n_extra()) // 2
@@ -54,7 +54,7 @@ class _Problem:
         if self.solvent:
             eta_s = x[k] * self.eta_ref
             k += 1
-        if self.plateau:
+        if self.equilibrium_modulus:
             G_e = x[k] * self.G_ref
         return g, tau, eta_s, G_e
 
@@ -88,7 +88,7 @@ class _Problem:
         if self.solvent:
             J[n:, k] = self.eta_ref * self.omega / self.loss
             k += 1
-        if self.plateau:
+        if self.equilibrium_modulus:
             J[:n, k] = self.G_ref / self.storage
         return J
 
@@ -99,7 +99,7 @@ class _Problem:
                  np.clip(np.log(tau), lo + 1e-9, hi - 1e-9)]
         if self.solvent:
             parts.append([max(eta_s, 0.0) / self.eta_ref])
-        if self.plateau:
+        if self.equilibrium_modulus:
             parts.append([max(G_e, 0.0) / self.G_ref])
         return np.concatenate([np.asarray(p, dtype=float) for p in parts])
 

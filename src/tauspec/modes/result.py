@@ -2,18 +2,19 @@
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from typing import Any
 
 import numpy as np
 
+from ..data.record import field, record
 from ..spectrum.kernels import modes_moduli
+from .options import ModesOptions
 
 __all__ = ["ModeCandidate", "Modes"]
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class ModeCandidate:
     """One candidate mode set considered by the mode-count rule."""
 
@@ -24,12 +25,8 @@ class ModeCandidate:
     p_value: float
     resolved: bool
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form."""
-        return dataclasses.asdict(self)
 
-
-@dataclasses.dataclass(frozen=True, kw_only=True, eq=False)
+@record
 class Modes:
     """Discrete Maxwell modes fitted to one sweep.
 
@@ -52,6 +49,10 @@ class Modes:
         Root-mean-square relative residual of the fit.
     candidates : tuple of ModeCandidate
         Every mode count tried, with its F-test against the next smaller set.
+    start : str
+        Where the starting modes came from: ``"spectrum"`` or ``"nnls"``.
+    options : ModesOptions
+        The options of the fit.
     """
 
     g: np.ndarray
@@ -72,10 +73,7 @@ class Modes:
     loss_fit: np.ndarray
     candidates: tuple[ModeCandidate, ...] = ()
     start: str = "nnls"
-    alpha: float = 0.01
-    per_decade: float = 2.0
-    solvent: bool = True
-    plateau: bool = False
+    options: ModesOptions = field(default_factory=ModesOptions)
     sample: str = ""
     source: str = ""
     warnings: tuple[str, ...] = ()
@@ -101,10 +99,10 @@ class Modes:
         """Return (G', G'') of the mode set at ``omega`` (rad/s)."""
         return modes_moduli(omega, self.g, self.tau, eta_s=self.eta_s, G_e=self.G_e)
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return exactly the ``modes`` object of the JSON output: ``g``, ``tau``, ``g_se``, ``tau_se``."""
-        return {"g": self.g.tolist(), "tau": self.tau.tolist(), "g_se": self.g_se.tolist(),
-                "tau_se": self.tau_se.tolist()}
+    @property
+    def fits_eta_s(self) -> bool:
+        """True when η_s was fitted (not switched off, not given)."""
+        return self.options.solvent and self.options.eta_s is None
 
     def details(self) -> dict[str, Any]:
         """Return everything else about the fit (window, flags, η_s, G_e, the mode-count search)."""
@@ -118,7 +116,8 @@ class Modes:
             "G_e_se": self.G_e_se,
             "residual_rms": self.residual_rms,
             "start": self.start,
-            "count_rule": f"F-test for nested fits, alpha={self.alpha}, at most {self.per_decade:g} modes per decade",
+            "count_rule": f"F-test for nested fits, significance {self.options.significance:g}, at most "
+                          f"{self.options.per_decade:g} modes per decade",
             "candidates": [c.to_dict() for c in self.candidates],
             "warnings": list(self.warnings),
         }
@@ -137,16 +136,16 @@ class Modes:
         ):
             flag = "  outside the supported window" if out else ""
             lines.append(f"{i:>4}  {g:12.5g}  {gse:10.3g}  {t:12.5g}  {tse:10.3g}{flag}")
-        if self.solvent:
+        if self.fits_eta_s:
             lines.append(f"solvent viscosity eta_s = {self.eta_s:.5g} Pa s (± {self.eta_s_se:.3g})")
         elif self.eta_s > 0:
             lines.append(f"solvent viscosity eta_s = {self.eta_s:.5g} Pa s (given, not fitted)")
-        if self.plateau:
+        if self.options.equilibrium_modulus:
             lines.append(f"equilibrium modulus G_e = {self.G_e:.5g} Pa (± {self.G_e_se:.3g})")
         counts = ", ".join(
             f"{c.n_modes}" + ("" if math.isnan(c.p_value) else f": p={c.p_value:.3g}")
             + ("" if c.resolved else " (not resolved)") for c in self.candidates
         )
-        lines.append(f"mode count by F-test (alpha {self.alpha:g}); tried {counts}")
+        lines.append(f"mode count by F-test (significance {self.options.significance:g}); tried {counts}")
         lines.extend(f"warning: {w}" for w in self.warnings)
         return "\n".join(lines)

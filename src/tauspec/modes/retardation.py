@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from typing import Any
 
 import numpy as np
 
+from ..data.record import record
 from ..errors import SettingsError
 
 __all__ = ["Retardation", "retardation_spectrum"]
@@ -16,7 +16,7 @@ __all__ = ["Retardation", "retardation_spectrum"]
 # --------------------------------------------------------------------------- retardation spectrum
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True, eq=False)
+@record
 class Retardation:
     """The discrete retardation spectrum equivalent to a Maxwell mode set.
 
@@ -57,9 +57,6 @@ class Retardation:
             out = out + tt / self.eta0
         return out.reshape(t.shape)
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form."""
-        return {"J_g": self.J_g, "lam": self.lam.tolist(), "J": self.J.tolist(), "eta0": self.eta0}
 
 
 def _bracketed_root(F: Any, a: float, b: float) -> float:
@@ -119,7 +116,7 @@ def retardation_spectrum(g: np.ndarray, tau: np.ndarray, *, eta_s: float = 0.0, 
     if np.any(np.diff(a) <= 0):
         raise SettingsError("two Maxwell modes share one relaxation time; merge them first")
     if g.size == 0 and eta_s <= 0 and G_e <= 0:
-        raise SettingsError("the mode set is empty: no modes, no solvent viscosity, no plateau")
+        raise SettingsError("the mode set is empty: no modes, no solvent viscosity, no equilibrium modulus")
 
     def F(x: float) -> float:  # Q(−x)/x; roots are retardation rates x = 1/λ
         return G_e / x - eta_s + float(np.sum(g / (x - a)))

@@ -29,7 +29,7 @@ def _nnls_start(prob: _Problem, per_decade_grid: float = 10.0) -> tuple[np.ndarr
     cols = [A]
     if prob.solvent:
         cols.append(np.concatenate([np.zeros_like(w), w / prob.loss])[:, None])
-    if prob.plateau:
+    if prob.equilibrium_modulus:
         cols.append(np.concatenate([1.0 / prob.storage, np.zeros_like(w)])[:, None])
     A = np.hstack(cols)
     scale = np.linalg.norm(A, axis=0)
@@ -42,7 +42,7 @@ def _nnls_start(prob: _Problem, per_decade_grid: float = 10.0) -> tuple[np.ndarr
     if prob.solvent:
         eta_s = float(sol[k])
         k += 1
-    if prob.plateau:
+    if prob.equilibrium_modulus:
         G_e = float(sol[k])
     return grid, g, eta_s, G_e
 

@@ -15,11 +15,9 @@ import base64
 import csv
 import html
 import io
-import json
 import math
 import os
 import re
-import types
 from collections.abc import Iterator, Mapping
 from pathlib import Path
 from typing import Any
@@ -28,6 +26,7 @@ import numpy as np
 
 from ..data.write import atomic_write_text
 from ..errors import TauspecError
+from .results import read_result_json, spectrum_from_result
 
 __all__ = ["write_report", "REPORT_NAME"]
 
@@ -130,10 +129,8 @@ def _result_folder(folder: Path, file: str) -> Path | None:
 
 def _load(path: Path) -> dict[str, Any]:
     try:
-        with open(path / "result.json", encoding="utf-8") as fh:
-            d = json.load(fh)
-        return d if isinstance(d, dict) else {}
-    except (OSError, ValueError):
+        return read_result_json(path)
+    except TauspecError:
         return {}
 
 
@@ -180,19 +177,6 @@ def _svg(fig: Any) -> str:
     return re.sub(r"<!--.*?-->", "", text, flags=re.S)
 
 
-def _spectrum_view(d: Mapping[str, Any]) -> Any:
-    """A light object with the attributes the plotting functions read, from a Spectrum's JSON form."""
-    arr = {k: np.asarray(d[k], dtype=float) for k in ("tau", "H", "omega", "storage", "loss", "storage_fit",
-                                                       "loss_fit")}
-    lc = d.get("lcurve") or {}
-    lcurve = types.SimpleNamespace(strength=np.asarray(lc.get("lambda", []), dtype=float),
-                                   residual_norm=np.asarray(lc.get("residual_norm", []), dtype=float),
-                                   solution_norm=np.asarray(lc.get("solution_norm", []), dtype=float),
-                                   index=int(lc.get("index", 0)))
-    return types.SimpleNamespace(**arr, window=tuple(d.get("window", (1.0, 0.0))), sample=d.get("sample", ""),
-                                 select=d.get("select", ""), lcurve=lcurve)
-
-
 def _figures_html(folder: Path, result: Mapping[str, Any]) -> str:
     pngs = sorted(p for p in folder.glob("*.png"))
     if pngs:
@@ -200,13 +184,14 @@ def _figures_html(folder: Path, result: Mapping[str, Any]) -> str:
             f'<img alt="{html.escape(p.stem)}" src="data:image/png;base64,'
             f'{base64.b64encode(p.read_bytes()).decode("ascii")}">' for p in pngs)
     spec = result.get("spectrum")
-    if not isinstance(spec, dict) or "tau" not in spec:
+    try:
+        view = spectrum_from_result(result)
+    except TauspecError:
         return '<p class="muted">no figures stored</p>'
     import matplotlib as mpl
 
     from .figures.spectrum import STYLE, fit_figure, new_axes, plot_spectrum
 
-    view = _spectrum_view(spec)
     parts = []
     with mpl.rc_context(STYLE):
         parts.append(_svg(fit_figure(view, height=3.4)))

@@ -8,6 +8,7 @@ import numpy as np
 
 from ..data.sweep import Sweep
 from .kernels import spectrum_matrix
+from .options import InvertOptions
 from .regularize import second_difference
 
 __all__ = ["N_STRENGTHS", "Problem", "build_problem", "strength_path"]
@@ -32,8 +33,8 @@ class Problem:
     L: np.ndarray
     tau: np.ndarray
     scale: np.ndarray  # multiply x by this to get SI values (H in Pa, η_s in Pa·s, G_e in Pa)
-    solvent: bool
-    plateau: bool
+    solvent: bool  # an η_s column is fitted
+    equilibrium_modulus: bool  # a G_e column is fitted
     loss_offset: np.ndarray  # known η_s·ω subtracted from G''
 
     @property
@@ -42,22 +43,17 @@ class Problem:
         return len(self.tau)
 
 
-def build_problem(
-    sweep: Sweep,
-    tau: np.ndarray,
-    *,
-    solvent: bool = True,
-    plateau: bool = False,
-    eta_s: float | None = None,
-) -> Problem:
+def build_problem(sweep: Sweep, tau: np.ndarray, options: InvertOptions) -> Problem:
     """Form the weighted, dimensionless problem ‖A x − 1‖² + λ²‖L x‖².
 
     Rows are G'_i and G''_i divided by their measured values (relative
     residuals); H is scaled by the geometric mean of the moduli, and the η_s
     and G_e columns to unit norm, so that the problem — and hence the chosen
     strength — is invariant to the units of the moduli.  A known ``eta_s``
-    is subtracted from G'' (its column is then omitted).
+    is subtracted from G'' (its column is then omitted).  ``options`` gives the switches ``solvent`` and
+    ``equilibrium_modulus`` and the known ``eta_s``.
     """
+    solvent, eta_s = options.solvent, options.eta_s
     omega = sweep.omega
     y = np.concatenate([sweep.storage, sweep.loss])
     Kp, Kpp = spectrum_matrix(omega, tau)
@@ -72,7 +68,7 @@ def build_problem(
         s = 1.0 / float(np.linalg.norm(c))
         cols.append((c * s)[:, None])
         scale.append(np.array([s]))
-    if plateau:
+    if options.equilibrium_modulus:
         c = np.concatenate([np.ones_like(omega), np.zeros_like(omega)]) * w
         s = 1.0 / float(np.linalg.norm(c))
         cols.append((c * s)[:, None])
@@ -83,7 +79,7 @@ def build_problem(
     D = second_difference(len(tau), du)
     L = np.hstack([D, np.zeros((D.shape[0], A.shape[1] - len(tau)))])
     return Problem(A=A, b=b, L=L, tau=tau, scale=np.concatenate(scale), solvent=solvent and eta_s is None,
-                   plateau=plateau, loss_offset=offset)
+                   equilibrium_modulus=options.equilibrium_modulus, loss_offset=offset)
 
 
 def strength_path(problem: Problem, n: int = N_STRENGTHS) -> np.ndarray:

@@ -61,11 +61,11 @@ def second_difference(n: int, spacing: float = 1.0) -> np.ndarray:
     return D * (np.sqrt(spacing) / spacing**2)
 
 
-def objective(A: np.ndarray, b: np.ndarray, L: np.ndarray, x: np.ndarray, lam: float) -> float:
+def objective(A: np.ndarray, b: np.ndarray, L: np.ndarray, x: np.ndarray, strength: float) -> float:
     """Return ‖A x − b‖² + λ² ‖L x‖², the objective of problem (1)."""
     r = A @ x - b
     s = L @ x
-    return float(r @ r + lam * lam * (s @ s))
+    return float(r @ r + strength * strength * (s @ s))
 
 
 @dataclasses.dataclass(frozen=True)
@@ -117,12 +117,12 @@ class TikhonovPath:
         self.n = self.A.shape[1]
 
     # ------------------------------------------------------------------ one strength
-    def solve(self, lam: float, passive: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, bool]:
-        """Solve problem (1) at strength ``lam``.
+    def solve(self, strength: float, passive: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, bool]:
+        """Solve problem (1) at strength ``strength``.
 
         Parameters
         ----------
-        lam : float
+        strength : float
             Regularization strength λ ≥ 0.
         passive : ndarray of bool, optional
             Initial guess of the set where x > 0 (warm start).
@@ -136,19 +136,19 @@ class TikhonovPath:
         fallback : bool
             True when NNLS on the augmented system was used.
         """
-        x, free, _, fallback = self._solve(lam, passive)
+        x, free, _, fallback = self._solve(strength, passive)
         return x, free, fallback
 
     def _solve(
-        self, lam: float, passive: np.ndarray | None
+        self, strength: float, passive: np.ndarray | None
     ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, bool]:
         """Return x, its free set, the Cholesky factor of M on that set (or None) and the fallback flag."""
-        M = self.AtA + (lam * lam) * self.LtL
+        M = self.AtA + (strength * strength) * self.LtL
         q = self.Atb
         out = _bpp(M, q, passive)
         if out is not None and self._kkt_ok(M, q, out[0]):
             return out[0], out[2], out[1], False
-        x = self._nnls(lam)
+        x = self._nnls(strength)
         return x, x > 0, None, True
 
     def _kkt_ok(self, M: np.ndarray, q: np.ndarray, x: np.ndarray) -> bool:
@@ -158,13 +158,13 @@ class TikhonovPath:
         free = x > 0
         return bool(np.all(x >= 0) and np.all(np.abs(grad[free]) <= tol) and np.all(grad[~free] >= -tol))
 
-    def _nnls(self, lam: float) -> np.ndarray:
-        Aaug = np.vstack([self.A, lam * self.L])
+    def _nnls(self, strength: float) -> np.ndarray:
+        Aaug = np.vstack([self.A, strength * self.L])
         baug = np.concatenate([self.b, np.zeros(self.L.shape[0])])
         x, _ = nnls(Aaug, baug, maxiter=50 * self.n)
         return x
 
-    def dof(self, lam: float, passive: np.ndarray, factor: np.ndarray | None = None) -> float:
+    def dof(self, strength: float, passive: np.ndarray, factor: np.ndarray | None = None) -> float:
         """Trace of the influence matrix A_F (A_FᵀA_F + λ² L_FᵀL_F)⁻¹ A_Fᵀ on the free set F.
 
         With the upper Cholesky factor R of M_FF, the trace is ‖R⁻ᵀ A_Fᵀ‖²_F.
@@ -173,7 +173,7 @@ class TikhonovPath:
         if not F.any():
             return 0.0
         if factor is None:
-            M = self.AtA[F][:, F] + (lam * lam) * self.LtL[F][:, F]
+            M = self.AtA[F][:, F] + (strength * strength) * self.LtL[F][:, F]
             factor, info = _dpotrf(M, lower=0, clean=1)
             if info != 0:
                 return float(np.trace(np.linalg.lstsq(M, self.AtA[F][:, F], rcond=None)[0]))
@@ -191,23 +191,23 @@ class TikhonovPath:
     # ------------------------------------------------------------------ the path
     def path(self, strengths: Sequence[float], passive: np.ndarray | None = None) -> PathSolution:
         """Solve problem (1) for every strength, warm-starting each from the previous one."""
-        lams = np.asarray(strengths, dtype=float)
-        k = len(lams)
+        strengths = np.asarray(strengths, dtype=float)
+        k = len(strengths)
         X = np.zeros((k, self.n))
         res = np.zeros(k)
         sol = np.zeros(k)
         dof = np.zeros(k)
         fb = np.zeros(k, dtype=bool)
-        for i, lam in enumerate(lams):
+        for i, strength in enumerate(strengths):
             guess = passive
             if i >= 2:  # the free set drifts smoothly along the path: extrapolate x linearly in ln λ
                 guess = (2 * X[i - 1] - X[i - 2]) > 0
-            x, passive, R, fb[i] = self._solve(lam, guess)
+            x, passive, R, fb[i] = self._solve(strength, guess)
             X[i] = x
             res[i] = np.linalg.norm(self.A @ x - self.b)
             sol[i] = np.linalg.norm(self.L @ x)
-            dof[i] = self.dof(lam, passive, R)
-        return PathSolution(strength=lams, x=X, residual_norm=res, solution_norm=sol, dof=dof, fallback=fb)
+            dof[i] = self.dof(strength, passive, R)
+        return PathSolution(strength=strengths, x=X, residual_norm=res, solution_norm=sol, dof=dof, fallback=fb)
 
     @staticmethod
     def join(*parts: PathSolution) -> PathSolution:
@@ -288,7 +288,7 @@ def solve_cvxpy(
     n = A.shape[1]
     lo = np.zeros(n) if lower is None else np.asarray(lower, dtype=float)
     x = cp.Variable(n)
-    lam = cp.Parameter(nonneg=True)
+    strength = cp.Parameter(nonneg=True)
     cons = []
     finite_lo = np.isfinite(lo)
     if finite_lo.any():
@@ -298,10 +298,10 @@ def solve_cvxpy(
         finite_up = np.isfinite(up)
         if finite_up.any():
             cons.append(x[np.flatnonzero(finite_up)] <= up[finite_up])
-    prob = cp.Problem(cp.Minimize(cp.sum_squares(A @ x - b) + cp.sum_squares(lam * (L @ x))), cons)
+    prob = cp.Problem(cp.Minimize(cp.sum_squares(A @ x - b) + cp.sum_squares(strength * (L @ x))), cons)
     out = np.zeros((len(strengths), n))
     for i, s in enumerate(strengths):
-        lam.value = float(s)
+        strength.value = float(s)
         prob.solve(solver=solver, warm_start=False)
         if x.value is None or prob.status not in ("optimal", "optimal_inaccurate"):
             from ..errors import TauspecError

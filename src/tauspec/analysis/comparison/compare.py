@@ -37,49 +37,58 @@ from typing import Any
 
 import numpy as np
 
+from ...data.record import field, record, resolve_options
 from ...data.sweep import Sweep
 from ...errors import SettingsError
 from ...spectrum.invert import invert
+from ...spectrum.options import InvertOptions
 from ...spectrum.result import Spectrum
 from ..diagnosis.diagnose import diagnose as diagnose_sweep
-from .replicates import LOG_FLOOR, N_REPLICATES, _sweep_of, sample_uncertainty
+from .options import CompareOptions
+from .replicates import LOG_FLOOR, sample_uncertainty
 from .series import PowerLaw, characteristic_modulus, characteristic_time, series_scaling
-from .shape import CI_LEVEL, LEVEL, PairComparison, _compare_pair, _null_distances, rouse_ratios
-from .shift import MIN_OVERLAP
+from .shape import CI_LEVEL, PairComparison, _compare_pair, _null_distances, rouse_ratios
 
-__all__ = ["SCHEMA", "Comparison", "compare"]
-
-
-#: Version of the JSON form of a Comparison.
-SCHEMA = "tauspec.comparison/1"
+__all__ = ["Comparison", "compare"]
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record(schema="tauspec.comparison/1.1")
 class Comparison:
-    """Several spectra compared pairwise (or against a reference), ranked, and scaled along a series."""
+    """Several spectra compared pairwise (or against a reference), ranked, and scaled along a series.
+
+    ``ranking`` holds the indices of ``pairs`` by increasing shape distance (JSON: the pairs' names and
+    distances); ``options`` are written as ``settings`` with the fixed constants of the method; ``spectra``
+    (the compared spectra, for figures) stay in memory.
+    """
 
     samples: tuple[Mapping[str, Any], ...]
+    reference: str | None
     pairs: tuple[PairComparison, ...]
     ranking: tuple[int, ...]
-    reference: str | None
     series: Mapping[str, PowerLaw]
-    settings: Mapping[str, Any]
-    spectra: tuple[Spectrum, ...] = ()
+    options: CompareOptions = field(key="settings", default_factory=CompareOptions)
     notes: tuple[str, ...] = ()
+    spectra: tuple[Spectrum, ...] = field(transient=True, default=())
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form (keys are a public contract: add, never rename)."""
-        return {
-            "schema": SCHEMA,
-            "samples": [dict(s) for s in self.samples],
-            "reference": self.reference,
-            "pairs": [p.to_dict() for p in self.pairs],
-            "ranking": [{"a": self.pairs[i].a, "b": self.pairs[i].b,
-                         "shape_distance": self.pairs[i].shape_distance} for i in self.ranking],
-            "series": {k: v.to_dict() for k, v in self.series.items()},
-            "settings": dict(self.settings),
-            "notes": list(self.notes),
-        }
+    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
+        d["ranking"] = [{"a": self.pairs[i].a, "b": self.pairs[i].b, "shape_distance": self.pairs[i].shape_distance}
+                        for i in self.ranking]
+        o = self.options
+        d["settings"] = {"replicates": o.replicates, "significance": o.significance, "seed": o.seed,
+                         "min_overlap": o.min_overlap,
+                         "strength": _RESELECT_WORDS[o.reselect], "log_floor": LOG_FLOOR, "ci_level": CI_LEVEL,
+                         "mode": "reference" if self.reference is not None else "all pairs"}
+        return d
+
+    @classmethod
+    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
+        names = [(p.get("a"), p.get("b")) for p in d.get("pairs") or []]
+        d["ranking"] = [names.index((r.get("a"), r.get("b"))) for r in d.get("ranking") or []]
+        s = dict(d.get("settings") or {})
+        d["settings"] = {"replicates": s.get("replicates", 12), "significance": s.get("significance", s.get("level")),
+                         "seed": s.get("seed", 0), "min_overlap": s.get("min_overlap", 0.5),
+                         "reselect": s.get("strength") != _RESELECT_WORDS[False]}
+        return d
 
     def report(self) -> str:
         """Return a text summary: the pairs ranked by shape distance, then the series fits."""
@@ -121,28 +130,32 @@ def _label(spectrum: Spectrum, used: set[str]) -> str:
     return name
 
 
+#: How the replicates' λ is chosen, in the words of the JSON settings.
+_RESELECT_WORDS = {True: "re-chosen per replicate", False: "fixed at each sample's own"}
+
+
 def compare(
     results: Sequence[Spectrum | Sweep],
+    options: CompareOptions | None = None,
     *,
     labels: Sequence[str] | None = None,
     reference: int | str | None = None,
     metadata: Sequence[Mapping[str, float | None]] | None = None,
-    replicates: int = N_REPLICATES,
-    level: float = LEVEL,
-    seed: int = 0,
     diagnose: bool = False,
     diagnoses: Sequence[Any] | None = None,
     bands: Sequence[tuple[np.ndarray, np.ndarray] | None] | None = None,
-    invert_settings: Mapping[str, Any] | None = None,
-    min_overlap: float = MIN_OVERLAP,
-    reselect: bool = True,
+    invert_options: InvertOptions | None = None,
+    **changes: Any,
 ) -> Comparison:
     """Compare relaxation spectra: shifts, shape distances and their test, ranking and series scaling.
 
     Parameters
     ----------
     results : sequence of Spectrum or Sweep
-        Two or more samples; sweeps are inverted with ``invert_settings``.
+        Two or more samples; sweeps are inverted with ``invert_options``.
+    options : CompareOptions, optional
+        Replicates, the size of the shape test, seed, smallest overlap, λ of the replicates
+        (see :class:`~tauspec.analysis.comparison.options.CompareOptions`).
     labels : sequence of str, optional
         Names of the samples (default: the sample names, made unique).
     reference : int or str, optional
@@ -150,27 +163,16 @@ def compare(
     metadata : sequence of mappings, optional
         Per sample ``{"M": .., "c": .., "T": ..}``; missing entries are read from the metadata of the sweep
         (``molecular_weight``, ``concentration``, ``temperature``).
-    replicates : int
-        Replicate spectra per sample (parametric resampling) for the null distribution of the shape distance
-        and the intervals of a and b; 0 skips the test (``same_shape`` is then None).
-    level : float
-        Level of the shape test.
-    seed : int
-        Seed of the resampling (combined with each sample's data, so the order of samples does not matter).
     diagnose : bool
-        Run the bead-spring diagnosis on every sample (when this installation has it) for the Rouse ratios
-        and the series; ``diagnoses`` gives them precomputed instead.
+        Run the bead-spring diagnosis on every sample for the Rouse ratios and the series; ``diagnoses`` gives
+        them precomputed instead.
     bands : sequence, optional
         Per sample a band of H on its grid — (lo, hi) read as a 95 % interval, or an object with ``H_lo``,
         ``H_hi`` and ``level`` — used for the weights (None for a sample without one).
-    invert_settings : mapping, optional
-        Keyword arguments of :func:`tauspec.spectrum.invert` for sweeps.
-    min_overlap : float
-        Smallest overlap of the windows after the shift, as a fraction of the narrower window.
-    reselect : bool
-        Re-choose the strength on every replicate by the sample's own rule (the default), dropping replicates
-        whose strength lies a decade from the replicates' median; False keeps each sample's own strength
-        (see docs/compare.md).
+    invert_options : InvertOptions, optional
+        How sweeps are inverted.
+    **changes
+        Fields of ``CompareOptions`` given directly (``compare([a, b], replicates=4)``).
 
     Returns
     -------
@@ -180,62 +182,32 @@ def compare(
     ----------
     See the module docstring and ``docs/compare.md``.
     """
+    opts = resolve_options(CompareOptions, options, changes, "compare()")
     if len(results) < 2:
         raise SettingsError(f"compare needs at least two samples, not {len(results)}")
-    if not 0 < level < 1:
-        raise SettingsError(f"level must lie between 0 and 1, not {level}")
-    if not 0 < min_overlap <= 1:
-        raise SettingsError(f"min_overlap must lie in (0, 1], not {min_overlap}")
-    spectra: list[Spectrum] = []
-    for r in results:
-        if isinstance(r, Sweep):
-            spectra.append(invert(r, **dict(invert_settings or {})))
-        elif isinstance(r, Spectrum):
-            spectra.append(r)
-        else:
-            raise SettingsError(f"compare takes Spectrum or Sweep objects, not {type(r).__name__}")
+    spectra = [_as_spectrum(r, invert_options) for r in results]
     n = len(spectra)
     used: set[str] = set()
     names = list(labels) if labels is not None else [_label(s, used) for s in spectra]
     if len(names) != n or len(set(names)) != n:
         raise SettingsError("labels must be unique, one per sample")
-    ref: int | None = None
-    if reference is not None:
-        if isinstance(reference, str):
-            if reference not in names:
-                raise SettingsError(f"reference {reference!r} is not one of the samples {names}")
-            ref = names.index(reference)
-        else:
-            ref = int(reference)
-            if not 0 <= ref < n:
-                raise SettingsError(f"reference index {ref} out of range")
-
-    meta = [dict(m or {}) for m in metadata] if metadata is not None else [{} for _ in spectra]
-    if len(meta) != n:
-        raise SettingsError("metadata must have one mapping per sample")
-    M, c, T = [], [], []
-    for s, md in zip(spectra, meta):
-        sw = _sweep_of(s)
-        M.append(md.get("M") if md.get("M") is not None else sw.meta_number("molecular_weight"))
-        c.append(md.get("c") if md.get("c") is not None else sw.meta_number("concentration"))
-        T.append(md.get("T") if md.get("T") is not None else sw.meta_number("temperature", kind="temperature"))
-
-    notes: list[str] = []
+    ref = _reference_index(reference, names)
+    M, c, T = _series_variables(spectra, metadata)
     if diagnoses is None and diagnose:
-        diagnoses = [diagnose_sweep(_sweep_of(s), spectrum=s) for s in spectra]
+        diagnoses = [diagnose_sweep(s.as_sweep(), spectrum=s) for s in spectra]
     if diagnoses is not None and len(diagnoses) != n:
         raise SettingsError("diagnoses must have one entry per sample")
 
     band_list = list(bands) if bands is not None else [None] * n
-    unc = [sample_uncertainty(s, replicates=replicates, seed=seed, band=b, reselect=reselect)
+    unc = [sample_uncertainty(s, replicates=opts.replicates, seed=opts.seed, band=b, reselect=opts.reselect)
            for s, b in zip(spectra, band_list)]
-    nulls = [_null_distances(u, min_overlap) for u in unc]
+    nulls = [_null_distances(u, opts.min_overlap) for u in unc]
     index_pairs = [(ref, j) for j in range(n) if j != ref] if ref is not None else \
         list(itertools.combinations(range(n), 2))
     pairs = []
     for i, j in index_pairs:
-        pc = _compare_pair(names[i], names[j], unc[i], unc[j], np.concatenate([nulls[i], nulls[j]]), level,
-                           min_overlap)
+        pc = _compare_pair(names[i], names[j], unc[i], unc[j], np.concatenate([nulls[i], nulls[j]]),
+                           opts.significance, opts.min_overlap)
         if diagnoses is not None:
             pc = dataclasses.replace(pc, rouse=rouse_ratios(diagnoses[i], diagnoses[j]))
         pairs.append(pc)
@@ -252,9 +224,41 @@ def compare(
             "verdict": getattr(d, "verdict", None),
             "tau_R": getattr(d, "tau_R", None), "G0": getattr(d, "G0", None),
         })
-    settings = {"replicates": replicates, "level": level, "seed": seed, "min_overlap": min_overlap,
-                "strength": "re-chosen per replicate" if reselect else "fixed at each sample's own",
-                "log_floor": LOG_FLOOR, "ci_level": CI_LEVEL, "mode": "reference" if ref is not None else "all pairs"}
-    return Comparison(samples=tuple(samples), pairs=tuple(pairs), ranking=ranking,
-                      reference=names[ref] if ref is not None else None, series=series, settings=settings,
-                      spectra=tuple(spectra), notes=tuple(notes))
+    return Comparison(samples=tuple(samples), reference=names[ref] if ref is not None else None, pairs=tuple(pairs),
+                      ranking=ranking, series=series, options=opts, spectra=tuple(spectra))
+
+
+def _as_spectrum(result: Spectrum | Sweep, invert_options: InvertOptions | None) -> Spectrum:
+    if isinstance(result, Sweep):
+        return invert(result, invert_options)
+    if isinstance(result, Spectrum):
+        return result
+    raise SettingsError(f"compare takes Spectrum or Sweep objects, not {type(result).__name__}")
+
+
+def _reference_index(reference: int | str | None, names: Sequence[str]) -> int | None:
+    if reference is None:
+        return None
+    if isinstance(reference, str):
+        if reference not in names:
+            raise SettingsError(f"reference {reference!r} is not one of the samples {list(names)}")
+        return list(names).index(reference)
+    ref = int(reference)
+    if not 0 <= ref < len(names):
+        raise SettingsError(f"reference index {ref} out of range")
+    return ref
+
+
+def _series_variables(spectra: Sequence[Spectrum], metadata: Sequence[Mapping[str, float | None]] | None
+                      ) -> tuple[list[Any], list[Any], list[Any]]:
+    """M, c and T (K) of every sample: given in ``metadata``, else from the sweep's metadata lines."""
+    meta = [dict(m or {}) for m in metadata] if metadata is not None else [{} for _ in spectra]
+    if len(meta) != len(spectra):
+        raise SettingsError("metadata must have one mapping per sample")
+    M, c, T = [], [], []
+    for s, md in zip(spectra, meta):
+        sw = s.as_sweep()
+        M.append(md.get("M") if md.get("M") is not None else sw.meta_number("molecular_weight"))
+        c.append(md.get("c") if md.get("c") is not None else sw.meta_number("concentration"))
+        T.append(md.get("T") if md.get("T") is not None else sw.meta_number("temperature", kind="temperature"))
+    return M, c, T

@@ -6,8 +6,6 @@ import dataclasses
 import math
 import warnings
 import zlib
-from collections.abc import Mapping
-from typing import Any
 
 import numpy as np
 from scipy import stats
@@ -15,11 +13,15 @@ from scipy import stats
 from ...data.sweep import Sweep
 from ...errors import SettingsError, TauspecError, WeakResultWarning
 from ...spectrum.invert import invert
+from ...spectrum.options import InvertOptions
 from ...spectrum.problem import build_problem
+from ...spectrum.regularize import TikhonovPath
 from ...spectrum.result import Spectrum
+from ..uncertainty.noise import pooled_noise
+from ..uncertainty.resample import parametric_sweep, replicate_options
 
 __all__ = [
-    "N_REPLICATES", "LOG_FLOOR", "SMOOTH", "STRENGTH_DECADES", "SampleUncertainty", "noise_level",
+    "N_REPLICATES", "LOG_FLOOR", "SMOOTH", "STRENGTH_DECADES", "SampleUncertainty",
     "sample_uncertainty"
 ]
 
@@ -92,71 +94,19 @@ class SampleUncertainty:
         return math.log(2 * self.floor)
 
 
-def noise_level(spectrum: Spectrum) -> float:
-    """Estimate the relative noise of the data from the fit: rms · √(m/(m − p)).
-
-    p is the effective number of parameters of the regularized fit, the trace of its influence matrix on the
-    free set (Wahba 1990, *Spline Models for Observational Data*, SIAM, ch. 4: the residual of a linear
-    smoother underestimates the noise by √(1 − p/m)).
-    """
-    from ...spectrum.regularize import TikhonovPath
-
-    s = spectrum.settings or {}
-    sweep = _sweep_of(spectrum)
-    try:
-        pb = build_problem(sweep, np.asarray(spectrum.tau), solvent=bool(s.get("solvent", True)),
-                           plateau=bool(s.get("plateau", False)), eta_s=s.get("eta_s_known"))
-        path = TikhonovPath(pb.A, pb.b, pb.L)
-        x, free, _ = path.solve(float(spectrum.strength))
-        p = path.dof(float(spectrum.strength), free)
-    except (ValueError, np.linalg.LinAlgError):
-        p = 0.0
-    m = 2 * len(sweep.omega)
-    return float(spectrum.residual_rms) * math.sqrt(m / max(m - p, 1.0))
-
-
-def _sweep_of(spectrum: Spectrum, storage: np.ndarray | None = None, loss: np.ndarray | None = None) -> Sweep:
-    return Sweep(omega=spectrum.omega, storage=spectrum.storage if storage is None else storage,
-                 loss=spectrum.loss if loss is None else loss, name=spectrum.sample, meta=dict(spectrum.meta),
-                 source=spectrum.source)
-
-
-def _replicate_settings(spectrum: Spectrum) -> dict[str, Any]:
-    """The settings of ``invert`` that reproduce ``spectrum`` on its own grid."""
-    s = spectrum.settings or {}
-    strength = s.get("strength", "auto")
-    out: dict[str, Any] = {
-        "strength": strength if strength == "auto" else float(strength),
-        "select": s.get("select", spectrum.select if spectrum.select in ("lcurve", "gcv") else "lcurve"),
-        "grid": np.asarray(spectrum.tau),
-        "solvent": bool(s.get("solvent", True)),
-        "plateau": bool(s.get("plateau", False)),
-        "eta_s": s.get("eta_s_known"),
-    }
-    if s.get("bounds"):
-        out["bounds"] = {k: tuple(v) for k, v in s["bounds"].items()}
-    if s.get("n_strengths"):
-        out["n_strengths"] = int(s["n_strengths"])
-    return out
-
-
-def _replicate_H(sweep: Sweep, settings: Mapping[str, Any]) -> tuple[np.ndarray, float]:
+def _replicate_H(sweep: Sweep, options: InvertOptions) -> tuple[np.ndarray, float]:
     """Return H of one replicate and its strength.
 
     At a fixed strength without bounds: one solve on the fast exact path of the problem
-    :func:`~tauspec.spectrum.invert` forms; otherwise ``invert`` itself.
+    :func:`~tauspec.spectrum.invert.invert` forms; otherwise ``invert`` itself.
     """
-    strength = settings["strength"]
-    if strength != "auto" and not settings.get("bounds"):
-        from ...spectrum.regularize import TikhonovPath
-
-        pb = build_problem(sweep, settings["grid"], solvent=settings["solvent"], plateau=settings["plateau"],
-                           eta_s=settings["eta_s"])
-        x = TikhonovPath(pb.A, pb.b, pb.L).solve(float(strength))[0]
-        return (x * pb.scale)[: pb.n_grid], float(strength)
+    if options.strength != "auto" and not options.uses_cvxpy:
+        pb = build_problem(sweep, np.asarray(options.grid), options)
+        x = TikhonovPath(pb.A, pb.b, pb.L).solve(float(options.strength))[0]
+        return (x * pb.scale)[: pb.n_grid], float(options.strength)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", WeakResultWarning)
-        rep = invert(sweep, **settings)
+        rep = invert(sweep, options)
     return np.asarray(rep.H), float(rep.strength)
 
 
@@ -177,8 +127,9 @@ def sample_uncertainty(spectrum: Spectrum, *, replicates: int = N_REPLICATES, se
                        reselect: bool = True) -> SampleUncertainty:
     """Replicate spectra of one sample by parametric resampling.
 
-    Each replicate is ``invert`` (same settings, same grid) of the fitted moduli multiplied by
-    (1 + σ_n ε), ε standard normal, σ_n = :func:`noise_level` (Efron & Tibshirani 1993, ch. 6).  The
+    Each replicate is ``invert`` (same options, same grid) of the fitted moduli multiplied by
+    (1 + σ_n ε), ε standard normal, σ_n the pooled noise of
+    :func:`~tauspec.analysis.uncertainty.noise.pooled_noise` (Efron & Tibshirani 1993, ch. 6).  The
     uncertainty of ℓ = ln(H + ε) is the replicate standard deviation, smoothed by a three-point mean of the
     variance, with σ_n added in quadrature as a floor.  A ``band`` of H on the grid — a pair (lo, hi) read as a
     95 % interval, or an object with ``H_lo``, ``H_hi`` and ``level`` — replaces the replicate spread in σ
@@ -187,25 +138,20 @@ def sample_uncertainty(spectrum: Spectrum, *, replicates: int = N_REPLICATES, se
     if replicates < 0:
         raise SettingsError(f"replicates must be 0 or more, not {replicates}")
     u, ell, floor = _log_spectrum(spectrum)
-    noise = noise_level(spectrum)
+    noise = pooled_noise(spectrum)
     rng = _data_seed(spectrum, seed)
-    settings = _replicate_settings(spectrum)
-    if not reselect:
-        settings["strength"] = float(spectrum.strength)
+    options = replicate_options(spectrum, fixed_strength=not reselect)
     m = spectrum.in_window
     reps = np.empty((replicates, len(u)))
-    lams = np.empty(replicates)
+    strengths = np.empty(replicates)
     for i in range(replicates):
-        f_s = np.maximum(1.0 + noise * rng.standard_normal(len(spectrum.omega)), 1e-3)
-        f_l = np.maximum(1.0 + noise * rng.standard_normal(len(spectrum.omega)), 1e-3)
-        sw = _sweep_of(spectrum, spectrum.storage_fit * f_s, spectrum.loss_fit * f_l)
-        H, lams[i] = _replicate_H(sw, settings)
+        H, strengths[i] = _replicate_H(parametric_sweep(spectrum, noise, noise, rng), options)
         reps[i] = np.log(_smooth(np.asarray(spectrum.tau), H)[m] + floor)
     dropped = 0
     if reselect and replicates >= 3:
         # A replicate whose strength is more than a decade from the median of the replicates took another
         # corner of the L-curve (typically the collapsed, unregularized end): it is not noise of this spectrum.
-        keep = np.abs(np.log10(lams / np.median(lams))) <= STRENGTH_DECADES
+        keep = np.abs(np.log10(strengths / np.median(strengths))) <= STRENGTH_DECADES
         dropped = int(np.sum(~keep))
         reps = reps[keep]
     floor_var = noise**2

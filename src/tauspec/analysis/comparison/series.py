@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from collections.abc import Mapping, Sequence
 from typing import Any
@@ -10,6 +9,7 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
+from ...data.record import record
 from ...spectrum.kernels import quadrature_weights
 from ...spectrum.result import Spectrum
 from .shape import CI_LEVEL
@@ -20,7 +20,7 @@ __all__ = [
 ]
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class PowerLaw:
     """A power law fitted in logs, ln y = ln k + Σ e_j ln x_j, by ordinary least squares.
 
@@ -36,19 +36,6 @@ class PowerLaw:
     n: int
     residual_rms: float
     expected: Mapping[str, str]
-
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form."""
-        return {
-            "response": self.response,
-            "measure": self.measure,
-            "exponents": dict(self.exponents),
-            "intervals": {k: list(v) for k, v in self.intervals.items()},
-            "prefactor": self.prefactor,
-            "n": self.n,
-            "residual_rms": self.residual_rms,
-            "expected": dict(self.expected),
-        }
 
     def report(self) -> str:
         """Return one line per exponent."""

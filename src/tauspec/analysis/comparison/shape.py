@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import dataclasses
 import itertools
 import math
 from collections.abc import Mapping
@@ -11,14 +10,13 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
+from ...data.record import field, record
 from .replicates import SampleUncertainty, _spread
 from .shift import fit_shift
 
-__all__ = ["LEVEL", "CI_LEVEL", "scaled_chi2", "PairComparison", "rouse_ratios"]
+__all__ = ["CI_LEVEL", "scaled_chi2", "PairComparison", "rouse_ratios"]
 
 
-#: Level of the shape test: `same_shape` is false when the p-value is below it.
-LEVEL = 0.05
 
 #: Confidence level of the reported intervals.
 CI_LEVEL = 0.95
@@ -63,15 +61,16 @@ def scaled_chi2(null: np.ndarray) -> tuple[float, float]:
 
 
 # ----------------------------------------------------------------------------------------- results
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class PairComparison:
     """Two spectra compared: H_B(τ) ≈ b · H_A(τ/a) and the shape left after the shift.
 
     ``time_shift`` is a, ``modulus_shift`` is b, each with a 95 % interval from the spread of the shifts
     fitted between replicate pairs.  ``shape_distance`` is D² (the weighted mean square of the ln H residual
     after the shift, in units of its noise variance); ``p_value`` is P(g χ²_h ≥ D²) under the null
-    distribution of D² between replicates of the same sample; ``same_shape`` is p ≥ ``level`` (``None`` when
-    there are no replicates).  ``shape_rms`` is the unweighted rms of the ln H residual (a typical factor
+    distribution of D² between replicates of the same sample; ``same_shape`` is p ≥ ``significance`` (``None``
+    when there are no replicates); the test's size is written under the JSON key ``level``.
+    ``shape_rms`` is the unweighted rms of the ln H residual (a typical factor
     e^rms between the shifted spectra).
     """
 
@@ -86,34 +85,12 @@ class PairComparison:
     p_value: float
     p_value_empirical: float
     same_shape: bool | None
-    level: float
+    significance: float = field(key="level")
     overlap: tuple[float, float]
     n_points: int
     null: Mapping[str, float]
     rouse: Mapping[str, Any] | None = None
     notes: tuple[str, ...] = ()
-
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form (keys are a public contract: add, never rename)."""
-        return {
-            "a": self.a,
-            "b": self.b,
-            "time_shift": self.time_shift,
-            "time_shift_ci": list(self.time_shift_ci),
-            "modulus_shift": self.modulus_shift,
-            "modulus_shift_ci": list(self.modulus_shift_ci),
-            "shape_distance": self.shape_distance,
-            "shape_rms": self.shape_rms,
-            "p_value": self.p_value,
-            "p_value_empirical": self.p_value_empirical,
-            "same_shape": self.same_shape,
-            "level": self.level,
-            "overlap": list(self.overlap),
-            "n_points": self.n_points,
-            "null": dict(self.null),
-            "rouse": None if self.rouse is None else dict(self.rouse),
-            "notes": list(self.notes),
-        }
 
 
 # ----------------------------------------------------------------------------------------- pairs
@@ -127,14 +104,15 @@ def _interval(center: float, values: np.ndarray) -> tuple[float, float]:
 
 
 def _compare_pair(name_a: str, name_b: str, ua: SampleUncertainty, ub: SampleUncertainty, null: np.ndarray,
-                  level: float, min_overlap: float) -> PairComparison:
+                  significance: float, min_overlap: float) -> PairComparison:
     floors = (ua.floor_level, ub.floor_level)
     fit = fit_shift(ua.u, ua.ell, ua.sigma, ub.u, ub.ell, ub.sigma, min_overlap=min_overlap, floors=floors)
     nan2 = (math.nan, math.nan)
     if fit is None:
         return PairComparison(a=name_a, b=name_b, time_shift=math.nan, time_shift_ci=nan2, modulus_shift=math.nan,
                               modulus_shift_ci=nan2, shape_distance=math.nan, shape_rms=math.nan, p_value=math.nan,
-                              p_value_empirical=math.nan, same_shape=None, level=level, overlap=nan2, n_points=0,
+                              p_value_empirical=math.nan, same_shape=None, significance=significance, overlap=nan2,
+                              n_points=0,
                               null={}, notes=(f"no shift leaves {min_overlap:.0%} of the narrower window "
                                               "overlapping; not compared",))
     R = min(len(ua.replicates), len(ub.replicates))
@@ -150,7 +128,7 @@ def _compare_pair(name_a: str, name_b: str, ua: SampleUncertainty, ub: SampleUnc
     if math.isfinite(g):
         p = float(stats.chi2.sf(fit.distance2 / g, h))
         p_emp = float((1 + np.sum(null >= fit.distance2)) / (1 + len(null)))
-        same = bool(p >= level)
+        same = bool(p >= significance)
     else:
         p = p_emp = math.nan
         same = None
@@ -164,7 +142,7 @@ def _compare_pair(name_a: str, name_b: str, ua: SampleUncertainty, ub: SampleUnc
         time_shift=math.exp(fit.log_a), time_shift_ci=_interval(fit.log_a, np.array(la)),
         modulus_shift=math.exp(fit.log_b), modulus_shift_ci=_interval(fit.log_b, np.array(lb)),
         shape_distance=fit.distance2, shape_rms=fit.rms, p_value=p, p_value_empirical=p_emp, same_shape=same,
-        level=level, overlap=fit.overlap, n_points=fit.n,
+        significance=significance, overlap=fit.overlap, n_points=fit.n,
         null={"n": len(null), "mean": float(np.mean(null)) if len(null) else math.nan,
               "var": float(np.var(null, ddof=1)) if len(null) > 1 else math.nan, "scale": g, "dof": h},
         notes=tuple(notes),

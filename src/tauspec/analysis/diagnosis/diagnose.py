@@ -17,41 +17,41 @@ Jakeš, J. (1995). Collect. Czech. Chem. Commun. 60, 1815.
 
 from __future__ import annotations
 
-import dataclasses
 import warnings
 from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
 
+from ...data.record import field, record, resolve_options
 from ...data.sweep import Sweep
 from ...errors import SettingsError, TauspecError, WeakResultWarning
 from ...models import signatures as sg
 from ...models.beadspring import BeadSpringFit, fit_all
 from ...models.intervals import add_intervals, jacobian_intervals
 from .evidence import A_ZIMM, Evidence, _fmt_value, _g, _gather
+from .options import DiagnoseOptions
 from .verdict import _STATEMENTS, decide
 
-__all__ = ["SCHEMA", "Diagnosis", "diagnose"]
+__all__ = ["Diagnosis", "diagnose"]
 
 
-SCHEMA = "tauspec.diagnosis/1"
-
-
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record(schema="tauspec.diagnosis/1")
 class Diagnosis:
     """The bead-spring diagnosis of one sweep.
 
     ``tau_R`` (s) and ``G0`` (Pa) are τ_1 and the mode modulus of the reported bead-spring fit
     (``reported_model``), with 95 % intervals; ``alpha`` is the mode exponent a of whichever general form
-    (finite-N sine or truncated power law, ``alpha_form``) fits better, with its interval.
+    (finite-N sine or truncated power law, ``alpha_form``) fits better, with its interval.  ``modes_g`` and
+    ``modes_tau`` are the sparse discrete spectrum (JSON: ``modes``).  The data (``omega``, ``storage``,
+    ``loss``), the spectrum used and the options are kept in memory for figures, not in the JSON form.
     """
 
+    sample: str
+    source: str
     verdict: str
     statement: str
     reason: str
-    sample: str
-    source: str
     tau_R: float
     tau_R_ci: tuple[float, float]
     G0: float
@@ -67,43 +67,33 @@ class Diagnosis:
     fits: Mapping[str, BeadSpringFit]
     modes_g: np.ndarray
     modes_tau: np.ndarray
-    omega: np.ndarray
-    storage: np.ndarray
-    loss: np.ndarray
-    spectrum: Any = None
+    spectrum_used: bool = False
     notes: tuple[str, ...] = ()
+    omega: np.ndarray = field(transient=True, default=None)
+    storage: np.ndarray = field(transient=True, default=None)
+    loss: np.ndarray = field(transient=True, default=None)
+    spectrum: Any = field(transient=True, default=None)
+    options: DiagnoseOptions = field(transient=True, default_factory=DiagnoseOptions)
 
     def evidence_by_name(self) -> dict[str, Evidence]:
         """Return the evidence keyed by test name."""
         return {e.test: e for e in self.evidence}
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON-ready form (see docs/diagnosis.md for the fields)."""
-        return {
-            "schema": SCHEMA,
-            "sample": self.sample,
-            "source": self.source,
-            "verdict": self.verdict,
-            "statement": self.statement,
-            "reason": self.reason,
-            "tau_R": self.tau_R,
-            "tau_R_ci": list(self.tau_R_ci),
-            "G0": self.G0,
-            "G0_ci": list(self.G0_ci),
-            "N": self.N,
-            "eta_s": self.eta_s,
-            "alpha": self.alpha,
-            "alpha_ci": list(self.alpha_ci),
-            "alpha_form": self.alpha_form,
-            "reported_model": self.reported_model,
-            "ci_method": self.ci_method,
-            "evidence": [e.to_dict() for e in self.evidence],
-            "fits": {name: fit.to_dict() for name, fit in self.fits.items()},
-            "modes": {"g": self.modes_g.tolist(), "tau": self.modes_tau.tolist(),
-                      "method": "unregularized NNLS on a fine grid (Jakes 1995)"},
-            "spectrum_used": self.spectrum is not None,
-            "notes": list(self.notes),
-        }
+    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
+        out: dict[str, Any] = {}
+        for k, v in d.items():
+            if k == "modes_g":
+                out["modes"] = {"g": v, "tau": d["modes_tau"],
+                                "method": "unregularized NNLS on a fine grid (Jakes 1995)"}
+            elif k != "modes_tau":
+                out[k] = v
+        return out
+
+    @classmethod
+    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
+        modes = d.pop("modes", None) or {}
+        d["modes_g"], d["modes_tau"] = modes.get("g", []), modes.get("tau", [])
+        return d
 
     def report(self) -> str:
         """Return a plain-text report: verdict, parameters, fit statistics and every test."""
@@ -129,29 +119,21 @@ class Diagnosis:
         return "\n".join(lines)
 
 
-def diagnose(
-    sweep: Sweep,
-    *,
-    spectrum: Any = None,
-    use_spectrum: bool = True,
-    solvent: bool = True,
-    intervals: bool = True,
-) -> Diagnosis:
+def diagnose(sweep: Sweep, options: DiagnoseOptions | None = None, *, spectrum: Any = None,
+             **changes: Any) -> Diagnosis:
     """Decide whether the unentangled bead-spring (Rouse) description holds for one sweep.
 
     Parameters
     ----------
     sweep : Sweep
         The frequency sweep.
+    options : DiagnoseOptions, optional
+        Whether to use the spectrum, fit a solvent contribution, compute profile intervals.
     spectrum : Spectrum, optional
-        A recovered continuous spectrum; computed with ``tauspec.spectrum.invert(sweep)`` when omitted
-        and ``use_spectrum`` is true.
-    use_spectrum : bool
-        When false, the spectrum tests are reported as not made.
-    solvent : bool
-        Fit a Newtonian solvent contribution η_s ω to G''.
-    intervals : bool
-        Compute the 95 % profile-likelihood intervals (the costly part).
+        A recovered continuous spectrum; computed with ``tauspec.invert(sweep)`` when omitted and
+        ``options.use_spectrum`` is true.
+    **changes
+        Fields of ``DiagnoseOptions`` given directly (``diagnose(sweep, intervals=False)``).
 
     Returns
     -------
@@ -165,6 +147,8 @@ def diagnose(
     """
     if not isinstance(sweep, Sweep):
         raise SettingsError("diagnose() needs a Sweep")
+    opts = resolve_options(DiagnoseOptions, options, changes, "diagnose()")
+    use_spectrum, solvent, intervals = opts.use_spectrum, opts.solvent, opts.intervals
     notes: list[str] = []
     spectrum_note = "the spectrum test was switched off"
     if spectrum is None and use_spectrum:
@@ -230,7 +214,8 @@ def diagnose(
         tau_R=rep.tau1, tau_R_ci=rep.tau1_ci, G0=rep.G0, G0_ci=rep.G0_ci, N=rep.N, eta_s=rep.eta_s,
         alpha=general.a, alpha_ci=general.a_ci, alpha_form=general.form, reported_model=reported,
         ci_method=rep.ci_method, evidence=tuple(evidence), fits=fits, modes_g=free.g, modes_tau=free.tau,
-        omega=w, storage=gp, loss=gpp, spectrum=spectrum, notes=tuple(notes),
+        spectrum_used=spectrum is not None, notes=tuple(notes), omega=w, storage=gp, loss=gpp, spectrum=spectrum,
+        options=opts,
     )
 
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from collections.abc import Mapping
 from typing import Any
@@ -10,6 +9,7 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
+from ...data.record import record
 from ...data.sweep import Sweep
 from ...models import signatures as sg
 from ...models.beadspring import BeadSpringFit
@@ -47,7 +47,7 @@ A_ZIMM = {"zimm_theta": 1.5, "zimm_good": 3 * NU_GOOD}
 RATIO_TOL = 1.6
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class Evidence:
     """One test: its name, the measured value, what the hypothesis expects and whether it passed.
 
@@ -66,10 +66,6 @@ class Evidence:
         if isinstance(self.value, np.generic):
             object.__setattr__(self, "value", self.value.item())
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form."""
-        return {"test": self.test, "value": self.value, "expected": self.expected, "passed": self.passed,
-                "note": self.note}
 
 
 def _g(x: float) -> str:

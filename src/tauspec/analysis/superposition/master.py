@@ -22,7 +22,6 @@ Craven, P. & Wahba, G. (1979). Smoothing noisy data with spline functions. *Nume
 
 from __future__ import annotations
 
-import dataclasses
 import math
 import warnings
 from collections.abc import Callable, Sequence
@@ -30,6 +29,7 @@ from typing import Any
 
 import numpy as np
 
+from ...data.record import field, insert_after, record
 from ...data.sweep import Sweep
 from ...errors import SettingsError, TauspecError, WeakResultWarning
 from ...models.shift_laws import Z95, ArrheniusFit, WLFFit, compare_fits, fit_arrhenius, fit_wlf
@@ -43,13 +43,12 @@ __all__ = ["MISFIT_THRESHOLD", "SuperpositionCheck", "MasterCurve", "sweep_tempe
 #: and a two-component blend 2.2–2.4, so 1.5 leaves room for an imperfect noise estimate.
 MISFIT_THRESHOLD = 1.5
 
-_SCHEMA = "tauspec.master/1"
 
 
 # --------------------------------------------------------------------------- result
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class SuperpositionCheck:
     """Whether the overlaps agree to within the noise (thermorheological simplicity).
 
@@ -62,21 +61,20 @@ class SuperpositionCheck:
     misfit: float
     threshold: float
     simple: bool
-    worst: tuple[float, float]
+    worst: tuple[float, float] = field(key="worst_pair_K")
     statement: str
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form."""
-        return {
-            "misfit": self.misfit,
-            "threshold": self.threshold,
-            "simple": self.simple,
-            "worst_pair": [self.worst[0] - 273.15, self.worst[1] - 273.15],
-            "statement": self.statement,
-        }
+    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
+        """The worst pair in °C (and in K, which is read back)."""
+        return insert_after(d, "simple", "worst_pair", [self.worst[0] - 273.15, self.worst[1] - 273.15])
+
+    @classmethod
+    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
+        d.pop("worst_pair", None)
+        return d
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True, eq=False)
+@record(schema="tauspec.master/1")
 class MasterCurve:
     """A master curve at ``T_ref`` and the shifts that made it.
 
@@ -103,7 +101,7 @@ class MasterCurve:
     noise : numpy.ndarray
         n × 2 estimated relative noise of (G', G'') of each sweep.
     inputs : tuple of Sweep
-        The sweeps as given (for plotting).
+        The sweeps as given (for plotting; in memory only).
     """
 
     T_ref: float
@@ -124,7 +122,7 @@ class MasterCurve:
     sweep: Sweep
     sources: tuple[str, ...]
     notes: tuple[str, ...]
-    inputs: tuple[Sweep, ...]
+    inputs: tuple[Sweep, ...] = field(transient=True, default=())
 
     @property
     def aT(self) -> np.ndarray:
@@ -146,11 +144,11 @@ class MasterCurve:
         """Reduced loss modulus G''/b_T, Pa."""
         return self.sweep.loss
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form: temperatures in °C (and K), the master curve in SI."""
+    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
+        """The contract form: temperatures in °C (and K), the master curve in SI, its metadata under ``meta``."""
         wlf = self.wlf.to_dict() if self.wlf is not None else {"C1": None, "C2": None}
         return {
-            "schema": _SCHEMA,
+            "schema": d["schema"],
             "sample": self.sweep.name,
             "sources": list(self.sources),
             "T_ref": self.T_ref - 273.15,
@@ -175,6 +173,24 @@ class MasterCurve:
             "omega": self.omega.tolist(),
             "storage": self.storage.tolist(),
             "loss": self.loss.tolist(),
+            "meta": dict(self.sweep.meta),
+            "source": self.sweep.source,
+        }
+
+    @classmethod
+    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
+        wlf = d.get("wlf") or {}
+        noise = d.get("noise") or {}
+        return {
+            "T_ref": d["T_ref_K"], "temperatures": d["temperatures_K"], "log_aT": d["log_aT"],
+            "log_aT_se": d["log_aT_se"], "aT_ci": d["aT_ci"], "bT": d["bT"], "log_bT_se": d["log_bT_se"],
+            "vertical": d["vertical"], "pairs": d["pairs"], "wlf": wlf if wlf.get("C1") is not None else None,
+            "arrhenius": d["arrhenius"], "better_fit": d["better_fit"], "comparison": d["fit_comparison"],
+            "check": d["superposition"],
+            "noise": np.column_stack([noise.get("storage", []), noise.get("loss", [])]).tolist(),
+            "sweep": {"sample": d.get("sample", "sample"), "source": d.get("source", ""), "meta": d.get("meta") or {},
+                      "omega": d["omega"], "storage": d["storage"], "loss": d["loss"]},
+            "sources": d.get("sources") or [], "notes": d.get("notes") or [],
         }
 
     def report(self) -> str:
@@ -363,18 +379,7 @@ def superpose(
     better, comparison = compare_fits(wlf, arr)
 
     notes: list[str] = []
-    lo, exact = _reference_position(Ts, T_ref)
-    f = 0.0
-    if not exact:
-        model = wlf if wlf is not None and not wlf.at_bound else arr
-        m_lo, m_hi = (float(v) for v in model.log_aT([Ts[lo], Ts[lo + 1]]))
-        f = -m_lo / (m_hi - m_lo) if m_hi != m_lo else (T_ref - Ts[lo]) / (Ts[lo + 1] - Ts[lo])
-        f = min(max(f, 0.0), 1.0)
-        name = "WLF" if model is wlf else "Arrhenius"
-        notes.append(f"T_ref {_celsius(T_ref)} is not a sweep temperature: log a_T there is interpolated between "
-                     f"{_celsius(Ts[lo])} and {_celsius(Ts[lo + 1])} with the fitted {name} equation")
-    elif lo == n - 1:
-        lo, f = n - 2, 1.0
+    lo, f, exact = _reference_fraction(Ts, T_ref, wlf, arr, notes)
     log_a_sorted, var_a = _chain(d, se**2, lo, f)
 
     if vertical == "fit":
@@ -395,22 +400,7 @@ def superpose(
     aT_ci = np.column_stack([10.0 ** (log_aT - half), 10.0 ** (log_aT + half)])
     bT = np.exp(log_b_sorted)[inv]
     log_bT_se = np.sqrt(var_b)[inv]
-
-    # The superposition check.
-    misfit = float(math.sqrt(sum(p.misfit**2 * p.dof for p in pairs) / sum(p.dof for p in pairs)))
-    worst = max(pairs, key=lambda p: p.misfit)
-    simple = misfit <= threshold
-    if simple:
-        statement = (f"superposition holds: the overlaps agree to within the noise "
-                     f"(misfit {misfit:.2f} × noise, threshold {threshold:g})")
-    else:
-        statement = (f"superposition fails: the overlaps differ by {misfit:.2f} × the noise (threshold "
-                     f"{threshold:g}; worst between {_celsius(worst.T_low)} and {_celsius(worst.T_high)}); "
-                     "the material looks thermorheologically complex (a blend, near T_g, a gel?) and the master "
-                     "curve should not be trusted — compare the van Gurp–Palmen plot")
-        warnings.warn(statement, WeakResultWarning, stacklevel=2)
-    check = SuperpositionCheck(misfit=misfit, threshold=float(threshold), simple=simple,
-                               worst=(worst.T_low, worst.T_high), statement=statement)
+    check = _superposition_check(pairs, threshold)
 
     sources = tuple(s.source or s.name for s in sweeps)
     master = _master_sweep(sweeps, T, T_ref, log_aT, bT, sources, wlf, arr, check, vertical)
@@ -436,6 +426,47 @@ def superpose(
         notes=tuple(notes),
         inputs=tuple(sweeps),
     )
+
+
+def _reference_fraction(Ts: np.ndarray, T_ref: float, wlf: WLFFit | None, arr: ArrheniusFit,
+                        notes: list[str]) -> tuple[int, float, bool]:
+    """Where T_ref lies among the sorted temperatures: (index below, fraction of the way to the next, exact?).
+
+    Between two sweep temperatures the fraction follows the fitted shift law (WLF unless it ran into its bound,
+    else Arrhenius), so that log a_T(T_ref) = 0 on the fitted curve; a note says so.
+    """
+    n = len(Ts)
+    lo, exact = _reference_position(Ts, T_ref)
+    f = 0.0
+    if not exact:
+        model = wlf if wlf is not None and not wlf.at_bound else arr
+        m_lo, m_hi = (float(v) for v in model.log_aT([Ts[lo], Ts[lo + 1]]))
+        f = -m_lo / (m_hi - m_lo) if m_hi != m_lo else (T_ref - Ts[lo]) / (Ts[lo + 1] - Ts[lo])
+        f = min(max(f, 0.0), 1.0)
+        name = "WLF" if model is wlf else "Arrhenius"
+        notes.append(f"T_ref {_celsius(T_ref)} is not a sweep temperature: log a_T there is interpolated between "
+                     f"{_celsius(Ts[lo])} and {_celsius(Ts[lo + 1])} with the fitted {name} equation")
+    elif lo == n - 1:
+        lo, f = n - 2, 1.0
+    return lo, f, exact
+
+
+def _superposition_check(pairs: Sequence[PairShift], threshold: float) -> SuperpositionCheck:
+    """The pooled overlap misfit in units of the noise, and the verdict on superposition (a warning when it fails)."""
+    misfit = float(math.sqrt(sum(p.misfit**2 * p.dof for p in pairs) / sum(p.dof for p in pairs)))
+    worst = max(pairs, key=lambda p: p.misfit)
+    simple = misfit <= threshold
+    if simple:
+        statement = (f"superposition holds: the overlaps agree to within the noise "
+                     f"(misfit {misfit:.2f} × noise, threshold {threshold:g})")
+    else:
+        statement = (f"superposition fails: the overlaps differ by {misfit:.2f} × the noise (threshold "
+                     f"{threshold:g}; worst between {_celsius(worst.T_low)} and {_celsius(worst.T_high)}); "
+                     "the material looks thermorheologically complex (a blend, near T_g, a gel?) and the master "
+                     "curve should not be trusted — compare the van Gurp–Palmen plot")
+        warnings.warn(statement, WeakResultWarning, stacklevel=3)
+    return SuperpositionCheck(misfit=misfit, threshold=float(threshold), simple=simple,
+                              worst=(worst.T_low, worst.T_high), statement=statement)
 
 
 def _master_sweep(sweeps, T, T_ref, log_aT, bT, sources, wlf, arr, check, vertical) -> Sweep:

@@ -11,6 +11,7 @@ import numpy as np
 from numpy.polynomial import legendre
 from scipy import optimize
 
+from ...data.record import field, record
 from ...data.sweep import Sweep
 from ...errors import TauspecError
 
@@ -117,7 +118,7 @@ def _prepare(sweep: Sweep, T: float, index: int) -> _Curve:
 # --------------------------------------------------------------------------- one pair of sweeps
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class PairShift:
     """The shift between two adjacent temperatures ``T_low`` < ``T_high`` (K).
 
@@ -131,33 +132,26 @@ class PairShift:
     (about 1 when superposition holds).
     """
 
-    T_low: float
-    T_high: float
+    T_low: float = field(key="T_low_K")
+    T_high: float = field(key="T_high_K")
     log_shift: float
     se: float
     log_vertical: float
     vertical_se: float
-    overlap: float
+    overlap: float = field(key="overlap_decades")
     points: int
     misfit: float
     dof: int
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form (temperatures in °C and K)."""
-        return {
-            "T_low": self.T_low - 273.15,
-            "T_high": self.T_high - 273.15,
-            "T_low_K": self.T_low,
-            "T_high_K": self.T_high,
-            "log_shift": self.log_shift,
-            "se": self.se,
-            "log_vertical": self.log_vertical,
-            "vertical_se": self.vertical_se,
-            "overlap_decades": self.overlap,
-            "points": self.points,
-            "misfit": self.misfit,
-            "dof": self.dof,
-        }
+    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
+        """Temperatures in °C first, then in K (read back from K)."""
+        return {"T_low": self.T_low - 273.15, "T_high": self.T_high - 273.15, **d}
+
+    @classmethod
+    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
+        d.pop("T_low", None)
+        d.pop("T_high", None)
+        return d
 
 
 def _celsius(T: float) -> str:

@@ -52,29 +52,27 @@ smoothing spline. J. R. Stat. Soc. B 45:133–150.
 
 from __future__ import annotations
 
-import dataclasses
 import math
 import warnings
-from collections.abc import Mapping, Sequence
+from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
 
+from ...data.record import field, insert_after, record, resolve_options
 from ...errors import SettingsError, WeakResultWarning
 from ...spectrum.result import Spectrum
-from .noise import Noise, sweep_of
+from .noise import Noise
+from .options import INTERVALS, BandOptions
 from .resample import _design, _run_resamples
 from .statistics import _evaluate, _resolve_statistics
 
-__all__ = ["SCHEMA", "INTERVALS", "Interval", "Bands", "pointwise_interval", "confidence_bands"]
+__all__ = ["Interval", "Bands", "pointwise_interval", "confidence_bands"]
 
 
-#: Version of the JSON form of a Bands result.
-SCHEMA = "tauspec.bands/1"
-INTERVALS = ("widened", "basic", "percentile")
 
 
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class Interval:
     """A confidence interval of one reported number.
 
@@ -82,7 +80,6 @@ class Interval:
     resamples on which the statistic was finite.
     """
 
-    name: str
     estimate: float
     lo: float
     hi: float
@@ -91,13 +88,8 @@ class Interval:
     n: int
     description: str = ""
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form."""
-        return {"estimate": self.estimate, "lo": self.lo, "hi": self.hi, "level": self.level,
-                "method": self.method, "n": self.n, "description": self.description}
 
-
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record(schema="tauspec.bands/1")
 class Bands:
     """Pointwise confidence band of H(τ) and intervals of reported numbers.
 
@@ -147,8 +139,8 @@ class Bands:
     intervals: Mapping[str, Interval]
     seed: int
     strength_range: tuple[float, float]
-    samples: np.ndarray = dataclasses.field(default_factory=lambda: np.zeros((0, 0)), repr=False, compare=False)
-    statistic_samples: Mapping[str, np.ndarray] = dataclasses.field(default_factory=dict, repr=False, compare=False)
+    samples: np.ndarray = field(transient=True, default_factory=lambda: np.zeros((0, 0)))
+    statistic_samples: Mapping[str, np.ndarray] = field(transient=True, default_factory=dict)
 
     def describe(self) -> str:
         """Return how the band was computed, in one line."""
@@ -156,28 +148,13 @@ class Bands:
         lam = "λ re-chosen on each resample" if self.strength_mode == "rechosen" else "λ fixed at the original"
         return f"{kind}, {self.n_resamples - self.n_failed} resamples, {lam}, pointwise {_BAND_WORDS[self.interval]}"
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form (keys are a public contract: add, never rename)."""
-        return {
-            "schema": SCHEMA,
-            "tau": self.tau.tolist(),
-            "H": self.H.tolist(),
-            "H_lo": self.H_lo.tolist(),
-            "H_hi": self.H_hi.tolist(),
-            "in_window": self.in_window.tolist(),
-            "level": self.level,
-            "method": self.method,
-            "interval": self.interval,
-            "strength_mode": self.strength_mode,
-            "description": self.describe(),
-            "n_resamples": self.n_resamples,
-            "n_failed": self.n_failed,
-            "n_cautioned": self.n_cautioned,
-            "noise": self.noise.to_dict(),
-            "intervals": {k: v.to_dict() for k, v in self.intervals.items()},
-            "seed": self.seed,
-            "strength_range": list(self.strength_range),
-        }
+    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
+        return insert_after(d, "strength_mode", "description", self.describe())
+
+    @classmethod
+    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
+        d.pop("description", None)
+        return d
 
     def report(self) -> str:
         """Return a short text summary."""
@@ -233,57 +210,28 @@ _BAND_WORDS = {
 }
 
 
-def confidence_bands(
-    spectrum: Spectrum,
-    *,
-    resamples: int = 200,
-    method: str = "residual",
-    noise: float | Sequence[float] | None = None,
-    strength_mode: str = "fixed",
-    interval: str = "widened",
-    level: float = 0.95,
-    seed: int = 0,
-    jobs: int = 1,
-    statistics: Mapping[str, Any] | Sequence[str] | None = None,
-) -> Bands:
+def confidence_bands(spectrum: Spectrum, options: BandOptions | None = None, **changes: Any) -> Bands:
     """Pointwise confidence band of H(τ) and intervals of η_s, G_e and other statistics.
 
     Each of ``resamples`` sweeps is made from the fitted moduli of
     ``spectrum`` with relative noise — drawn from N(0, σ²) (``"parametric"``)
     or resampled from the centred, rescaled relative residuals
-    (``"residual"``) — and inverted by :func:`tauspec.spectrum.invert` with
-    the original settings, λ re-chosen by the same rule (``"rechosen"``) or
-    fixed at the original value (``"fixed"``).
+    (``"residual"``) — and inverted by :func:`tauspec.invert` with
+    the original options, λ re-chosen by the same rule (``"rechosen"``) or
+    fixed at the original value (``"fixed"``, the default: measured to cover as well as re-choosing it, with a
+    narrower band; docs/uncertainty.md).  The band is formed by :func:`pointwise_interval`; ``"widened"`` (the
+    default) is the one whose coverage was measured nearest the nominal level (docs/uncertainty.md).
 
     Parameters
     ----------
     spectrum : Spectrum
         The inversion to put a band on.
-    resamples : int
-        Number of resampled sweeps B (at least 10).
-    method : {"residual", "parametric"}
-    noise : float or (float, float), optional
-        Known relative noise of G' and G'' (e.g. 0.02); estimated from the
-        residuals when omitted (:func:`estimate_noise`).
-    strength_mode : {"fixed", "rechosen"}
-        λ fixed at the original choice (default: measured to cover as well as
-        re-choosing it, with a narrower band; docs/uncertainty.md) or re-chosen
-        by the original rule on every resample.
-    interval : {"widened", "basic", "percentile"}
-        How the band is formed from the resampled spectra (see
-        :func:`pointwise_interval`); ``"widened"`` (the default) is the one whose
-        coverage was measured nearest the nominal level (docs/uncertainty.md).
-    level : float
-        Nominal coverage, 0 < level < 1.
-    seed : int
-        Resample b uses ``numpy.random.default_rng(SeedSequence(seed).spawn(B)[b])``,
-        so the result does not depend on ``jobs`` or scheduling.
-    jobs : int
-        Worker processes (joblib); 1 runs in this process.
-    statistics : sequence of names or mapping of name to callable/Statistic, optional
-        Statistics to compute intervals for: names from :data:`STATISTICS`, or
-        callables ``fn(sweep, spectrum) -> float | mapping``.  Default: every
-        registered statistic that applies to the spectrum.
+    options : BandOptions, optional
+        Resamples, method, known noise, strength mode, interval kind, level, seed, jobs and the statistics
+        (names from :data:`~tauspec.analysis.uncertainty.statistics.STATISTICS`, or callables
+        ``fn(sweep, spectrum) -> float | mapping``); see :class:`~tauspec.analysis.uncertainty.options.BandOptions`.
+    **changes
+        Fields of ``BandOptions`` given directly (``confidence_bands(spectrum, resamples=100)``).
 
     Returns
     -------
@@ -294,18 +242,11 @@ def confidence_bands(
     Efron & Tibshirani (1993), *An Introduction to the Bootstrap*, ch. 6, 9, 13;
     Davison & Hinkley (1997), *Bootstrap Methods and their Application*, ch. 5–6.
     """
-    if not isinstance(resamples, int | np.integer) or resamples < 10:
-        raise SettingsError(f"resamples must be an integer of at least 10, not {resamples!r}")
-    if interval not in INTERVALS:
-        raise SettingsError(f"interval must be one of {list(INTERVALS)}, not {interval!r}")
-    if not (isinstance(level, float | int) and 0.5 <= float(level) < 1):
-        raise SettingsError(f"level must lie in [0.5, 1), not {level!r}")
-    if not isinstance(jobs, int | np.integer) or jobs < 1:
-        raise SettingsError(f"jobs must be a positive integer, not {jobs!r}")
-    if not isinstance(seed, int | np.integer) or seed < 0:
-        raise SettingsError(f"seed must be a nonnegative integer, not {seed!r}")
-    stats = _resolve_statistics(spectrum, statistics)
-    design = _design(spectrum, method, noise, strength_mode, stats)
+    opts = resolve_options(BandOptions, options, changes, "confidence_bands()")
+    resamples, method, interval, level = opts.resamples, opts.method, opts.interval, opts.level
+    strength_mode, seed, jobs = opts.strength_mode, opts.seed, opts.jobs
+    stats = _resolve_statistics(spectrum, opts.statistics)
+    design = _design(spectrum, method, opts.noise, strength_mode, stats)
     seeds = np.random.SeedSequence(int(seed)).spawn(int(resamples))
 
     if jobs == 1:
@@ -331,7 +272,7 @@ def confidence_bands(
     owner: dict[str, str] = {}
     with warnings.catch_warnings():  # the cautions of the original inversion were given already
         warnings.simplefilter("ignore", WeakResultWarning)
-        estimates = _evaluate(stats, sweep_of(spectrum), spectrum, owner)
+        estimates = _evaluate(stats, spectrum.as_sweep(), spectrum, owner)
     how = (f"{_BAND_WORDS[interval].split(' band')[0]} bootstrap interval, {method} resampling, "
            f"λ {'re-chosen' if strength_mode == 'rechosen' else 'fixed'}")
     intervals: dict[str, Interval] = {}
@@ -344,14 +285,14 @@ def confidence_bands(
             lo = hi = math.nan
         else:
             lo, hi = (float(v) for v in pointwise_interval(est, good, float(level), interval, st.nonnegative))
-        intervals[name] = Interval(name=name, estimate=est, lo=lo, hi=hi, level=float(level),
+        intervals[name] = Interval(estimate=est, lo=lo, hi=hi, level=float(level),
                                    method=f"{how}, {len(good)} of {len(ok)} resamples", n=len(good),
                                    description=st.description)
-    lams = np.array([r[2] for r in ok])
+    strengths = np.array([r[2] for r in ok])
     return Bands(
         tau=spectrum.tau, H=spectrum.H, H_lo=H_lo, H_hi=H_hi, in_window=spectrum.in_window, level=float(level),
         method=method, interval=interval, strength_mode=strength_mode, n_resamples=int(resamples),
         n_failed=n_failed, n_cautioned=sum(bool(r[3]) for r in ok), noise=design.noise, intervals=intervals,
-        seed=int(seed), strength_range=(float(np.quantile(lams, 0.05)), float(np.quantile(lams, 0.95))),
+        seed=int(seed), strength_range=(float(np.quantile(strengths, 0.05)), float(np.quantile(strengths, 0.95))),
         samples=Hs, statistic_samples=columns,
     )

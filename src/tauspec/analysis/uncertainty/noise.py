@@ -2,19 +2,17 @@
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from collections.abc import Sequence
-from typing import Any
 
 import numpy as np
 
-from ...data.sweep import Sweep
+from ...data.record import record
 from ...errors import SettingsError
 from ...spectrum.problem import build_problem
 from ...spectrum.result import Spectrum
 
-__all__ = ["MAX_NOISE", "Noise", "sweep_of", "estimate_noise"]
+__all__ = ["MAX_NOISE", "Noise", "estimate_noise", "pooled_noise"]
 
 
 #: Largest relative noise the resampling accepts: beyond it 1 + σε can turn negative.
@@ -22,7 +20,7 @@ MAX_NOISE = 0.2
 
 
 # --------------------------------------------------------------------------- results
-@dataclasses.dataclass(frozen=True, kw_only=True)
+@record
 class Noise:
     """The relative noise of G' and G'' used for resampling.
 
@@ -45,30 +43,15 @@ class Noise:
     dof: float
     how: str
 
-    def to_dict(self) -> dict[str, Any]:
-        """Return the JSON form."""
-        return {"storage": self.storage, "loss": self.loss, "given": self.given, "dof": self.dof, "how": self.how}
-
 
 # --------------------------------------------------------------------------- noise
-def sweep_of(spectrum: Spectrum, storage: np.ndarray | None = None, loss: np.ndarray | None = None) -> Sweep:
-    """Return the sweep a spectrum was computed from (or with other moduli on the same frequencies)."""
-    return Sweep(omega=spectrum.omega, storage=spectrum.storage if storage is None else storage,
-                 loss=spectrum.loss if loss is None else loss, name=spectrum.sample, meta=spectrum.meta,
-                 source=spectrum.source)
-
-
 def _influence(spectrum: Spectrum) -> np.ndarray:
     """Influence matrix H_λ = A_F (A_FᵀA_F + λ² L_FᵀL_F)⁻¹ A_Fᵀ of the fit, on its free set F."""
-    s = spectrum.settings
-    eta_known = s.get("eta_s_known")
-    solvent = bool(s.get("solvent", True))
-    plateau = bool(s.get("plateau", False))
-    prob = build_problem(sweep_of(spectrum), spectrum.tau, solvent=solvent, plateau=plateau, eta_s=eta_known)
+    prob = build_problem(spectrum.as_sweep(), spectrum.tau, spectrum.options)
     values = [spectrum.H]
     if prob.solvent:
         values.append([spectrum.eta_s])
-    if prob.plateau:
+    if prob.equilibrium_modulus:
         values.append([spectrum.G_e])
     x = np.concatenate(values) / prob.scale
     F = x > 1e-10 * max(float(np.max(x)), 1e-300)
@@ -134,3 +117,18 @@ def _given_noise(noise: float | Sequence[float]) -> Noise:
     if vals.size != 2 or not np.all(np.isfinite(vals)) or np.any(vals <= 0):
         raise SettingsError(f"noise must be a positive relative size (or one for G' and one for G''), not {noise!r}")
     return Noise(storage=float(vals[0]), loss=float(vals[1]), given=True, dof=math.nan, how="given")
+
+
+def pooled_noise(spectrum: Spectrum) -> float:
+    """One relative noise level for G' and G'' together: rms · √(m/(m − p)).
+
+    p = tr H_λ is the effective number of parameters of the regularized fit, the trace of the influence matrix
+    of :func:`estimate_noise` (Wahba 1990, *Spline Models for Observational Data*, SIAM, ch. 4: the residual of a
+    linear smoother underestimates the noise by √(1 − p/m)).
+    """
+    try:
+        p = float(np.trace(_influence(spectrum)))
+    except (ValueError, np.linalg.LinAlgError):
+        p = 0.0
+    m = 2 * len(spectrum.omega)
+    return float(spectrum.residual_rms) * math.sqrt(m / max(m - p, 1.0))

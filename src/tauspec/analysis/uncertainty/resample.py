@@ -10,18 +10,19 @@ from typing import Any
 
 import numpy as np
 
+from ...data.record import check_choice
 from ...data.sweep import Sweep
 from ...errors import SettingsError, TauspecError, WeakResultWarning
 from ...spectrum.invert import invert
+from ...spectrum.options import InvertOptions
 from ...spectrum.result import Spectrum
-from .noise import MAX_NOISE, Noise, _given_noise, estimate_noise, sweep_of
+from .noise import MAX_NOISE, Noise, _given_noise, estimate_noise
+from .options import METHODS
 from .statistics import Statistic, _evaluate
 
-__all__ = ["METHODS", "STRENGTH_MODES", "resample_sweeps"]
+__all__ = ["resample_sweeps", "parametric_sweep", "replicate_options"]
 
 
-METHODS = ("residual", "parametric")
-STRENGTH_MODES = ("fixed", "rechosen")
 
 
 # --------------------------------------------------------------------------- resampling
@@ -34,7 +35,7 @@ class _Design:
     noise: Noise
     res_storage: np.ndarray  # centred, rescaled relative residuals (residual bootstrap)
     res_loss: np.ndarray
-    invert_kwargs: Mapping[str, Any]
+    options: InvertOptions
     stats: Mapping[str, Statistic]
 
 
@@ -46,37 +47,39 @@ def _residual_pool(fit: np.ndarray, data: np.ndarray, sigma: float) -> np.ndarra
     return e * (sigma / rms) if rms > 0 else e
 
 
+def parametric_sweep(spectrum: Spectrum, sigma_storage: float, sigma_loss: float,
+                     rng: np.random.Generator) -> Sweep:
+    """The fitted moduli of ``spectrum`` re-noised: G'_fit (1 + σ' ε), G''_fit (1 + σ'' ε'), ε, ε' standard normal.
+
+    The parametric bootstrap of Efron & Tibshirani (1993), ch. 6, under the multiplicative noise model of the
+    module :mod:`~tauspec.analysis.uncertainty.noise`.  The G' draws come first, then the G'' draws (the order
+    fixes the stream of a seed).  A factor below 10⁻³ (a draw beyond −5σ at σ = 0.2) is held at 10⁻³ so
+    that every modulus stays positive.
+    """
+    n = len(spectrum.omega)
+    fp = np.maximum(1.0 + sigma_storage * rng.standard_normal(n), 1e-3)
+    fpp = np.maximum(1.0 + sigma_loss * rng.standard_normal(n), 1e-3)
+    return spectrum.as_sweep(spectrum.storage_fit * fp, spectrum.loss_fit * fpp)
+
+
+def replicate_options(spectrum: Spectrum, *, fixed_strength: bool) -> InvertOptions:
+    """The options that reproduce ``spectrum`` on its own grid, λ re-chosen by its rule or fixed at its value."""
+    opts = dataclasses.replace(spectrum.options, grid=np.asarray(spectrum.tau))
+    if fixed_strength or spectrum.chosen_by == "fixed":
+        opts = dataclasses.replace(opts, strength=float(spectrum.strength))
+    return opts
+
+
 def _resampled(design: _Design, rng: np.random.Generator) -> Sweep:
     sp = design.spectrum
-    n = len(sp.omega)
     if design.method == "parametric":
-        ep = design.noise.storage * rng.standard_normal(n)
-        epp = design.noise.loss * rng.standard_normal(n)
-    else:
-        ep = design.res_storage[rng.integers(0, n, n)]
-        epp = design.res_loss[rng.integers(0, n, n)]
-    fp, fpp = 1.0 + ep, 1.0 + epp
+        return parametric_sweep(sp, design.noise.storage, design.noise.loss, rng)
+    n = len(sp.omega)
+    fp = 1.0 + design.res_storage[rng.integers(0, n, n)]
+    fpp = 1.0 + design.res_loss[rng.integers(0, n, n)]
     if np.any(fp <= 0) or np.any(fpp <= 0):
         raise SettingsError("a resampled modulus is not positive; the noise is too large for this method")
-    return sweep_of(sp, sp.storage_fit * fp, sp.loss_fit * fpp)
-
-
-def _invert_kwargs(spectrum: Spectrum, strength_mode: str) -> dict[str, Any]:
-    """The settings of the original inversion, for :func:`tauspec.spectrum.invert`."""
-    s = spectrum.settings
-    kw: dict[str, Any] = {
-        "grid": spectrum.tau,
-        "select": s.get("select", "lcurve"),
-        "solvent": bool(s.get("solvent", True)),
-        "plateau": bool(s.get("plateau", False)),
-        "eta_s": s.get("eta_s_known"),
-        "bounds": {k: tuple(v) for k, v in dict(s.get("bounds") or {}).items()},
-        "solver": s.get("solver", "auto"),
-        "n_strengths": int(s.get("n_strengths", 50)),
-    }
-    if strength_mode == "fixed" or spectrum.select == "fixed":
-        kw["strength"] = float(spectrum.strength)
-    return kw
+    return sp.as_sweep(sp.storage_fit * fp, sp.loss_fit * fpp)
 
 
 def _run_resamples(design: _Design, seeds: Sequence[np.random.SeedSequence]) -> list[tuple[Any, ...]]:
@@ -95,7 +98,7 @@ def _run_resamples(design: _Design, seeds: Sequence[np.random.SeedSequence]) -> 
                 warnings.simplefilter("always", WeakResultWarning)
                 try:
                     sweep = _resampled(design, rng)
-                    sp = invert(sweep, **design.invert_kwargs)
+                    sp = invert(sweep, design.options)
                     stats = _evaluate(design.stats, sweep, sp)
                 except TauspecError as exc:
                     out.append((None, {}, math.nan, False, exc.reason))
@@ -108,16 +111,13 @@ def _run_resamples(design: _Design, seeds: Sequence[np.random.SeedSequence]) -> 
 def resample_sweeps(spectrum: Spectrum, n: int, *, method: str = "residual", noise: Any = None,
                     seed: int = 0) -> list[Sweep]:
     """Return the ``n`` resampled sweeps :func:`confidence_bands` would invert (for inspection and tests)."""
+    check_choice("method", method, METHODS)
     design = _design(spectrum, method, noise, "fixed", {})
     return [_resampled(design, np.random.default_rng(ss)) for ss in np.random.SeedSequence(seed).spawn(n)]
 
 
 def _design(spectrum: Spectrum, method: str, noise: Any, strength_mode: str,
             stats: Mapping[str, Statistic]) -> _Design:
-    if method not in METHODS:
-        raise SettingsError(f"method must be one of {list(METHODS)}, not {method!r}")
-    if strength_mode not in STRENGTH_MODES:
-        raise SettingsError(f"strength_mode must be one of {list(STRENGTH_MODES)}, not {strength_mode!r}")
     if not (np.all(spectrum.storage_fit > 0) and np.all(spectrum.loss_fit > 0)):
         raise SettingsError("the fitted moduli are not all positive; they cannot be resampled",
                             spectrum.source or spectrum.sample)
@@ -131,6 +131,6 @@ def _design(spectrum: Spectrum, method: str, noise: Any, strength_mode: str,
         noise=nz,
         res_storage=_residual_pool(spectrum.storage_fit, spectrum.storage, nz.storage),
         res_loss=_residual_pool(spectrum.loss_fit, spectrum.loss, nz.loss),
-        invert_kwargs=_invert_kwargs(spectrum, strength_mode),
+        options=replicate_options(spectrum, fixed_strength=strength_mode == "fixed"),
         stats=stats,
     )

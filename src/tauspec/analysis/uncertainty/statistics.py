@@ -45,12 +45,11 @@ def _G_e(sweep: Sweep, spectrum: Spectrum) -> float:
 
 
 def _fits_eta_s(spectrum: Spectrum) -> bool:
-    s = spectrum.settings
-    return bool(s.get("solvent", True)) and s.get("eta_s_known") is None
+    return spectrum.options.solvent and spectrum.options.eta_s is None
 
 
 def _fits_G_e(spectrum: Spectrum) -> bool:
-    return bool(spectrum.settings.get("plateau", False))
+    return spectrum.options.equilibrium_modulus
 
 
 _DERIVED = ("eta0", "Je0", "tau_n", "tau_w", "tau_longest")
@@ -66,10 +65,9 @@ def _derived(sweep: Sweep, spectrum: Spectrum) -> dict[str, float]:
 def _modes(sweep: Sweep, spectrum: Spectrum) -> dict[str, float]:
     from ...modes.derived import derive
     from ...modes.fit import fit_modes
+    from ...modes.options import ModesOptions
 
-    s = spectrum.settings
-    modes = fit_modes(sweep, spectrum, solvent=bool(s.get("solvent", True)), plateau=bool(s.get("plateau", False)),
-                      eta_s=s.get("eta_s_known"))
+    modes = fit_modes(sweep, spectrum, ModesOptions.like(spectrum.options))
     d = derive(modes)
     return {"n_modes": float(modes.n_modes), **{f"modes_{k}": getattr(d, k) for k in _DERIVED}}
 
@@ -92,15 +90,16 @@ def _bead_spring(sweep: Sweep, spectrum: Spectrum) -> dict[str, float]:
 STATISTICS: dict[str, Statistic] = {
     "eta_s": Statistic(_eta_s, "solvent viscosity η_s (Pa·s) of the inversion", True, _fits_eta_s),
     "G_e": Statistic(_G_e, "equilibrium modulus G_e (Pa) of the inversion", True, _fits_G_e),
-    "derived": Statistic(_derived, "η0, J_e⁰, τ_n, τ_w and the longest time of the spectrum (tauspec.derived.derive)",
+    "derived": Statistic(_derived, "η0, J_e⁰, τ_n, τ_w and the longest time of the spectrum (tauspec.derive)",
                          True),
-    "modes": Statistic(_modes, "number of Maxwell modes and the derived numbers from them (tauspec.modes.fit_modes, "
-                       "then tauspec.derived.derive); single modes are not compared across resamples, whose "
+    "modes": Statistic(_modes, "number of Maxwell modes and the derived numbers from them (tauspec.fit_modes, "
+                       "then tauspec.derive); single modes are not compared across resamples, whose "
                        "count may differ", True, None, False),
-    "rouse": Statistic(_rouse, "τ_R = τ_1 (s) and G0 (Pa) of the finite-N Rouse fit (tauspec.beadspring.fit_chain)",
+    "rouse": Statistic(_rouse, "τ_R = τ_1 (s) and G0 (Pa) of the finite-N Rouse fit "
+                       "(tauspec.models.beadspring.fit_chain)",
                        True, None, False),
     "bead_spring": Statistic(_bead_spring, "τ_R (s), G0 (Pa) of the reported model and the mode exponent a of the "
-                             "bead-spring diagnosis (tauspec.diagnosis.diagnose, without its own intervals)",
+                             "bead-spring diagnosis (tauspec.diagnose, without its own intervals)",
                              True, None, False),
 }
 

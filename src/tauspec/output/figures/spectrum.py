@@ -105,7 +105,7 @@ def plot_lcurve(spectrum: Any, ax: Any = None) -> Any:
     ax.loglog(lc.residual_norm, lc.solution_norm, ".-", color="0.3", lw=0.8)
     i = lc.index
     ax.loglog([lc.residual_norm[i]], [lc.solution_norm[i]], "o", color=LOSS_COLOR,
-              label=f"chosen λ = {lc.strength[i]:.3g} ({spectrum.select})")
+              label=f"chosen λ = {lc.strength[i]:.3g} ({spectrum.chosen_by})")
     ax.set_xlabel("residual norm ‖W(Kh − y)‖")
     ax.set_ylabel("roughness ‖L h‖")
     ax.legend(frameon=False)

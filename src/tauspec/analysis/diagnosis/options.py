@@ -1,0 +1,32 @@
+"""The options of the diagnosis: one frozen record, validated once."""
+
+from __future__ import annotations
+
+from ...data.record import check_bool, option, record
+
+__all__ = ["DiagnoseOptions"]
+
+
+@record
+class DiagnoseOptions:
+    """How :func:`~tauspec.analysis.diagnosis.diagnose.diagnose` decides.
+
+    Attributes
+    ----------
+    use_spectrum : bool
+        Make the tests on the recovered continuous spectrum (computed when none is given).
+    solvent : bool
+        Fit a Newtonian contribution η_s ω to G'' in the chain fits.
+    intervals : bool
+        Compute the 95 % profile-likelihood intervals (the costly part); otherwise Jacobian intervals.
+    """
+
+    use_spectrum: bool = option(True, negate="--no-spectrum",
+                                help="make the continuous-spectrum tests (--no-spectrum: faster; listed as not made)")
+    solvent: bool = option(True, negate="--no-solvent", help="fit a Newtonian contribution η_s ω to G''")
+    intervals: bool = option(True, negate="--no-intervals",
+                             help="profile-likelihood intervals (--no-intervals: Jacobian intervals, faster)")
+
+    def __post_init__(self) -> None:
+        for name in ("use_spectrum", "solvent", "intervals"):
+            check_bool(name, getattr(self, name))

@@ -1,0 +1,91 @@
+"""Manifests: a CSV file that lists sweep files and, optionally, what is known about each sample.
+
+A manifest has a header row with a ``file`` column (paths relative to the manifest's own folder, or absolute) and
+optional columns ``M`` (molecular weight, g/mol), ``c`` (concentration), ``T`` (temperature: °C, or K when
+written with K) and ``label``; empty cells mean "not given", ``#`` lines are comments.  Other columns are kept
+as text in ``extra``; the batch ignores them, ``compare`` refuses them (a misspelt ``M`` must not pass unseen).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import os
+from collections.abc import Mapping
+from pathlib import Path
+
+from ..errors import SettingsError
+from .record import field, record
+from .units import temperature_kelvin
+
+__all__ = ["ManifestEntry", "MANIFEST_COLUMNS", "read_manifest"]
+
+#: The columns a manifest may name besides its own extras.
+MANIFEST_COLUMNS = ("file", "M", "c", "T", "label")
+
+
+@record
+class ManifestEntry:
+    """One row of a manifest: the file as written and where it is, and the sample's known values (SI, T in K)."""
+
+    file: str
+    path: Path
+    M: float | None = None
+    c: float | None = None
+    T: float | None = None
+    label: str | None = None
+    extra: Mapping[str, str] = field(default_factory=dict)
+    line: int = 0
+
+
+def _number(text: str, what: str, source: str, line: int) -> float | None:
+    text = (text or "").strip()
+    if not text:
+        return None
+    try:
+        value = float(text)
+    except ValueError:
+        raise SettingsError(f"{what} {text!r} is not a number", source, line) from None
+    if not (value > 0 and math.isfinite(value)):
+        raise SettingsError(f"{what} must be positive, not {text!r}", source, line)
+    return value
+
+
+def read_manifest(path: str | os.PathLike[str]) -> list[ManifestEntry]:
+    """Read a manifest; every problem is one :class:`~tauspec.errors.SettingsError` naming the file and line."""
+    source = str(path)
+    try:
+        text = Path(path).read_text(encoding="utf-8-sig")
+    except OSError as exc:
+        raise SettingsError(f"cannot read the manifest ({exc.strerror or exc})", source) from None
+    except UnicodeDecodeError:
+        raise SettingsError("the manifest is not UTF-8 text", source) from None
+    numbered = [(k, line) for k, line in enumerate(text.splitlines(), start=1)
+                if line.strip() and not line.lstrip().startswith("#")]
+    rows = list(csv.reader(io.StringIO("\n".join(line for _, line in numbered))))
+    if not rows:
+        raise SettingsError("the manifest is empty", source)
+    header = [h.strip() for h in rows[0]]
+    if "file" not in header:
+        raise SettingsError("the manifest needs a header row with a 'file' column (and optionally "
+                            f"{', '.join(MANIFEST_COLUMNS[1:])})", source, numbered[0][0])
+    folder = Path(path).parent
+    out = []
+    for (line, _), row in zip(numbered[1:], rows[1:]):
+        cells = dict(zip(header, (c.strip() for c in row)))
+        name = cells.get("file", "")
+        if not name:
+            raise SettingsError("a manifest row has no file", source, line)
+        T = None
+        if cells.get("T"):
+            try:
+                T = temperature_kelvin(cells["T"])
+            except ValueError as exc:
+                raise SettingsError(f"T {cells['T']!r}: {exc}", source, line) from None
+        f = Path(name)
+        out.append(ManifestEntry(
+            file=name, path=f if f.is_absolute() else folder / f, M=_number(cells.get("M", ""), "M", source, line),
+            c=_number(cells.get("c", ""), "c", source, line), T=T, label=cells.get("label") or None,
+            extra={k: v for k, v in cells.items() if k not in MANIFEST_COLUMNS}, line=line))
+    return out
