@@ -84,7 +84,7 @@ def test_outputs_summary_and_hashes(archive, reference):
                                           "error"}
     assert list(rows[0]) == list(SUMMARY_COLUMNS)
     for row in rows:
-        folder = out / os.path.splitext(row["file"])[0]
+        folder = out / row["file"]  # the result folder is named by the file, suffix included
         assert (folder / "spectrum.csv").exists() and (folder / "fit.csv").exists()
         stored = json.loads((folder / "result.json").read_text())
         # the recorded input hash is the sha256 (FIPS 180-4) of the file's bytes, computed here by hashlib
@@ -94,10 +94,11 @@ def test_outputs_summary_and_hashes(archive, reference):
     # the batch result is the library's inversion of the same file, number for number
     path = archive / "solutions" / "ln0.csv"
     direct = invert(read_sweep(path), grid=GRID).to_dict()
-    stored = json.loads((out / "solutions" / "ln0" / "result.json").read_text())["spectrum"]
+    stored = json.loads((out / "solutions" / "ln0.csv" / "result.json").read_text())["spectrum"]
     assert stored["H"] == direct["H"] and stored["lambda"] == direct["lambda"] and stored["tau"] == direct["tau"]
     run = json.loads((out / "run.json").read_text())
-    assert run["counts"] == {"inputs": 8, "ok": 8, "failed": 0, "computed": 8, "skipped": 0, "worker_deaths": 0}
+    assert run["counts"] == {"inputs": 8, "ok": 8, "failed": 0, "computed": 8, "skipped": 0, "worker_deaths": 0,
+                             "refused": 0}
     assert run["versions"]["tauspec"] and run["versions"]["numpy"] and run["settings"]["invert"]["grid"] == GRID
     assert run["settings"]["steps"] == ["read", "invert"] and "diagnosis" not in stored and "modes" not in stored
     assert "worker_s" in run["timings"] and "timings" not in stored
@@ -121,8 +122,8 @@ def test_resume_skips_current_and_recomputes_changes(archive, tmp_path):
     assert (again.computed, again.skipped) == (0, 6)
     assert {p: p.stat().st_mtime_ns for p in out.rglob("result.json")} == stamp
     # a table that is lost or damaged (it is not flushed to disk: only result.json is) is recomputed
-    (out / "solutions" / "ln0" / "spectrum.csv").write_text("tau [s],H [Pa],in_window\n")
-    (out / "solutions" / "ln2" / "fit.csv").unlink()
+    (out / "solutions" / "ln0.csv" / "spectrum.csv").write_text("tau [s],H [Pa],in_window\n")
+    (out / "solutions" / "ln2.csv" / "fit.csv").unlink()
     assert run_batch([work], out, settings=SMALL).computed == 2
     assert run_batch([work], out, settings=SMALL).skipped == 6
     # a changed input recomputes that file only
@@ -130,7 +131,7 @@ def test_resume_skips_current_and_recomputes_changes(archive, tmp_path):
     target.write_text(target.read_text().replace("# sample: maxwell-1", "# sample: maxwell-1b"))
     one = run_batch([work], out, settings=SMALL)
     assert (one.computed, one.skipped) == (1, 5)
-    assert json.loads((out / "liquids" / "m1" / "result.json").read_text())["sample"] == "maxwell-1b"
+    assert json.loads((out / "liquids" / "m1.txt" / "result.json").read_text())["sample"] == "maxwell-1b"
     # changed settings recompute everything; so does --force
     gcv = dataclasses.replace(SMALL, invert=InvertOptions(grid=GRID, select="gcv"))
     assert run_batch([work], out, settings=gcv).computed == 6
@@ -297,12 +298,12 @@ def test_inputs_layout_manifest_and_name_clashes(tmp_path):
     manifest.write_text("file,operator\nodd.sweep,demo\n")
     inputs = find_inputs([work], out, manifest)
     assert [(i.file, i.key) for i in inputs] == [
-        ("arch/liquids/m1.txt", "arch/liquids/m1"),
+        ("arch/liquids/m1.txt", "arch/liquids/m1.txt"),
         ("arch/solutions/ln0.csv", "arch/solutions/ln0.csv"),
         ("arch/solutions/ln0.dat", "arch/solutions/ln0.dat"),
-        ("extra/odd.sweep", "extra/odd"),
+        ("extra/odd.sweep", "extra/odd.sweep"),
     ]
-    assert [(i.file, i.key) for i in find_inputs([work / "liquids" / "m1.txt"], out)] == [("m1.txt", "m1")]
+    assert [(i.file, i.key) for i in find_inputs([work / "liquids" / "m1.txt"], out)] == [("m1.txt", "m1.txt")]
 
 
 def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
@@ -318,7 +319,7 @@ def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
         if s.kind != "rouse":
             continue
         row = rows[f"series/{s.name}.csv"]
-        stored = json.loads((tmp_path / "results" / "series" / s.name / "result.json").read_text())
+        stored = json.loads((tmp_path / "results" / "series" / f"{s.name}.csv" / "result.json").read_text())
         assert row["verdict"] == stored["diagnosis"]["verdict"] and float(row["tau_R"]) == stored["diagnosis"]["tau_R"]
         # the generator's finite-N Rouse chains (Rouse 1953; Ferry 1980, ch. 9): τ_1 and G0 = cRT/M come back,
         # and η0 = η_s + G0 Σ τ_p with τ_p = τ_1 sin²(π/(2(N+1)))/sin²(pπ/(2(N+1))) (Ferry 1980, ch. 9)
@@ -329,7 +330,7 @@ def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
         taus = s.truth["tau_R"] * np.sin(np.pi / (2 * (N + 1))) ** 2 / np.sin(p * np.pi / (2 * (N + 1))) ** 2
         assert float(row["eta0"]) == pytest.approx(s.truth["eta_s"] + s.truth["G0"] * taus.sum(), rel=0.05)
         assert int(row["n_modes"]) == len(stored["modes"]["g"]) >= 1
-        assert (tmp_path / "results" / "series" / s.name / "modes.csv").exists()
+        assert (tmp_path / "results" / "series" / f"{s.name}.csv" / "modes.csv").exists()
     assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0
     assert "(0 computed, 9 already current)" in capsys.readouterr().out
 
@@ -366,6 +367,7 @@ def test_plots_are_drawn_once_and_a_rerun_with_plots_draws_missing_ones(tmp_path
     assert plots.digest() == SMALL.digest()  # drawing figures does not change a result
     assert run_batch([work], out, settings=plots).computed == 2  # the figures were missing
     for name in ("fit.png", "spectrum.png", "lcurve.png"):
-        assert (out / "solutions" / "ln0" / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (RFC 2083)
+        png = (out / "solutions" / "ln0.csv" / name).read_bytes()
+        assert png[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (RFC 2083)
     assert run_batch([work], out, settings=plots).skipped == 2
     assert run_batch([work], out, settings=SMALL).skipped == 2

@@ -330,7 +330,7 @@ def test_cli_from_sweep_files_and_from_invert_folders(tmp_path, capsys):
     # archived results: `invert --out` folders and a result.json give the same comparison without re-inverting
     assert main(["invert", str(fa), str(fb), "--out", str(tmp_path / "res")]) == 0
     capsys.readouterr()
-    assert main(["compare", str(tmp_path / "res" / "a"), str(tmp_path / "res" / "b" / "result.json"), "--json",
+    assert main(["compare", str(tmp_path / "res" / "a.csv"), str(tmp_path / "res" / "b.csv" / "result.json"), "--json",
                  "--replicates", "6", "--out", str(tmp_path / "cmp"), "--plot"]) == 0
     d2 = json.loads(capsys.readouterr().out)
     for key in ("time_shift", "modulus_shift", "shape_distance", "same_shape", "time_shift_ci"):

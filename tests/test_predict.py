@@ -105,7 +105,7 @@ def test_missing_file_and_several_files(sweep_file, tmp_path, capsys):
     assert status == 1
     captured = capsys.readouterr()
     assert captured.err.strip().count("\n") == 0 and "no such file" in captured.err
-    assert (out / "fluid" / "relaxation.csv").exists()  # several files: one folder per file
+    assert (out / "fluid.csv" / "relaxation.csv").exists()  # several files: one folder per file, named by it
     assert len(captured.out.splitlines()) == 1
 
 

@@ -1,65 +1,178 @@
-"""Finding the input files of a batch: folders searched for sweep files, files named directly, a manifest."""
+"""Finding and reading the input files of a batch: folders searched for sweep files, files named directly, a manifest.
+
+Inputs are inputs: the output folder (compared after resolving links), folders tauspec wrote results into, the
+run's manifest and settings files are never read as sweeps; only regular files are read (a FIFO, a device or a
+socket is refused before it is opened for reading), and the size cap of the reader applies before reading.
+Folders are walked with an explicit stack (no recursion limit); a link to a folder is followed unless it leads
+into a loop or to a folder already searched, and every link or special file left out is reported as a note.
+"""
 
 from __future__ import annotations
 
 import dataclasses
 import os
-from collections import Counter
+import re
+import stat
 from collections.abc import Iterator, Sequence
 from pathlib import Path
 
 from ..data.manifest import read_manifest
-from ..errors import TauspecError
+from ..data.read import MAX_FILE_BYTES, decode_text
+from ..errors import SweepError, TauspecError
+from .layout import RUN_FILES, relative_names, result_key
 
-__all__ = ["SWEEP_SUFFIXES", "Input", "find_inputs"]
+__all__ = ["SWEEP_SUFFIXES", "Input", "Found", "discover", "find_inputs", "read_input"]
 
 
 #: Suffixes (case-insensitive) of the files a folder is searched for.
 SWEEP_SUFFIXES = (".csv", ".tsv", ".txt", ".dat")
 
-
-# --------------------------------------------------------------------------- inputs
+# The first bytes of a JSON file tauspec wrote (its schema comes first).
+_OURS = re.compile(rb'^\s*\{\s*"schema"\s*:\s*"tauspec\.')
+_MARKERS = ("index.json", "run.json", "result.json", "diagnosis.json")
+_KINDS = ((stat.S_ISFIFO, "a FIFO (named pipe)"), (stat.S_ISCHR, "a character device"),
+          (stat.S_ISBLK, "a block device"), (stat.S_ISSOCK, "a socket"), (stat.S_ISDIR, "a folder"))
 
 
 @dataclasses.dataclass(frozen=True)
 class Input:
-    """One input file: where to read it, its name in the summary and its result folder under ``--out``."""
+    """One input file: where to read it, its name in the summary, its result folder under ``--out``.
+
+    ``refusal`` is the reason it will not be read, when that is known from its place alone.
+    """
 
     path: Path
     file: str
     key: str
+    refusal: str | None = None
 
 
-def _walk(folder: Path, exclude: Path) -> Iterator[Path]:
-    for root, dirs, files in os.walk(folder):
-        r = Path(root)
-        dirs[:] = sorted(d for d in dirs if not d.startswith(".") and (r / d) != exclude)
-        for f in sorted(files):
-            if not f.startswith(".") and os.path.splitext(f)[1].lower() in SWEEP_SUFFIXES:
-                yield r / f
+@dataclasses.dataclass(frozen=True)
+class Found:
+    """The inputs of a run, sorted by name, and one note for each thing left out of the folder walk."""
+
+    inputs: list[Input]
+    notes: list[str]
 
 
-def find_inputs(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[str],
-                manifest: str | os.PathLike[str] | None = None) -> list[Input]:
-    """Return the input files, sorted by their path relative to the common folder of ``paths`` (and the manifest).
+def _kind(mode: int) -> str:
+    return next((name for test, name in _KINDS if test(mode)), "not a regular file")
 
-    Folders are searched recursively for files ending in :data:`SWEEP_SUFFIXES`
-    (hidden files and folders, and the output folder, are left out); files
-    named explicitly or in the ``file`` column of ``manifest`` are taken
-    whatever their suffix.  A file's result folder is its relative path
-    without the suffix, or with it when two inputs would share a folder.
+
+def _real(p: str | os.PathLike[str]) -> Path:
+    return Path(os.path.realpath(p))
+
+
+def _inside(p: Path, folder: Path) -> bool:
+    return p == folder or p.is_relative_to(folder)
+
+
+def _written_by_tauspec(folder: Path) -> bool:
+    """True for a folder holding results tauspec wrote (a batch output folder or an ``--out`` folder)."""
+    if os.path.lexists(folder / RUN_FILES[4]):  # the lock file of a batch run
+        return True
+    for name in _MARKERS:
+        head = _read_regular(folder / name, 256, missing_ok=True)
+        if isinstance(head, bytes) and _OURS.match(head):
+            return True
+    return False
+
+
+class _Walk:
+    """The folder walk of one run: what it leaves out, and the notes saying so."""
+
+    def __init__(self, out: Path, excluded: set[Path]) -> None:
+        self.out = _real(out)
+        self.excluded = excluded
+        self.notes: list[str] = []
+        self.seen: set[tuple[int, int]] = set()
+
+    def _folder_reason(self, path: Path, st: os.stat_result, link: bool, top: Path) -> str | None:
+        real = _real(path)
+        if _inside(real, self.out):
+            return "the output folder of this run"
+        if link and _inside(top, real):
+            return "a link to a folder that holds the archive (a loop)"
+        if (st.st_dev, st.st_ino) in self.seen:
+            return "a link to a folder already searched"
+        if _written_by_tauspec(path):
+            return "a folder of results written by tauspec (results are not inputs)"
+        return None
+
+    def walk(self, top: Path) -> Iterator[Path]:
+        """Sweep files under ``top``, depth first in name order; an explicit stack, so any depth works."""
+        top_real = _real(top)
+        self.seen.add((top.stat().st_dev, top.stat().st_ino))
+        stack = [top]
+        while stack:
+            folder = stack.pop()
+            try:
+                with os.scandir(folder) as it:
+                    entries = sorted(it, key=lambda e: e.name)
+            except OSError as exc:
+                self.notes.append(f"{folder}: skipped, the folder cannot be read ({exc.strerror or exc})")
+                continue
+            subfolders = []
+            for e in entries:
+                if e.name.startswith("."):
+                    continue
+                path = Path(e.path)
+                sweep = os.path.splitext(e.name)[1].lower() in SWEEP_SUFFIXES
+                link = e.is_symlink()
+                try:
+                    st = os.stat(path)
+                except OSError as exc:
+                    if link or sweep:
+                        self.notes.append(f"{path}: skipped, a link that leads nowhere ({exc.strerror or exc})")
+                    continue
+                if stat.S_ISDIR(st.st_mode):
+                    reason = self._folder_reason(path, st, link, top_real)
+                    if reason is None:
+                        self.seen.add((st.st_dev, st.st_ino))
+                        subfolders.append(path)
+                    elif link or reason != "a link to a folder already searched":
+                        self.notes.append(f"{path}: skipped, {reason}")
+                elif sweep and _real(path) in self.excluded:
+                    self.notes.append(f"{path}: skipped, the manifest or settings file of this run")
+                elif sweep and not stat.S_ISREG(st.st_mode):
+                    self.notes.append(f"{path}: skipped, {_kind(st.st_mode)}, not a sweep file")
+                elif sweep:
+                    yield path
+            stack.extend(reversed(subfolders))
+
+
+def discover(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[str],
+             manifest: str | os.PathLike[str] | None = None,
+             exclude: Sequence[str | os.PathLike[str]] = ()) -> Found:
+    """Return the inputs, sorted by their path relative to the common folder of ``paths`` (and the manifest).
+
+    Folders are searched for files ending in :data:`SWEEP_SUFFIXES` (hidden files and folders left out);
+    files named explicitly or in the ``file`` column of ``manifest`` are taken whatever their suffix.  The
+    output folder, folders of tauspec results, ``manifest`` and the files in ``exclude`` (the settings file)
+    are never inputs.  A file's result folder follows :mod:`tauspec.batch.layout`.
+
+    Raises
+    ------
+    TauspecError
+        For a path that does not exist, a folder inside the output folder or holding tauspec results, and when
+        nothing is found.
     """
-    out_abs = Path(os.path.abspath(out))
-    found: list[Path] = []
+    out_real = _real(out)
+    excluded = {_real(p) for p in [*exclude, *([manifest] if manifest is not None else [])]}
+    walk = _Walk(Path(out), excluded)
+    found: list[tuple[Path, str | None]] = []
     bases: list[str] = []
     for p in paths:
         a = Path(os.path.abspath(p))
         if a.is_dir():
+            if _inside(_real(a), out_real) or _written_by_tauspec(a):
+                raise TauspecError("holds results written by tauspec (it is or lies inside the output folder); "
+                                   "results are not inputs: name the archive instead", str(p))
             bases.append(str(a))
-            found.extend(_walk(a, out_abs))
-        elif a.exists():
+            found.extend((f, None) for f in walk.walk(a))
+        elif os.path.lexists(a):
             bases.append(str(a.parent))
-            found.append(a)
+            found.append((a, _explicit_refusal(a, out_real)))
         else:
             raise TauspecError("no such file or folder", str(p))
     if manifest is not None:
@@ -67,16 +180,80 @@ def find_inputs(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[
         for entry in read_manifest(manifest):
             a = Path(os.path.abspath(entry.path))
             bases.append(str(a.parent))
-            found.append(a)
+            found.append((a, _explicit_refusal(a, out_real)))
     if not bases:
         raise TauspecError("no input given")
-    root = os.path.commonpath(bases)
-    by_file = {Path(os.path.relpath(f, root)).as_posix(): f for f in found}
-    if not by_file:
+    if not found:
         raise TauspecError(f"no sweep files ({' '.join(SWEEP_SUFFIXES)}) found", ", ".join(map(str, paths)))
-    stems = Counter(os.path.splitext(f)[0] for f in by_file)
-    inputs = []
-    for file in sorted(by_file):
-        stem = os.path.splitext(file)[0]
-        inputs.append(Input(by_file[file], file, stem if stems[stem] == 1 else file))
-    return inputs
+    root = os.path.commonpath(bases)
+    by_file: dict[str, tuple[Path, str | None]] = {}
+    for name, (f, refusal) in zip(relative_names([f for f, _ in found], root), found):
+        base, k = name, 1
+        while name in by_file and by_file[name][0] != f:  # two files whose names print alike (escapes)
+            k += 1
+            name = f"{base} ({k})"
+        by_file[name] = (f, refusal)
+    inputs = [Input(by_file[n][0], n, result_key(n), by_file[n][1]) for n in sorted(by_file)]
+    return Found(inputs, walk.notes)
+
+
+def _explicit_refusal(path: Path, out_real: Path) -> str | None:
+    if _inside(_real(path), out_real):
+        return "lies inside the output folder of this run: results are not inputs"
+    return None
+
+
+def find_inputs(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[str],
+                manifest: str | os.PathLike[str] | None = None) -> list[Input]:
+    """The inputs of :func:`discover`, without the notes."""
+    return discover(paths, out, manifest).inputs
+
+
+# --------------------------------------------------------------------------- reading
+
+
+def _read_regular(path: Path, limit: int, *, missing_ok: bool = False) -> bytes | str | None:
+    """At most ``limit + 1`` bytes of a regular file, or the one-line reason it is not read.
+
+    The kind of file is checked before it is opened (a FIFO would block the open, a device would never end),
+    and again on the open descriptor, which is opened without blocking; a size above ``limit`` is refused
+    from ``fstat`` before any byte is read.
+    """
+    try:
+        mode = os.stat(path).st_mode
+        if not stat.S_ISREG(mode):
+            return f"{_kind(mode)}, not a regular file: only regular files are read"
+        fd = os.open(path, os.O_RDONLY | os.O_NONBLOCK | getattr(os, "O_NOCTTY", 0))
+    except FileNotFoundError:
+        return None if missing_ok else "no such file"
+    except PermissionError:
+        return "permission denied: the file cannot be read"
+    except OSError as exc:
+        return f"cannot be read ({exc.strerror or exc})"
+    with os.fdopen(fd, "rb") as fh:
+        st = os.fstat(fd)
+        if not stat.S_ISREG(st.st_mode):
+            return f"{_kind(st.st_mode)}, not a regular file: only regular files are read"
+        if st.st_size > limit:
+            return (f"file is {st.st_size / 2**20:.1f} MiB; a frequency sweep is a few kB "
+                    f"(limit {limit / 2**20:.1f} MiB)")
+        try:
+            raw = fh.read(limit + 1)
+        except OSError as exc:
+            return f"cannot be read ({exc.strerror or exc})"
+    if len(raw) > limit:
+        return f"file is larger than {limit / 2**20:.1f} MiB"
+    return raw
+
+
+def read_input(inp: Input, max_bytes: int = MAX_FILE_BYTES) -> tuple[bytes | None, str | None, str | None]:
+    """Return (bytes, text, error) for one input; the client reads every file itself, with the reader's caps."""
+    if inp.refusal is not None:
+        return None, None, f"{inp.file}: {inp.refusal}"
+    raw = _read_regular(inp.path, max_bytes)
+    if not isinstance(raw, bytes):
+        return None, None, f"{inp.file}: {raw}"
+    try:
+        return raw, decode_text(raw, inp.file), None
+    except SweepError as exc:
+        return raw, None, exc.one_line()

@@ -1,19 +1,21 @@
 """Parallel, resumable reprocessing of archives of sweep files.
 
-One pipeline step, :func:`process`, turns the text of one sweep file into a
-JSON-ready result (read → invert → discrete modes → diagnosis, as far as those
-steps are available).  :func:`run_batch` finds the sweep files, skips those
-whose stored result is current, sends the rest to joblib workers (loky on this
-machine or a Dask cluster), writes every output itself and rebuilds
-``summary.csv`` from the stored results.  See docs/batch.md for the output
-layout, the resume rule, fault handling and exit codes.
+One pipeline step, :func:`~tauspec.batch.pipeline.process`, turns the text of one sweep file into a JSON-ready
+result (read → invert → discrete modes → diagnosis).  :func:`run_batch` goes through the steps of a run:
+
+1. find the inputs (:mod:`~tauspec.batch.inputs`: inputs are inputs, never results or special files);
+2. take the output folder's lock (:mod:`~tauspec.batch.lock`: one run per folder);
+3. plan the layout (:mod:`~tauspec.batch.layout`: one folder per input, collisions refused before any work)
+   and remove the temporary files an interrupted run left;
+4. read each file, skip those whose stored result is current, send the rest to the workers
+   (:mod:`~tauspec.batch.execute`: loky or Dask) and store each result as it arrives;
+5. rebuild ``summary.csv``, the index and ``run.json`` from the stored results.
+
+See docs/batch.md for the output layout, the resume rule, fault handling and exit codes.
 """
 
 from __future__ import annotations
 
-import contextlib
-import csv
-import dataclasses
 import os
 import platform
 import sys
@@ -24,28 +26,25 @@ from pathlib import Path
 from typing import Any
 
 from .._version import __version__
-from ..data.read import decode_text, read_capped_bytes
-from ..data.record import record
+from ..data.record import field, record
 from ..data.write import atomic_write_text, dumps_json
-from ..errors import SettingsError, SweepError, TauspecError
-from .inputs import Input, find_inputs
+from ..errors import SettingsError, TauspecError
+from ..output.results import write_run_index
+from .execute import WORKER_DIED, Task, run_tasks
+from .inputs import Found, Input, discover, read_input
+from .layout import make_folders, plan_refusals
+from .lock import run_lock
 from .pipeline import process
 from .settings import BatchSettings
-from .store import SCHEMA, _error_files, _is_current, _sha256, _store
-from .summary import write_summary
+from .store import SCHEMA, _is_current, _load_json, _sha256, _store, error_files, remove_temporary_files, stored_owner
+from .summary import summary_rows, write_summary
 
 __all__ = ["WORKER_DIED", "BatchReport", "run_batch"]
 
 
-WORKER_DIED = "the worker process died while processing this file (killed, or out of memory)"
-
-
-# --------------------------------------------------------------------------- running
-
-
 @record
 class BatchReport:
-    """What one batch run did."""
+    """What one batch run did (``refused``: inputs refused by the layout; ``notes``: what the walk left out)."""
 
     out: Path
     inputs: int
@@ -55,6 +54,8 @@ class BatchReport:
     skipped: int
     worker_deaths: int
     seconds: float
+    refused: int = 0
+    notes: tuple[str, ...] = field(default=())
 
     @property
     def status(self) -> int:
@@ -68,20 +69,15 @@ class BatchReport:
     @classmethod
     def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
         d.pop("status", None)
+        if "notes" in d:
+            d["notes"] = tuple(d["notes"])
         return d
-
-
-@dataclasses.dataclass
-class _Task:
-    inp: Input
-    text: str
-    input_sha: str
 
 
 def _versions(backend: str) -> dict[str, str]:
     from importlib import metadata
 
-    names = ["numpy", "scipy", "cvxpy", "clarabel", "matplotlib", "joblib", "threadpoolctl"]
+    names = ["numpy", "scipy", "cvxpy", "clarabel", "matplotlib", "joblib", "threadpoolctl", "filelock", "tqdm"]
     if backend == "dask":
         names += ["dask", "distributed"]
     out = {"tauspec": __version__, "python": platform.python_version()}
@@ -93,60 +89,79 @@ def _versions(backend: str) -> dict[str, str]:
     return out
 
 
-def _worker_death_errors(backend: str) -> tuple[type[BaseException], ...]:
-    from concurrent.futures.process import BrokenProcessPool  # loky's TerminatedWorkerError is one
+class _Run:
+    """The state of one run inside the lock: counts, refusals, notes, the progress bar."""
 
-    errors: list[type[BaseException]] = [BrokenProcessPool]
-    if backend == "dask":  # importing distributed costs seconds: only when it is used
-        with contextlib.suppress(ImportError):
-            from distributed import KilledWorker
+    def __init__(self, out: Path, found: Found, settings: BatchSettings, force: bool, progress: bool) -> None:
+        self.out, self.inputs, self.settings, self.force = out, found.inputs, settings, force
+        self.notes = list(found.notes)
+        self.counts: Counter[str] = Counter()
+        self.seconds: Counter[str] = Counter()
+        self.refused: dict[str, str] = {}
+        self.bar = None
+        if progress:
+            from tqdm import tqdm
 
-            errors.append(KilledWorker)
-    return tuple(errors)
+            self.bar = tqdm(total=len(self.inputs), unit="sweep", file=sys.stderr, leave=False)
+
+    def tick(self) -> None:
+        if self.bar is not None:
+            self.bar.update(1)
+
+    def refuse(self, file: str, reason: str) -> None:
+        self.refused[file] = reason
+        self.tick()
+
+    def plan(self) -> list[Input]:
+        """Refuse what the layout cannot hold; remove leftovers of interrupted writes; the inputs to read."""
+        keys = {i.file: i.key for i in self.inputs if i.refusal is None}
+        for file, reason in plan_refusals(self.out, keys).items():
+            self.refuse(file, reason)
+        folders = [self.out, *(self.out / k for f, k in keys.items() if f not in self.refused)]
+        removed = remove_temporary_files(folders)
+        if removed:
+            self.notes.append(f"removed {removed} temporary file{'s' * (removed > 1)} left by an interrupted run")
+        return [i for i in self.inputs if i.file not in self.refused]
+
+    def tasks(self, inputs: Sequence[Input]) -> Iterator[Task]:
+        """Read each input (lazily, as the workers take them); store errors; skip current results."""
+        for inp in inputs:
+            raw, text, error = read_input(inp)
+            sha = None if raw is None else _sha256(raw)
+            folder = self.out / inp.key
+            stored = _load_json(folder / "result.json")
+            owner = stored_owner(folder, stored, inp.file)
+            if owner is not None:
+                self.refuse(inp.file, owner)
+            elif sha is not None and not self.force and _is_current(folder, sha, self.settings, stored):
+                self.counts["skipped"] += 1
+                self.tick()
+            elif error is not None or text is None:
+                self.store(inp, error_files(inp.file, error or "", sha, self.settings, sha is None))
+            else:
+                yield Task(inp, text, sha)
+
+    def store(self, inp: Input, files: dict[str, str | bytes]) -> None:
+        _store(self.out, inp, files)
+        self.counts["computed"] += 1
+        self.tick()
+
+    def finish(self, task: Task, res: dict[str, Any]) -> None:
+        self.seconds.update(res.get("seconds", {}))
+        self.store(task.inp, res["files"])
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.close()
 
 
-@contextlib.contextmanager
-def _parallel(backend: str, jobs: int, scheduler: str | None) -> Iterator[dict[str, Any]]:
-    """Yield the keyword arguments of :class:`joblib.Parallel` for the chosen backend."""
-    if backend == "loky":
-        yield {"n_jobs": jobs, "backend": "loky"}
-        return
-    try:
-        import joblib
-        from distributed import Client, LocalCluster
-    except ImportError:
-        raise SettingsError("--backend dask needs dask.distributed: pip install 'tauspec[cluster]'") from None
-    cluster = None
-    try:
-        if scheduler:
-            try:
-                client = Client(scheduler, timeout=20)
-            except (OSError, TimeoutError, ValueError) as exc:
-                raise SettingsError(f"cannot reach the Dask scheduler at {scheduler} ({exc})") from None
-        else:
-            cluster = LocalCluster(n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1",
-                                   dashboard_address=None)
-            client = Client(cluster)
-        try:
-            with joblib.parallel_config(backend="dask"):
-                yield {"n_jobs": -1}
-        finally:
-            client.close()
-    finally:
-        if cluster is not None:
-            cluster.close()
-
-
-def _read_input(inp: Input) -> tuple[bytes | None, str | None, str | None]:
-    """Return (bytes, text, error) for one input; the client reads every file itself, with the reader's caps."""
-    try:
-        raw = read_capped_bytes(inp.path, inp.file)
-    except SweepError as exc:
-        return None, None, exc.one_line()
-    try:
-        return raw, decode_text(raw, inp.file), None
-    except SweepError as exc:
-        return raw, None, exc.one_line()
+def _check_arguments(jobs: int, backend: str, scheduler: str | None) -> None:
+    if not isinstance(jobs, int) or isinstance(jobs, bool) or jobs < 1:
+        raise SettingsError(f"--jobs must be a positive whole number, not {jobs!r}")
+    if backend not in ("loky", "dask"):
+        raise SettingsError(f"backend must be 'loky' or 'dask', not {backend!r}")
+    if scheduler and backend != "dask":
+        raise SettingsError("--scheduler needs --backend dask")
 
 
 def run_batch(
@@ -161,15 +176,17 @@ def run_batch(
     force: bool = False,
     progress: bool = False,
     step: Callable[..., dict[str, Any]] = process,
+    exclude: Sequence[str | os.PathLike[str]] = (),
 ) -> BatchReport:
     """Process every sweep file under ``paths`` into ``out``; skip current results; rebuild the summary.
 
     Parameters
     ----------
     paths : sequence of path-like
-        Folders (searched recursively, see :func:`find_inputs`) and files.
+        Folders (searched recursively, see :func:`~tauspec.batch.inputs.discover`) and files.
     out : path-like
-        The output folder (see docs/batch.md for its layout).
+        The output folder (see docs/batch.md for its layout).  One run at a time: a second run into the same
+        folder is refused while the first holds its lock.
     settings : BatchSettings, optional
     jobs : int
         Worker processes (loky) or local Dask workers; 1 runs in this process.
@@ -183,134 +200,75 @@ def run_batch(
     progress : bool
         Show a progress bar (tqdm) on stderr.
     step : callable
-        The pipeline step (default :func:`process`); same signature.
+        The pipeline step (default :func:`~tauspec.batch.pipeline.process`); same signature.
+    exclude : sequence of path-like
+        Files never taken as inputs (the settings file of the command line).
 
     Returns
     -------
     BatchReport
     """
     settings = settings or BatchSettings()
-    if not isinstance(jobs, int) or jobs < 1:
-        raise SettingsError(f"--jobs must be a positive whole number, not {jobs!r}")
-    if backend not in ("loky", "dask"):
-        raise SettingsError(f"backend must be 'loky' or 'dask', not {backend!r}")
-    if scheduler and backend != "dask":
-        raise SettingsError("--scheduler needs --backend dask")
+    _check_arguments(jobs, backend, scheduler)
     out = Path(out)
-    started = time.time()
-    t0 = time.perf_counter()
-    inputs = find_inputs(paths, out, manifest)
+    started, t0 = time.time(), time.perf_counter()
+    found = discover(paths, out, manifest, exclude)
     try:
-        out.mkdir(parents=True, exist_ok=True)
+        make_folders(out)
     except OSError as exc:
-        raise _not_written(exc, out, 0, len(inputs)) from exc
-    settings_sha = settings.digest()
-    counts: Counter[str] = Counter()
-    step_seconds: Counter[str] = Counter()
+        raise _not_written(exc, out, 0, len(found.inputs)) from exc
+    with run_lock(out):
+        run = _Run(out, found, settings, force, progress)
+        try:
+            todo = run.plan()
+            deaths = run_tasks(run.tasks(todo), run.finish, settings=settings, step=step, backend=backend,
+                               jobs=jobs, scheduler=scheduler)
+        except OSError as exc:  # disk full, read-only folder ...: the finished results are whole (atomic writes)
+            done = run.counts["computed"] + run.counts["skipped"]
+            raise _not_written(exc, out, done, len(found.inputs)) from exc
+        finally:
+            run.close()
+        run.counts["worker_deaths"] = deaths
+        try:
+            return _finish(run, t0, started, {"paths": [str(p) for p in paths],
+                                               "manifest": None if manifest is None else str(manifest),
+                                               "backend": backend, "jobs": jobs, "scheduler": scheduler,
+                                               "force": force})
+        except OSError as exc:
+            raise _not_written(exc, out, len(found.inputs), len(found.inputs)) from exc
 
-    bar = None
-    if progress:
-        from tqdm import tqdm
 
-        bar = tqdm(total=len(inputs), unit="sweep", file=sys.stderr, leave=False)
-
-    def done() -> None:
-        counts["computed"] += 1
-        if bar is not None:
-            bar.update(1)
-
-    def tasks() -> Iterator[_Task]:
-        for inp in inputs:
-            raw, text, error = _read_input(inp)
-            sha = None if raw is None else _sha256(raw)
-            if sha is not None and not force and _is_current(out / inp.key, sha, settings_sha, settings.plots):
-                counts["skipped"] += 1
-                if bar is not None:
-                    bar.update(1)
-                continue
-            if error is not None or text is None:
-                _store(out, inp, _error_files(inp, error or "", sha, settings, sha is None))
-                done()
-                continue
-            yield _Task(inp, text, sha)
-
-    def finish(task: _Task, res: dict[str, Any]) -> None:
-        step_seconds.update(res.get("seconds", {}))
-        _store(out, task.inp, res["files"])
-        done()
-
-    deaths = _worker_death_errors(backend)
-    try:
-        with _parallel(backend, jobs, scheduler) as kw:
-            from joblib import Parallel, delayed
-
-            queue = tasks()
-            pending: dict[str, _Task] = {}
-
-            def feed() -> Iterator[Any]:
-                for task in queue:
-                    pending[task.inp.file] = task
-                    yield delayed(step)(task.text, settings, source=task.inp.file, input_sha256=task.input_sha)
-
-            while True:
-                try:
-                    for res in Parallel(return_as="generator_unordered", **kw)(feed()):
-                        finish(pending.pop(res["result"]["file"]), res)
-                    break
-                except deaths:
-                    # a worker died: the files in flight are suspects; run each alone, then go on with the rest
-                    counts["worker_deaths"] += 1
-                    suspects = [pending.pop(f) for f in sorted(pending)]
-                    for task in suspects:
-                        try:
-                            res = Parallel(**kw)([delayed(step)(task.text, settings, source=task.inp.file,
-                                                                input_sha256=task.input_sha)])[0]
-                        except deaths:
-                            message = f"{task.inp.file}: {WORKER_DIED}"
-                            res = {"files": _error_files(task.inp, message, task.input_sha, settings, True)}
-                        finish(task, res)
-    except OSError as exc:  # disk full, read-only folder ...: the finished results are whole (atomic writes)
-        raise _not_written(exc, out, counts["computed"] + counts["skipped"], len(inputs)) from exc
-    finally:
-        if bar is not None:
-            bar.close()
-
-    try:
-        summary = write_summary(out, inputs)
-    except OSError as exc:
-        raise _not_written(exc, out, len(inputs), len(inputs)) from exc
-    ok = failed = 0
-    with open(summary, encoding="utf-8", newline="") as fh:
-        for row in csv.DictReader(fh):
-            ok += row["status"] == "ok"
-            failed += row["status"] != "ok"
-    report = BatchReport(out=out, inputs=len(inputs), ok=ok, failed=failed, computed=counts["computed"],
-                         skipped=counts["skipped"], worker_deaths=counts["worker_deaths"],
-                         seconds=time.perf_counter() - t0)
-    run = {
+def _finish(run: _Run, t0: float, started: float, arguments: dict[str, Any]) -> BatchReport:
+    """Write summary.csv, the index and run.json from the stored results; return the report."""
+    out, settings = run.out, run.settings
+    rows = summary_rows(out, run.inputs, run.refused)
+    write_summary(out, rows)
+    write_run_index(out, ({"file": inp.file, "folder": None if inp.file in run.refused else inp.key,
+                           "status": row["status"]} for inp, row in zip(run.inputs, rows)), run.notes)
+    ok = sum(row["status"] == "ok" for row in rows)
+    report = BatchReport(out=out, inputs=len(rows), ok=ok, failed=len(rows) - ok, computed=run.counts["computed"],
+                         skipped=run.counts["skipped"], worker_deaths=run.counts["worker_deaths"],
+                         seconds=time.perf_counter() - t0, refused=len(run.refused), notes=tuple(run.notes))
+    counts = ("inputs", "ok", "failed", "computed", "skipped", "worker_deaths", "refused")
+    record_ = {
         "schema": SCHEMA,
-        "paths": [str(p) for p in paths],
-        "manifest": None if manifest is None else str(manifest),
+        "paths": arguments["paths"],
+        "manifest": arguments["manifest"],
         "out": str(out),
         "settings": settings.to_dict(),
         "plots": settings.plots,
-        "settings_sha256": settings_sha,
-        "backend": backend,
-        "jobs": jobs,
-        "scheduler": scheduler,
-        "force": force,
-        "versions": _versions(backend),
-        "counts": {k: v for k, v in report.to_dict().items() if k in
-                   ("inputs", "ok", "failed", "computed", "skipped", "worker_deaths")},
+        "time_limit": settings.time_limit,
+        "settings_sha256": settings.digest(),
+        **{k: arguments[k] for k in ("backend", "jobs", "scheduler", "force")},
+        "versions": _versions(arguments["backend"]),
+        "counts": {k: v for k, v in report.to_dict().items() if k in counts},
+        "notes": list(run.notes),
         "timings": {"started_utc": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime(started)),
                     "wall_s": report.seconds,
-                    "worker_s": dict(sorted(step_seconds.items()))},
+                    "worker_s": dict(sorted(run.seconds.items()))},
         "status": report.status,
     }
-    try:
-        atomic_write_text(out / "run.json", dumps_json(run, indent=1) + "\n")
-    except OSError as exc:
-        raise _not_written(exc, out, len(inputs), len(inputs)) from exc
+    atomic_write_text(out / "run.json", dumps_json(record_, indent=1) + "\n")
     return report
 
 

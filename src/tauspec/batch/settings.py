@@ -6,6 +6,7 @@ records the Python API and the command line build::
     [invert]            # InvertOptions: strength, select, grid, solvent, equilibrium_modulus, eta_s
     [modes]             # run = false skips the step; ModesOptions: n_modes, significance, per_decade
     [diagnose]          # run = false skips the step; DiagnoseOptions: intervals, use_spectrum
+    [batch]             # how the run treats each file: time_limit (seconds per file)
 
 The physical switches of ``[invert]`` (``solvent``, ``equilibrium_modulus``, ``eta_s``) hold for every step.
 """
@@ -21,7 +22,7 @@ from typing import Any
 
 from .._version import __version__
 from ..analysis.diagnosis.options import DiagnoseOptions
-from ..data.record import check_bool, field, record
+from ..data.record import check_bool, check_number, field, option, record
 from ..data.write import dumps_json
 from ..errors import SettingsError
 from ..modes.options import ModesOptions
@@ -35,6 +36,11 @@ SECTIONS: dict[str, tuple[type, tuple[str, ...], bool]] = {
     "modes": (ModesOptions, ("n_modes", "significance", "per_decade"), True),
     "diagnose": (DiagnoseOptions, ("intervals", "use_spectrum"), True),
 }
+#: Keys of the ``[batch]`` section: fields of :class:`BatchSettings` itself.
+BATCH_KEYS = ("time_limit",)
+
+#: The default per-file time limit (s): generous, a sweep takes seconds; the limit only stops a file that hangs.
+TIME_LIMIT = 600.0
 
 
 @record
@@ -44,6 +50,8 @@ class BatchSettings:
     ``modes`` and ``diagnose`` carry the physical switches of ``invert`` (made so here, once);
     ``run_modes`` and ``run_diagnose`` say whether those steps run.  ``plots`` only decides whether figures
     are drawn; it is not part of :meth:`digest` (a rerun with ``plots`` draws the missing figures).
+    ``time_limit`` (s) stops a file that runs longer: it becomes an error row and the run goes on; it is not
+    part of :meth:`digest` either (a file stopped by a shorter limit is tried again under a longer one).
     """
 
     invert: InvertOptions = field(default_factory=InvertOptions)
@@ -52,10 +60,15 @@ class BatchSettings:
     run_modes: bool = True
     run_diagnose: bool = True
     plots: bool = field(default=False, transient=True)
+    time_limit: float = option(TIME_LIMIT, transient=True, metavar="SECONDS",
+                               help="stop a file that takes longer than this many seconds (an error row; default "
+                                    f"{TIME_LIMIT:g})")
 
     def __post_init__(self) -> None:
         for name in ("run_modes", "run_diagnose", "plots"):
             check_bool(name, getattr(self, name))
+        check_number("time_limit", self.time_limit, lo=0, lo_open=True, what="a time in seconds")
+        object.__setattr__(self, "time_limit", float(self.time_limit))
         inv = self.invert
         object.__setattr__(self, "modes", dataclasses.replace(
             self.modes, solvent=inv.solvent, equilibrium_modulus=inv.equilibrium_modulus, eta_s=inv.eta_s))
@@ -104,17 +117,20 @@ def settings_from_mapping(mapping: Mapping[str, Any], *, source: str = "<setting
     """
     parts: dict[str, Any] = {}
     for name, table in mapping.items():
-        if name not in SECTIONS:
+        if name not in SECTIONS and name != "batch":
             raise SettingsError(f"unknown section or key {name!r}; known sections: "
-                                f"{', '.join(f'[{s}]' for s in SECTIONS)}", source)
+                                f"{', '.join(f'[{s}]' for s in [*SECTIONS, 'batch'])}", source)
         if not isinstance(table, Mapping):
             raise SettingsError(f"{name!r} must be a section [{name}] of keys", source)
-        cls, keys, has_run = SECTIONS[name]
+        cls, keys, has_run = SECTIONS[name] if name != "batch" else (None, BATCH_KEYS, False)
         known = (("run",) if has_run else ()) + keys
         unknown = sorted(set(table) - set(known))
         if unknown:
             raise SettingsError(f"unknown key {unknown[0]!r} in [{name}]; known keys: {', '.join(known)}", source)
         values = dict(table)
+        if cls is None:
+            parts.update(values)
+            continue
         try:
             if has_run:
                 run = values.pop("run", True)
@@ -123,7 +139,10 @@ def settings_from_mapping(mapping: Mapping[str, Any], *, source: str = "<setting
             parts[name] = cls(**values)
         except SettingsError as exc:
             raise SettingsError(f"[{name}] {exc.reason}", source) from None
-    return BatchSettings(plots=plots, **parts)
+    try:
+        return BatchSettings(plots=plots, **parts)
+    except SettingsError as exc:
+        raise SettingsError(f"[batch] {exc.reason}", source) from None
 
 
 def load_settings(path: str | os.PathLike[str] | None, *, plots: bool = False) -> BatchSettings:

@@ -1,18 +1,26 @@
-"""The result folders of a batch: writing one result, and deciding whether a stored result is current (resume)."""
+"""The result folders of a batch: writing one result, deciding whether a stored result is current (resume).
+
+Also: whether a folder holds another file's result (never overwritten), and removing what an interrupted
+write left behind.
+"""
 
 from __future__ import annotations
 
 import hashlib
 import json
-from collections.abc import Mapping
+import os
+import re
+import stat
+from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
 from ..data.write import atomic_write_bytes, dumps_json
 from .inputs import Input
+from .layout import RESULT_NAMES, RUN_FILES, make_folders
 from .settings import BatchSettings
 
-__all__ = ["SCHEMA", "RESULT_FILES", "FIGURES"]
+__all__ = ["SCHEMA", "RESULT_FILES", "FIGURES", "error_files", "stored_owner", "remove_temporary_files"]
 
 
 SCHEMA = "tauspec.batch/1.1"
@@ -21,6 +29,10 @@ SCHEMA = "tauspec.batch/1.1"
 #: Every file the pipeline may write into a result folder (stale ones are removed when a result changes).
 RESULT_FILES = ("spectrum.csv", "fit.csv", "modes.csv", "fit.png", "spectrum.png", "lcurve.png", "diagnosis.png")
 FIGURES = ("fit.png", "spectrum.png", "lcurve.png")
+
+# The temporary names of an atomic write: ".NAME.XXXXXXXX.tmp" (tempfile.mkstemp) or ".NAME.tmp" (figures).
+_TEMPORARY = re.compile(r"\.(?P<name>.+?)(\.[a-z0-9_]{8})?\.tmp")
+_OURS = frozenset(RESULT_NAMES + RUN_FILES)
 
 
 def _header(file: str, input_sha: str | None, settings: BatchSettings, status: str = "ok", error: str | None = None,
@@ -44,11 +56,22 @@ def _load_json(path: Path) -> dict[str, Any] | None:
     return d if isinstance(d, dict) else None
 
 
-def _is_current(folder: Path, input_sha: str, settings_sha: str, plots: bool) -> bool:
-    d = _load_json(folder / "result.json")
+def stored_owner(folder: Path, stored: Mapping[str, Any] | None, file: str) -> str | None:
+    """The refusal when ``folder`` holds the result of another file than ``file`` (never overwritten), or None."""
+    if stored is None or stored.get("file") in (None, file):
+        return None
+    return (f"its result folder {str(folder)!r} holds the result of another file ({stored.get('file')!r}); "
+            "move that folder away or choose another --out")
+
+
+def _is_current(folder: Path, input_sha: str, settings: BatchSettings, stored: Mapping[str, Any] | None) -> bool:
+    d = stored
     if not d or d.get("schema") != SCHEMA or d.get("retry"):
         return False
-    if d.get("input_sha256") != input_sha or d.get("settings_sha256") != settings_sha:
+    if d.get("input_sha256") != input_sha or d.get("settings_sha256") != settings.digest():
+        return False
+    stopped = d.get("timed_out_after")
+    if isinstance(stopped, int | float) and stopped < settings.time_limit:  # a longer limit may now finish it
         return False
     for name, sha in (d.get("tables") or {}).items():  # written without fsync: check they survived
         try:
@@ -56,7 +79,7 @@ def _is_current(folder: Path, input_sha: str, settings_sha: str, plots: bool) ->
                 return False
         except OSError:
             return False
-    return not (plots and d.get("status") == "ok" and not all((folder / f).exists() for f in FIGURES))
+    return not (settings.plots and d.get("status") == "ok" and not all((folder / f).exists() for f in FIGURES))
 
 
 def _store(out: Path, inp: Input, files: Mapping[str, str | bytes]) -> None:
@@ -67,17 +90,44 @@ def _store(out: Path, inp: Input, files: Mapping[str, str | bytes]) -> None:
     recomputed rather than trusted (one fsync per file instead of three).
     """
     folder = out / inp.key
-    folder.mkdir(parents=True, exist_ok=True)
+    make_folders(folder)
     for name in RESULT_FILES:
-        if name not in files and (folder / name).exists():
+        if name not in files and os.path.isfile(folder / name):
             (folder / name).unlink()
     for name, content in sorted(files.items(), key=lambda item: item[0] == "result.json"):
         data = content if isinstance(content, bytes) else content.encode("utf-8")
         atomic_write_bytes(folder / name, data, fsync=name == "result.json")
 
 
-def _error_files(inp: Input, message: str, input_sha: str | None, settings: BatchSettings,
-                 retry: bool) -> dict[str, str]:
-    result = _header(inp.file, input_sha, settings, "error", message, retry)
+def error_files(file: str, message: str, input_sha: str | None, settings: BatchSettings, retry: bool,
+                **extra: Any) -> dict[str, str]:
+    """The files of a failed input: its ``result.json`` with the one-line reason (and ``extra`` keys)."""
+    result = _header(file, input_sha, settings, "error", message, retry)
+    result.update(extra)
     result["notes"] = []
     return {"result.json": dumps_json(result) + "\n"}
+
+
+def remove_temporary_files(folders: Iterable[Path]) -> int:
+    """Remove the temporary files that interrupted atomic writes left in ``folders``; return how many.
+
+    Only regular files whose names are the temporary names tauspec gives its own outputs
+    (``.spectrum.csv.k3j9x0ab.tmp``) are removed; anything else in the folders is left alone.
+    """
+    removed = 0
+    for folder in folders:
+        try:
+            entries = list(os.scandir(folder))
+        except OSError:
+            continue
+        for e in entries:
+            m = _TEMPORARY.fullmatch(e.name)
+            if m is None or m.group("name") not in _OURS:
+                continue
+            try:
+                if stat.S_ISREG(os.lstat(e.path).st_mode):
+                    os.unlink(e.path)
+                    removed += 1
+            except OSError:
+                continue
+    return removed

@@ -1,4 +1,9 @@
-"""summary.csv: one row per input file, rebuilt from the stored results, and its text table."""
+"""summary.csv: one row per input file, rebuilt from the stored results, and its text table.
+
+A row shows the input's own result only: the stored result must name the same file, otherwise the row says no
+result is stored.  Text cells a spreadsheet would run as a formula (``=``, ``+``, ``-``, ``@``, tab, CR) are
+written with a leading ``'`` (:func:`tauspec.output.text.spreadsheet_cell`); :func:`read_summary` undoes it.
+"""
 
 from __future__ import annotations
 
@@ -11,15 +16,19 @@ from pathlib import Path
 from typing import Any
 
 from ..data.write import atomic_write_text
+from ..output.text import printable, spreadsheet_cell, spreadsheet_value
 from .inputs import Input
 from .store import _load_json
 
-__all__ = ["SUMMARY_COLUMNS", "summary_row", "write_summary", "read_summary", "summary_table"]
+__all__ = ["SUMMARY_COLUMNS", "TEXT_COLUMNS", "summary_row", "summary_rows", "write_summary", "read_summary",
+           "summary_table"]
 
 
 #: Columns of ``summary.csv``, in order.
 SUMMARY_COLUMNS = ("file", "status", "sample", "verdict", "tau_R", "G0", "alpha", "eta0", "lambda", "eta_s",
                    "residual_rms", "n_modes", "warnings", "error")
+#: The columns that hold text (the others hold numbers, written as ``repr(float)``).
+TEXT_COLUMNS = ("file", "status", "sample", "verdict", "error")
 
 
 # --------------------------------------------------------------------------- the summary
@@ -33,11 +42,17 @@ def _num(v: Any) -> str:
     return str(v)
 
 
+def _error_row(file: str, error: str) -> dict[str, str]:
+    return {**dict.fromkeys(SUMMARY_COLUMNS, ""), "file": file, "status": "error", "error": error}
+
+
 def summary_row(result: Mapping[str, Any] | None, file: str) -> dict[str, str]:
-    """One row of ``summary.csv`` from a stored result (blank where a step is not available)."""
-    if result is None:
-        return {**dict.fromkeys(SUMMARY_COLUMNS, ""), "file": file, "status": "error",
-                "error": f"{file}: no result stored (run the batch again)"}
+    """One row of ``summary.csv`` from a stored result (blank where a step is not available).
+
+    A result that names another file than ``file`` is not this file's result: the row says none is stored.
+    """
+    if result is None or result.get("file", file) != file:
+        return _error_row(file, f"{file}: no result stored (run the batch again)")
     spectrum = result.get("spectrum") or {}
     diagnosis = result.get("diagnosis") or {}
     derived = result.get("derived") or {}
@@ -62,26 +77,37 @@ def summary_row(result: Mapping[str, Any] | None, file: str) -> dict[str, str]:
     return row
 
 
-def write_summary(out: str | os.PathLike[str], inputs: Iterable[Input]) -> Path:
-    """Rebuild ``summary.csv`` from the stored results, one row per input, in the order given (sorted).
-
-    Results are read one at a time; only the rows are kept.
-    """
+def summary_rows(out: str | os.PathLike[str], inputs: Iterable[Input],
+                 refused: Mapping[str, str] | None = None) -> list[dict[str, str]]:
+    """The rows of ``summary.csv``, one per input in the order given: a refused input's row gives the reason."""
     out = Path(out)
+    refused = refused or {}
+    rows = []
+    for inp in inputs:
+        if inp.file in refused:
+            rows.append(_error_row(inp.file, f"{inp.file}: {refused[inp.file]}"))
+        else:
+            rows.append(summary_row(_load_json(out / inp.key / "result.json"), inp.file))
+    return rows
+
+
+def write_summary(out: str | os.PathLike[str], rows: Iterable[Mapping[str, str]]) -> Path:
+    """Write ``summary.csv`` (atomically), its text cells made safe for spreadsheets."""
     buf = io.StringIO()
     writer = csv.DictWriter(buf, fieldnames=SUMMARY_COLUMNS, lineterminator="\n")
     writer.writeheader()
-    for inp in inputs:
-        writer.writerow(summary_row(_load_json(out / inp.key / "result.json"), inp.file))
-    path = out / "summary.csv"
+    for row in rows:
+        writer.writerow({k: spreadsheet_cell(v) if k in TEXT_COLUMNS else v for k, v in row.items()})
+    path = Path(out) / "summary.csv"
     atomic_write_text(path, buf.getvalue())
     return path
 
 
 def read_summary(out: str | os.PathLike[str]) -> list[dict[str, str]]:
-    """Read ``summary.csv`` back as a list of rows."""
+    """Read ``summary.csv`` back as a list of rows (the text as it was before it was made spreadsheet-safe)."""
     with open(Path(out) / "summary.csv", encoding="utf-8", newline="") as fh:
-        return list(csv.DictReader(fh))
+        return [{k: spreadsheet_value(v) if k in TEXT_COLUMNS else v for k, v in row.items()}
+                for row in csv.DictReader(fh)]
 
 
 def _g(text: str, fmt: str = ".3g") -> str:
@@ -89,7 +115,8 @@ def _g(text: str, fmt: str = ".3g") -> str:
 
 
 def summary_table(rows: Sequence[Mapping[str, str]]) -> str:
-    """Return the summary rows as a plain-text table (errors with their reason)."""
+    """Return the summary rows as a plain-text table (errors with their reason), every name printable."""
+    rows = [{k: printable(v) for k, v in r.items()} for r in rows]
     width = max([len(r["file"]) for r in rows] + [4])
     head = (f"{'file':{width}s}  {'status':6s}  {'verdict':12s}  {'tau_R [s]':>9s}  {'G0 [Pa]':>9s}  "
             f"{'alpha':>6s}  {'eta0 [Pa·s]':>11s}  {'λ':>8s}  {'rms':>6s}")

@@ -1,7 +1,8 @@
 """``tauspec compare FILE...``: shifts, shape distances and series scaling between samples.
 
 Each FILE is a sweep file (inverted with the ``invert`` options), a ``result.json`` written by
-``tauspec invert --out``, or a folder holding one, so archived results need not be recomputed.
+``tauspec invert --out``, or a folder holding one, so archived results need not be recomputed; a batch output
+folder stands for every result of that run that succeeded, found through the run's index.
 """
 
 from __future__ import annotations
@@ -85,8 +86,9 @@ def run(args: argparse.Namespace) -> int:
     """Load every sample, compare them and print the result (one JSON object with --json)."""
     from ..analysis.comparison.compare import compare
     from ..output.figures.overlay import save_overlay
+    from ..output.results import expand_batch_folders
 
-    files = list(each_file(args.files))
+    files = expand_batch_folders(each_file(args.files))  # a batch output folder: its results, by its index
     if len(files) < 2:
         raise SettingsError("compare needs at least two files")
     options = options_from_args(args, CompareOptions)

@@ -63,7 +63,7 @@ def parse_points(spec: str, what: str) -> np.ndarray:
 
 
 def _output_paths(args: argparse.Namespace, path: str) -> tuple[Path, Path]:
-    """``--out DIR``: ``DIR/<quantity>.csv`` (``DIR/<stem>/...`` for several files); else ``<stem>-<quantity>.csv``."""
+    """``--out DIR``: ``DIR/<quantity>.csv`` (``DIR/<file>/...`` for several); else ``<stem>-<quantity>.csv``."""
     out = output_dir_for(args, path)
     csv = out / f"{args.quantity}.csv" if out is not None else Path(f"{Path(path).stem}-{args.quantity}.csv")
     return csv, csv.with_suffix(".png")

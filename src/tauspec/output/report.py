@@ -26,7 +26,8 @@ import numpy as np
 
 from ..data.write import atomic_write_text
 from ..errors import TauspecError
-from .results import read_result_json, spectrum_from_result
+from .results import read_result_json, read_run_index, result_folder, spectrum_from_result
+from .text import BIDI_CONTROLS, show_bidi_controls, spreadsheet_value
 
 __all__ = ["write_report", "REPORT_NAME"]
 
@@ -113,18 +114,22 @@ def _read_summary(folder: Path) -> list[dict[str, str]]:
     path = folder / "summary.csv"
     try:
         with open(path, newline="", encoding="utf-8") as fh:
-            return list(csv.DictReader(fh))
+            return [{k: spreadsheet_value(v or "") for k, v in row.items()} for row in csv.DictReader(fh)]
     except OSError as exc:
         raise TauspecError(f"no batch summary here ({exc.strerror or exc}); run 'tauspec batch' first",
                            str(path)) from None
 
 
-def _result_folder(folder: Path, file: str) -> Path | None:
-    """The stored result folder of an input file: its path without the suffix, or with it (batch layout)."""
-    for key in (os.path.splitext(file)[0], file):
-        if key and (folder / key / "result.json").is_file():
-            return folder / key
-    return None
+def _name(text: str) -> str:
+    """A name from the archive in HTML: escaped, and isolated from the text around it (``<bdi>``)."""
+    return f"<bdi>{html.escape(text)}</bdi>"
+
+
+def _visible_bidi(doc: str) -> str:
+    """The page with every bidirectional control of the user's text shown as ``<U+202E>``: none takes effect."""
+    if not any(c in doc for c in BIDI_CONTROLS):
+        return doc
+    return "".join(html.escape(show_bidi_controls(c)) if c in BIDI_CONTROLS else c for c in doc)
 
 
 def _load(path: Path) -> dict[str, Any]:
@@ -148,7 +153,7 @@ def _row_html(row: Mapping[str, str], result: Mapping[str, Any], anchor: str) ->
     for key, _, numeric in _COLUMNS:
         value = row.get(key, "") or ""
         if key == "sample":
-            label = html.escape(value or Path(row.get("file", "")).stem)
+            label = _name(value or Path(row.get("file", "")).stem)
             cells.append(f'<td><a href="#{anchor}">{label}</a></td>' if row.get("status") == "ok"
                          else f"<td>{label}</td>")
         elif key == "verdict":
@@ -162,6 +167,8 @@ def _row_html(row: Mapping[str, str], result: Mapping[str, Any], anchor: str) ->
         elif key == "error":
             text = value or "; ".join(str(n) for n in (result.get("notes") or [])[:2])
             cells.append(f"<td>{html.escape(text)}</td>")
+        elif key == "file":
+            cells.append(f"<td>{_name(value)}</td>")
         else:
             cells.append(f"<td>{html.escape(value)}</td>")
     cls = ' class="error"' if row.get("status") != "ok" else ""
@@ -242,19 +249,23 @@ def _evidence_html(result: Mapping[str, Any]) -> str:
 
 
 def _sections(folder: Path, rows: list[dict[str, str]]) -> Iterator[tuple[str, str]]:
-    """Yield (table row, section) for each summary row, reading one result at a time."""
+    """Yield (table row, section) for each summary row, reading one result at a time.
+
+    Each file's result folder is the one the run's index names, and only when it holds that file's own result.
+    """
+    index = read_run_index(folder)
     for i, row in enumerate(rows):
-        rf = _result_folder(folder, row.get("file", ""))
+        rf = result_folder(folder, index, row.get("file", ""))
         result = _load(rf) if rf is not None else {}
         anchor = f"s{i}"
         tr = _row_html(row, result, anchor)
         section = ""
         if row.get("status") == "ok" and rf is not None:
             verdict = html.escape(row.get("verdict", "") or "")
-            title = html.escape(row.get("sample") or Path(row.get("file", "")).stem)
+            title = _name(row.get("sample") or Path(row.get("file", "")).stem)
             section = (f'<section class="sample" id="{anchor}" data-verdict="{verdict}"><h3>{title} '
                        f'<span class="verdict v-{verdict}">{verdict}</span></h3>'
-                       f'<p class="muted">{html.escape(row.get("file", ""))}</p>'
+                       f'<p class="muted">{_name(row.get("file", ""))}</p>'
                        f'<div class="figs">{_figures_html(rf, result)}</div>{_evidence_html(result)}</section>')
         yield tr, section
 
@@ -290,7 +301,7 @@ def write_report(folder: str | os.PathLike[str], *, title: str | None = None) ->
     fail_html = ""
     if failed:
         fail_html = "<h2>Files that failed</h2><ul>" + "".join(
-            f"<li><code>{html.escape(r.get('file', ''))}</code>: {html.escape(r.get('error', ''))}</li>"
+            f"<li><code>{_name(r.get('file', ''))}</code>: {html.escape(r.get('error', ''))}</li>"
             for r in failed) + "</ul>"
     page_title = html.escape(title or f"tauspec report — {folder.resolve().name}")
     doc = f"""<!DOCTYPE html>
@@ -322,5 +333,5 @@ independent measurements before they drive product or safety decisions.</p>
 </html>
 """
     out = folder / REPORT_NAME
-    atomic_write_text(out, doc)
+    atomic_write_text(out, _visible_bidi(doc))
     return out

@@ -10,16 +10,23 @@ from __future__ import annotations
 
 import json
 import os
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
 from ..analysis.diagnosis.diagnose import Diagnosis
+from ..data.write import atomic_write_text, dumps_json
 from ..errors import TauspecError
 from ..modes.derived import derive
 from ..spectrum.result import Spectrum
 
-__all__ = ["modes_json", "modes_entries", "read_result_json", "spectrum_from_result", "diagnosis_from_result"]
+__all__ = ["modes_json", "modes_entries", "read_result_json", "spectrum_from_result", "diagnosis_from_result",
+           "INDEX_NAME", "INDEX_SCHEMA", "write_run_index", "read_run_index", "result_folder", "expand_batch_folders"]
+
+#: The index of a batch output folder: which input's result is in which folder (written by the batch at the end
+#: of every run; the report and ``compare`` find results through it, never by guessing a folder from a name).
+INDEX_NAME = "index.json"
+INDEX_SCHEMA = "tauspec.batch-index/1"
 
 #: The keys of the ``modes`` object of a result: the modes and their standard errors.
 _MODES_KEYS = ("g", "tau", "g_se", "tau_se")
@@ -96,3 +103,70 @@ def diagnosis_from_result(d: Mapping[str, Any]) -> Diagnosis | None:
         return Diagnosis.from_dict(diag)
     except TauspecError:
         return None
+
+
+# --------------------------------------------------------------------------- the index of a batch run
+
+
+def write_run_index(out: str | os.PathLike[str], entries: Iterable[Mapping[str, Any]],
+                    notes: Iterable[str] = ()) -> Path:
+    """Write ``out/index.json``: one entry per input, in summary order, and the run's notes.
+
+    Each entry has ``file``, ``folder`` (relative to ``out``; null when the input was refused) and ``status``;
+    the notes say what the folder walk left out.
+    """
+    path = Path(out) / INDEX_NAME
+    doc = {"schema": INDEX_SCHEMA, "results": [dict(e) for e in entries], "notes": list(notes)}
+    atomic_write_text(path, dumps_json(doc, indent=1) + "\n")
+    return path
+
+
+def read_run_index(out: str | os.PathLike[str]) -> dict[str, str | None]:
+    """The index of a batch output folder: input file → its result folder (relative to ``out``, or None).
+
+    Raises
+    ------
+    TauspecError
+        When ``out`` has no readable index (a folder written before the index existed: run the batch again,
+        current results are kept).
+    """
+    path = Path(out) / INDEX_NAME
+    try:
+        d = json.loads(path.read_text(encoding="utf-8"))
+        if not str(d.get("schema", "")).startswith("tauspec.batch-index/"):
+            raise ValueError("not a batch index")
+        return {str(e["file"]): (None if e.get("folder") is None else str(e["folder"])) for e in d["results"]}
+    except FileNotFoundError:
+        raise TauspecError("no batch index here (index.json); run 'tauspec batch' into this folder again "
+                           "(current results are kept)", str(path)) from None
+    except (OSError, ValueError, TypeError, KeyError, AttributeError) as exc:
+        raise TauspecError(f"not a batch index ({exc})", str(path)) from None
+
+
+def result_folder(out: str | os.PathLike[str], index: Mapping[str, str | None], file: str) -> Path | None:
+    """The result folder of ``file`` by the run's index, when it holds that file's own result (else None)."""
+    folder = index.get(file)
+    if not folder or os.path.isabs(folder) or ".." in Path(folder).parts:
+        return None
+    p = Path(out) / folder
+    try:
+        stored = read_result_json(p)
+    except TauspecError:
+        return None
+    return p if stored.get("file") == file else None
+
+
+def expand_batch_folders(paths: Iterable[str]) -> list[str]:
+    """``paths`` with each batch output folder replaced by its inputs' result folders (those that succeeded)."""
+    out: list[str] = []
+    for p in paths:
+        if os.path.isdir(p) and not os.path.exists(os.path.join(p, "result.json")) and \
+                os.path.exists(os.path.join(p, INDEX_NAME)):
+            index = read_run_index(p)
+            for file in index:
+                folder = result_folder(p, index, file)
+                if folder is not None and read_result_json(folder).get("status") == "ok":
+                    out.append(str(folder))
+        else:
+            out.append(p)
+    return out

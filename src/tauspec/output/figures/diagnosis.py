@@ -7,6 +7,7 @@ import os
 import numpy as np
 
 from ...models.chains import chain_moduli
+from .text import plain_text
 
 __all__ = ["plot_diagnosis"]
 
@@ -37,7 +38,7 @@ def plot_diagnosis(diag, path: str | os.PathLike[str]) -> None:
         ax.loglog(wd, gpp, style, color="C1", lw=1, label=f"{label} fit (rms {fit.rms:.3f})")
     ax.set_xlabel("ω (rad/s)")
     ax.set_ylabel("G', G'' (Pa)")
-    ax.set_title(f"{diag.sample}: {diag.verdict}")
+    ax.set_title(f"{plain_text(diag.sample)}: {diag.verdict}")
     ax.legend(fontsize=8)
 
     ax = axes[1]

@@ -10,6 +10,7 @@ import numpy as np
 
 from ...analysis.comparison.compare import Comparison
 from .spectrum import COLUMN_WIDTH, STYLE, _save, new_axes
+from .text import plain_text
 
 __all__ = ["plot_overlay", "overlay_figure", "save_overlay"]
 
@@ -42,11 +43,12 @@ def plot_overlay(comparison: Comparison, ax: Any = None, *, shifted: bool = Fals
         a, b = shifts[k] if shifted else (1.0, 1.0)
         if not (math.isfinite(a) and math.isfinite(b)):
             continue
-        ax.loglog(np.asarray(sp.tau)[m] / a, np.asarray(sp.H)[m] / b, "-", color=f"C{k % 10}", label=s["label"])
+        ax.loglog(np.asarray(sp.tau)[m] / a, np.asarray(sp.H)[m] / b, "-", color=f"C{k % 10}",
+                  label=plain_text(s["label"]))
     ref = comparison.reference or comparison.samples[0]["label"]
     ax.set_xlabel("τ / a [s]" if shifted else "relaxation time τ [s]")
     ax.set_ylabel("H(τ) / b [Pa]" if shifted else "H(τ) [Pa]")
-    ax.set_title(f"shifted onto {ref}" if shifted else "as measured (each in its window)", fontsize=8)
+    ax.set_title(f"shifted onto {plain_text(ref)}" if shifted else "as measured (each in its window)", fontsize=8)
     ax.legend(frameon=False)
     return ax
 

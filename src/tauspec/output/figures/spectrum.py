@@ -12,6 +12,8 @@ from typing import Any
 
 import numpy as np
 
+from .text import plain_text
+
 __all__ = ["fit_figure", "plot_fit", "plot_residuals", "plot_spectrum", "plot_lcurve", "save_spectrum_figures",
            "new_axes"]
 
@@ -56,7 +58,7 @@ def plot_fit(spectrum: Any, ax: Any = None) -> Any:
     ax.set_xlabel("angular frequency ω [rad/s]")
     ax.set_ylabel("modulus [Pa]")
     ax.legend(frameon=False, ncols=2)
-    ax.set_title(str(spectrum.sample), fontsize=8)
+    ax.set_title(plain_text(spectrum.sample), fontsize=8)
     return ax
 
 
@@ -89,7 +91,7 @@ def plot_spectrum(spectrum: Any, ax: Any = None, *, band: tuple[np.ndarray, np.n
         ax.fill_between(tau, np.maximum(band[0], 1e-300), band[1], color="#9ab8d6", alpha=0.6, lw=0, label="band")
     positive = H > 0
     top = float(H.max()) if H.size and H.max() > 0 else 1.0
-    ax.loglog(tau[positive], H[positive], "-", color="k", label=label or "H(τ)")
+    ax.loglog(tau[positive], H[positive], "-", color="k", label=plain_text(label) if label else "H(τ)")
     ax.set_ylim(top * 1e-4, top * 3)
     ax.set_xlabel("relaxation time τ [s]")
     ax.set_ylabel("H(τ) [Pa]")
