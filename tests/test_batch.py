@@ -229,7 +229,7 @@ def test_local_dask_cluster_equals_local_run(archive, reference, tmp_path):
     distributed = pytest.importorskip("distributed")
     ref, _ = reference
     with distributed.LocalCluster(n_workers=2, processes=True, threads_per_worker=1, host="127.0.0.1",
-                                  dashboard_address=None) as cluster:
+                                  dashboard_address=":0") as cluster:
         report = run_batch([archive], tmp_path, settings=SMALL, backend="dask", scheduler=cluster.scheduler_address)
     assert report.status == 0 and report.computed == 8
     assert result_bytes(tmp_path) == result_bytes(ref)

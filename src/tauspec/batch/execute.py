@@ -123,7 +123,7 @@ def _dask_client(jobs: int, scheduler: str | None) -> Iterator[Any]:
     # a task on a worker that dies is lost at once (no retries on other workers: the batch retries it alone)
     with dask.config.set({"distributed.scheduler.allowed-failures": 0}):
         cluster = LocalCluster(n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1",
-                               dashboard_address=None)
+                               dashboard_address=":0")
     with cluster, Client(cluster) as client:
         yield client
 

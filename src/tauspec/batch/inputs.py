@@ -59,16 +59,21 @@ def _kind(mode: int) -> str:
     return next((name for test, name in _KINDS if test(mode)), "not a regular file")
 
 
-def _real(p: str | os.PathLike[str]) -> Path:
-    return Path(os.path.realpath(p))
+def _real(p: str | os.PathLike[str]) -> str:
+    return os.path.realpath(p)
 
 
-def _inside(p: Path, folder: Path) -> bool:
-    return p == folder or p.is_relative_to(folder)
+def _inside(p: str, folder: str) -> bool:
+    return p == folder or p.startswith(folder.rstrip(os.sep) + os.sep)
 
 
-def _written_by_tauspec(folder: Path) -> bool:
-    """True for a folder holding results tauspec wrote (a batch output folder or an ``--out`` folder)."""
+def _written_by_tauspec(folder: Path, names: set[str] | None = None) -> bool:
+    """True for a folder holding results tauspec wrote (a batch output folder or an ``--out`` folder).
+
+    ``names``, the folder's entries when they are known, spares looking for files that are not there.
+    """
+    if names is not None and not names & {RUN_FILES[4], *_MARKERS}:
+        return False
     if os.path.lexists(folder / RUN_FILES[4]):  # the lock file of a batch run
         return True
     for name in _MARKERS:
@@ -81,39 +86,48 @@ def _written_by_tauspec(folder: Path) -> bool:
 class _Walk:
     """The folder walk of one run: what it leaves out, and the notes saying so."""
 
-    def __init__(self, out: Path, excluded: set[Path]) -> None:
+    def __init__(self, out: Path, excluded: set[str]) -> None:
         self.out = _real(out)
         self.excluded = excluded
         self.notes: list[str] = []
         self.seen: set[tuple[int, int]] = set()
 
-    def _folder_reason(self, path: Path, st: os.stat_result, link: bool, top: Path) -> str | None:
-        real = _real(path)
+    def _folder_reason(self, real: str, st: os.stat_result, link: bool, top: str) -> str | None:
         if _inside(real, self.out):
             return "the output folder of this run"
         if link and _inside(top, real):
             return "a link to a folder that holds the archive (a loop)"
         if (st.st_dev, st.st_ino) in self.seen:
             return "a link to a folder already searched"
-        if _written_by_tauspec(path):
-            return "a folder of results written by tauspec (results are not inputs)"
         return None
 
+    def _entries(self, folder: Path) -> list[os.DirEntry[str]] | None:
+        try:
+            with os.scandir(folder) as it:
+                entries = sorted(it, key=lambda e: e.name)
+        except OSError as exc:
+            self.notes.append(f"{folder}: skipped, the folder cannot be read ({exc.strerror or exc})")
+            return None
+        if _written_by_tauspec(folder, {e.name for e in entries}):
+            self.notes.append(f"{folder}: skipped, a folder of results written by tauspec (results are not inputs)")
+            return None
+        return entries
+
     def walk(self, top: Path) -> Iterator[Path]:
-        """Sweep files under ``top``, depth first in name order; an explicit stack, so any depth works."""
+        """Sweep files under ``top``, depth first in name order; an explicit stack, so any depth works.
+
+        Real paths are carried down the walk (a folder that is not a link is its parent's real path and its
+        name), so a deep tree costs one ``realpath`` per link, not one per folder.
+        """
         top_real = _real(top)
-        self.seen.add((top.stat().st_dev, top.stat().st_ino))
-        stack = [top]
+        st = top.stat()
+        self.seen.add((st.st_dev, st.st_ino))
+        stack = [(top, top_real)]
         while stack:
-            folder = stack.pop()
-            try:
-                with os.scandir(folder) as it:
-                    entries = sorted(it, key=lambda e: e.name)
-            except OSError as exc:
-                self.notes.append(f"{folder}: skipped, the folder cannot be read ({exc.strerror or exc})")
-                continue
+            folder, real = stack.pop()
+            entries = self._entries(folder) if folder != top else self._entries_top(folder)
             subfolders = []
-            for e in entries:
+            for e in entries or ():
                 if e.name.startswith("."):
                     continue
                 path = Path(e.path)
@@ -126,19 +140,27 @@ class _Walk:
                         self.notes.append(f"{path}: skipped, a link that leads nowhere ({exc.strerror or exc})")
                     continue
                 if stat.S_ISDIR(st.st_mode):
-                    reason = self._folder_reason(path, st, link, top_real)
+                    sub = _real(path) if link else os.path.join(real, e.name)
+                    reason = self._folder_reason(sub, st, link, top_real)
                     if reason is None:
                         self.seen.add((st.st_dev, st.st_ino))
-                        subfolders.append(path)
+                        subfolders.append((path, sub))
                     elif link or reason != "a link to a folder already searched":
                         self.notes.append(f"{path}: skipped, {reason}")
-                elif sweep and _real(path) in self.excluded:
+                elif sweep and (_real(path) if link else os.path.join(real, e.name)) in self.excluded:
                     self.notes.append(f"{path}: skipped, the manifest or settings file of this run")
                 elif sweep and not stat.S_ISREG(st.st_mode):
                     self.notes.append(f"{path}: skipped, {_kind(st.st_mode)}, not a sweep file")
                 elif sweep:
                     yield path
             stack.extend(reversed(subfolders))
+
+    def _entries_top(self, folder: Path) -> list[os.DirEntry[str]] | None:
+        try:
+            with os.scandir(folder) as it:
+                return sorted(it, key=lambda e: e.name)
+        except OSError as exc:
+            raise TauspecError(f"the folder cannot be read ({exc.strerror or exc})", str(folder)) from None
 
 
 def discover(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[str],
