@@ -10,7 +10,6 @@ import sys
 import time
 from pathlib import Path
 
-import numpy as np
 import pytest
 
 from synthetic import lognormal_sweep, maxwell_sweep
@@ -304,35 +303,6 @@ def test_inputs_layout_manifest_and_name_clashes(tmp_path):
         ("extra/odd.sweep", "extra/odd.sweep"),
     ]
     assert [(i.file, i.key) for i in find_inputs([work / "liquids" / "m1.txt"], out)] == [("m1.txt", "m1.txt")]
-
-
-def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
-    """The demo runs the whole pipeline (read, invert, diagnosis) on its invented archive."""
-    from tauspec.cli.demo_archive import demo_samples
-
-    assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0  # the corrupted export is expected: exit 0
-    first = capsys.readouterr().out
-    assert "exports/batch-22-truncated.csv:4: row has 2 values" in first and "9 computed" in first
-    rows = {r["file"]: r for r in read_summary(tmp_path / "results")}
-    assert len(rows) == 9
-    for s in demo_samples():
-        if s.kind != "rouse":
-            continue
-        row = rows[f"series/{s.name}.csv"]
-        stored = json.loads((tmp_path / "results" / "series" / f"{s.name}.csv" / "result.json").read_text())
-        assert row["verdict"] == stored["diagnosis"]["verdict"] and float(row["tau_R"]) == stored["diagnosis"]["tau_R"]
-        # the generator's finite-N Rouse chains (Rouse 1953; Ferry 1980, ch. 9): τ_1 and G0 = cRT/M come back,
-        # and η0 = η_s + G0 Σ τ_p with τ_p = τ_1 sin²(π/(2(N+1)))/sin²(pπ/(2(N+1))) (Ferry 1980, ch. 9)
-        assert float(row["tau_R"]) == pytest.approx(s.truth["tau_R"], rel=0.1)
-        assert float(row["G0"]) == pytest.approx(s.truth["G0"], rel=0.15)
-        N = s.truth["N"]
-        p = np.arange(1, N + 1)
-        taus = s.truth["tau_R"] * np.sin(np.pi / (2 * (N + 1))) ** 2 / np.sin(p * np.pi / (2 * (N + 1))) ** 2
-        assert float(row["eta0"]) == pytest.approx(s.truth["eta_s"] + s.truth["G0"] * taus.sum(), rel=0.05)
-        assert int(row["n_modes"]) == len(stored["modes"]["g"]) >= 1
-        assert (tmp_path / "results" / "series" / f"{s.name}.csv" / "modes.csv").exists()
-    assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0
-    assert "(0 computed, 9 already current)" in capsys.readouterr().out
 
 
 def test_written_files_get_the_usual_permissions(reference):
