@@ -96,7 +96,7 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
     Parameters
     ----------
     sweep_or_text : Sweep or str
-        A sweep, or the text of a sweep file (see :func:`tauspec.io.parse_sweep_text`).
+        A sweep, or the text of a sweep file (see :func:`tauspec.data.read.parse_sweep_text`).
     settings : BatchSettings
     source : str, optional
         The name of the file, used in messages and results.

@@ -24,8 +24,9 @@ from pathlib import Path
 from typing import Any
 
 from .._version import __version__
-from ..data.read import decode_text, read_capped_bytes
+from ..data.encodings import decode
 from ..data.record import record
+from ..data.source import read_bytes
 from ..data.write import atomic_write_text, dumps_json
 from ..errors import SettingsError, SweepError, TauspecError
 from .inputs import Input, find_inputs
@@ -140,11 +141,11 @@ def _parallel(backend: str, jobs: int, scheduler: str | None) -> Iterator[dict[s
 def _read_input(inp: Input) -> tuple[bytes | None, str | None, str | None]:
     """Return (bytes, text, error) for one input; the client reads every file itself, with the reader's caps."""
     try:
-        raw = read_capped_bytes(inp.path, inp.file)
+        raw = read_bytes(inp.path, inp.file)
     except SweepError as exc:
         return None, None, exc.one_line()
     try:
-        return raw, decode_text(raw, inp.file), None
+        return raw, decode(raw, inp.file), None
     except SweepError as exc:
         return raw, None, exc.one_line()
 
