@@ -17,7 +17,6 @@ _EXPORTS = {
     "read_sweep": "data.read",
     "read_sweeps": "data.read",
     "parse_sweep_text": "data.read",
-    "count_blocks": "data.read",
     "ReadOptions": "data.read",
     "parse_sweeps_text": "data.read",
     "TauspecError": "errors",
