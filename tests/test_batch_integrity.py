@@ -439,7 +439,7 @@ def test_terminal_lines_show_control_characters(tmp_path, capsys):
 # --------------------------------------------------------------------------- 10. limits
 
 
-def slow_step(text, settings, *, source=None, input_sha256=None):
+def slow_step(text, settings, **kwargs):
     """The pipeline step, except that a sweep marked 'slow-me' computes (in Python) for a long time."""
     from tauspec.batch.pipeline import process
 
@@ -447,7 +447,7 @@ def slow_step(text, settings, *, source=None, input_sha256=None):
         t = time.monotonic()
         while time.monotonic() - t < 120:
             pass
-    return process(text, settings, source=source, input_sha256=input_sha256)
+    return process(text, settings, **kwargs)
 
 
 @pytest.mark.parametrize("jobs", [1, 2])
@@ -528,3 +528,25 @@ def test_hostile_names_never_give_an_internal_error(tmp_path, capsys):
     for name in ("$x$.csv", "=1+1.csv"):
         assert main(["invert", str(arch / name), "--plot", "--no-modes", "--grid", "24", "--out",
                      str(tmp_path / "single")]) == 0
+
+
+def test_blocks_have_folders_no_input_can_name(tmp_path):
+    import shutil
+
+    arch = tmp_path / "arch"
+    arch.mkdir()
+    shutil.copy(Path(__file__).parent / "data" / "three_blocks.txt", arch / "steps.txt")
+    named = sweep_file(arch / "steps.txt#2", 1, sample="a file, not a block")  # named like block 2 of steps.txt
+    sweep_file(arch / "sub" / "#2" / "s.csv", 2)  # a folder named like a block's folder
+    out = tmp_path / "out"
+    report = run_batch([arch, named], out, settings=SMALL)
+    rows = read_summary(out)
+    assert [r["file"] for r in rows] == ["steps.txt#1", "steps.txt#2", "steps.txt#3", "steps.txt\\x232",
+                                         "sub/#2/s.csv"]
+    assert report.failed == 0 and rows[3]["sample"] == "a file, not a block"
+    for k in (1, 2, 3):
+        assert json.loads((out / "steps.txt" / f"#{k}" / "result.json").read_text())["file"] == f"steps.txt#{k}"
+    assert (out / "steps.txt\\x232" / "result.json").exists()
+    assert result_key("sub/#2/s.csv") == "sub/_#2/s.csv" and (out / "sub" / "_#2" / "s.csv" / "result.json").exists()
+    index = read_run_index(out)
+    assert index["steps.txt#2"] == "steps.txt/#2" and index["steps.txt\\x232"] == "steps.txt\\x232"

@@ -28,11 +28,12 @@ WORKER_DIED = ("the worker process died while processing this file (killed, out 
 
 @dataclasses.dataclass
 class Task:
-    """One file to process: its input, its decoded text and the sha256 of its bytes."""
+    """One sweep to process: its input (a file, or a block of one) and the file's text, sha256 and notes."""
 
     inp: Input
     text: str
     input_sha: str
+    notes: tuple[str, ...] = ()
 
 
 #: finish(task, step output) stores one result.
@@ -51,7 +52,8 @@ def _failed(task: Task, settings: BatchSettings, exc: BaseException) -> dict[str
 
 def _arguments(task: Task, step: Callable[..., Any], settings: BatchSettings,
                client: tuple[str, int]) -> tuple[tuple[Any, ...], dict[str, Any]]:
-    return (step, task.text, settings), {"source": task.inp.file, "input_sha256": task.input_sha, "client": client}
+    return (step, task.text, settings), {"source": task.inp.file, "input_sha256": task.input_sha, "client": client,
+                                         "block": task.inp.block, "notes": task.notes}
 
 
 def run_tasks(tasks: Iterable[Task], finish: Finish, *, settings: BatchSettings, step: Callable[..., Any],

@@ -13,15 +13,18 @@ import dataclasses
 import os
 import re
 import stat
+import warnings
 from collections.abc import Iterator, Sequence
 from pathlib import Path
 
+from ..data.encodings import decode
 from ..data.manifest import read_manifest
-from ..data.read import MAX_FILE_BYTES, decode_text
+from ..data.read import count_blocks
+from ..data.source import MAX_FILE_BYTES, read_bytes
 from ..errors import SweepError, TauspecError
 from .layout import RUN_FILES, relative_names, result_key
 
-__all__ = ["SWEEP_SUFFIXES", "Input", "Found", "discover", "find_inputs", "read_input"]
+__all__ = ["SWEEP_SUFFIXES", "Input", "Found", "discover", "find_inputs", "read_input", "block_inputs"]
 
 
 #: Suffixes (case-insensitive) of the files a folder is searched for.
@@ -36,15 +39,25 @@ _KINDS = ((stat.S_ISFIFO, "a FIFO (named pipe)"), (stat.S_ISCHR, "a character de
 
 @dataclasses.dataclass(frozen=True)
 class Input:
-    """One input file: where to read it, its name in the summary, its result folder under ``--out``.
+    """One input: where to read it, its name in the summary, its result folder under ``--out``.
 
-    ``refusal`` is the reason it will not be read, when that is known from its place alone.
+    ``refusal`` is the reason it will not be read, when that is known from its place alone.  ``block`` is set
+    for one block of a file holding several: ``file`` then ends in ``#<block>`` and the result folder is
+    ``<key>/#<block>`` (a name no input can produce, see :mod:`tauspec.batch.layout`).
     """
 
     path: Path
     file: str
     key: str
     refusal: str | None = None
+    block: int | None = None
+
+    def blocks(self, count: int) -> list[Input]:
+        """The input itself, or one input per block when the file holds ``count`` > 1 blocks."""
+        if count <= 1:
+            return [self]
+        return [dataclasses.replace(self, file=f"{self.file}#{k}", key=f"{self.key}/#{k}", block=k)
+                for k in range(1, count + 1)]
 
 
 @dataclasses.dataclass(frozen=True)
@@ -76,11 +89,19 @@ def _written_by_tauspec(folder: Path, names: set[str] | None = None) -> bool:
         return False
     if os.path.lexists(folder / RUN_FILES[4]):  # the lock file of a batch run
         return True
-    for name in _MARKERS:
-        head = _read_regular(folder / name, 256, missing_ok=True)
-        if isinstance(head, bytes) and _OURS.match(head):
-            return True
-    return False
+    return any(_OURS.match(_head(folder / name)) for name in _MARKERS)
+
+
+def _head(path: Path, size: int = 256) -> bytes:
+    """The first bytes of a regular file (empty for anything else: nothing but a regular file is opened)."""
+    try:
+        if not stat.S_ISREG(os.stat(path).st_mode):
+            return b""
+        fd = os.open(path, os.O_RDONLY | os.O_NONBLOCK)
+        with os.fdopen(fd, "rb") as fh:
+            return fh.read(size) if stat.S_ISREG(os.fstat(fd).st_mode) else b""
+    except OSError:
+        return b""
 
 
 class _Walk:
@@ -234,48 +255,34 @@ def find_inputs(paths: Sequence[str | os.PathLike[str]], out: str | os.PathLike[
 # --------------------------------------------------------------------------- reading
 
 
-def _read_regular(path: Path, limit: int, *, missing_ok: bool = False) -> bytes | str | None:
-    """At most ``limit + 1`` bytes of a regular file, or the one-line reason it is not read.
+def read_input(inp: Input, max_bytes: int = MAX_FILE_BYTES) -> tuple[bytes | None, str | None, str | None,
+                                                                     tuple[str, ...]]:
+    """Return (bytes, text, error, notes) for one input; the client reads every file itself, with the reader's caps.
 
-    The kind of file is checked before it is opened (a FIFO would block the open, a device would never end),
-    and again on the open descriptor, which is opened without blocking; a size above ``limit`` is refused
-    from ``fstat`` before any byte is read.
+    Only a regular file is opened, and one over ``max_bytes`` is refused before it is read
+    (:func:`tauspec.data.source.read_bytes`).  ``notes`` are the reader's warnings (an encoding guessed),
+    recorded in the file's results by the worker.
     """
-    try:
-        mode = os.stat(path).st_mode
-        if not stat.S_ISREG(mode):
-            return f"{_kind(mode)}, not a regular file: only regular files are read"
-        fd = os.open(path, os.O_RDONLY | os.O_NONBLOCK | getattr(os, "O_NOCTTY", 0))
-    except FileNotFoundError:
-        return None if missing_ok else "no such file"
-    except PermissionError:
-        return "permission denied: the file cannot be read"
-    except OSError as exc:
-        return f"cannot be read ({exc.strerror or exc})"
-    with os.fdopen(fd, "rb") as fh:
-        st = os.fstat(fd)
-        if not stat.S_ISREG(st.st_mode):
-            return f"{_kind(st.st_mode)}, not a regular file: only regular files are read"
-        if st.st_size > limit:
-            return (f"file is {st.st_size / 2**20:.1f} MiB; a frequency sweep is a few kB "
-                    f"(limit {limit / 2**20:.1f} MiB)")
-        try:
-            raw = fh.read(limit + 1)
-        except OSError as exc:
-            return f"cannot be read ({exc.strerror or exc})"
-    if len(raw) > limit:
-        return f"file is larger than {limit / 2**20:.1f} MiB"
-    return raw
-
-
-def read_input(inp: Input, max_bytes: int = MAX_FILE_BYTES) -> tuple[bytes | None, str | None, str | None]:
-    """Return (bytes, text, error) for one input; the client reads every file itself, with the reader's caps."""
     if inp.refusal is not None:
-        return None, None, f"{inp.file}: {inp.refusal}"
-    raw = _read_regular(inp.path, max_bytes)
-    if not isinstance(raw, bytes):
-        return None, None, f"{inp.file}: {raw}"
+        return None, None, f"{inp.file}: {inp.refusal}", ()
     try:
-        return raw, decode_text(raw, inp.file), None
+        raw = read_bytes(inp.path, inp.file, max_bytes)
     except SweepError as exc:
-        return raw, None, exc.one_line()
+        return None, None, exc.one_line(), ()
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            text = decode(raw, inp.file)
+    except SweepError as exc:
+        return raw, None, exc.one_line(), ()
+    return raw, text, None, tuple(f"{w.category.__name__}: {w.message}" for w in caught)
+
+
+def block_inputs(inp: Input, text: str | None) -> list[Input]:
+    """One input per block of a file holding several; a file the reader cannot lay out stays one (its error)."""
+    if text is None:
+        return [inp]
+    try:
+        return inp.blocks(count_blocks(text, source=inp.file))
+    except SweepError:
+        return [inp]

@@ -5,9 +5,10 @@ The rule (docs/batch.md, "Output layout"):
 1. An input's result folder is its path relative to the common folder of the inputs, **suffix included**:
    ``series/a.csv`` → ``DIR/series/a.csv/``.  ``a.csv``, ``a.dat`` and ``a.csv.csv`` get three folders.
 2. A path component that is a name tauspec writes (``summary.csv``, ``run.json``, ``spectrum.csv`` ...,
-   compared case-insensitively), or such a name behind leading underscores, gets one more leading underscore:
-   ``summary.csv`` → ``_summary.csv``, ``_summary.csv`` → ``__summary.csv``.  The mapping is one-to-one, and no
-   input can name a file of the run or of another input's result folder.
+   compared case-insensitively) or the folder of a block (``#2``: the blocks of a file of several are
+   ``a.txt/#1/``, ``a.txt/#2/`` ...), or such a name behind leading underscores, gets one more leading
+   underscore: ``summary.csv`` → ``_summary.csv``, ``_summary.csv`` → ``__summary.csv``.  The mapping is
+   one-to-one, and no input can name a file of the run, of another input's result folder, or a block's folder.
 3. Two inputs whose folders differ only in case (or in Unicode normalization) would share one folder on macOS
    and Windows: both are refused, one line each, never overwritten.
 4. On the disk, a folder path that runs through a file or a link is refused for that input (tauspec did not
@@ -17,6 +18,7 @@ The rule (docs/batch.md, "Output layout"):
 from __future__ import annotations
 
 import os
+import re
 import stat
 import unicodedata
 from collections import defaultdict
@@ -43,8 +45,12 @@ def _fold(text: str) -> str:
 RESERVED = frozenset(_fold(n) for n in RUN_FILES + RESULT_NAMES)
 
 
+_BLOCK = re.compile(r"#\d+")
+
+
 def _component(name: str) -> str:
-    return "_" + name if _fold(name.lstrip("_")) in RESERVED else name
+    base = name.lstrip("_")
+    return "_" + name if _fold(base) in RESERVED or _BLOCK.fullmatch(base) else name
 
 
 def result_key(file: str) -> str:
@@ -58,11 +64,18 @@ def result_key(file: str) -> str:
     return "/".join(_component(part) for part in file.split("/"))
 
 
+_BLOCK_SUFFIX = re.compile(r"#(?=\d+$)")
+
+
 def relative_names(paths: Sequence[Path], root: str) -> list[str]:
-    """Each path relative to ``root`` with ``/`` separators, as the one line a terminal can show (see printable)."""
+    r"""Each path relative to ``root`` with ``/`` separators, as the one line a terminal can show (see printable).
+
+    A name ending in ``#<digits>`` has that ``#`` written ``\x23``: ``a.txt#2`` names block 2 of ``a.txt`` in the
+    summary, and a file of that name must not be taken for it.
+    """
     from ..output.text import printable
 
-    return [printable(Path(os.path.relpath(p, root)).as_posix()) for p in paths]
+    return [_BLOCK_SUFFIX.sub(r"\\x23", printable(Path(os.path.relpath(p, root)).as_posix())) for p in paths]
 
 
 def same_folder_refusals(keys: Mapping[str, str], what: str = "result folder",

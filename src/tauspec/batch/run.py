@@ -31,7 +31,7 @@ from ..data.write import atomic_write_text, dumps_json
 from ..errors import SettingsError, TauspecError
 from ..output.results import write_run_index
 from .execute import WORKER_DIED, Task, run_tasks
-from .inputs import Found, Input, discover, read_input
+from .inputs import Found, Input, block_inputs, discover, read_input
 from .layout import make_folders, plan_refusals
 from .lock import run_lock
 from .pipeline import process
@@ -98,6 +98,7 @@ class _Run:
         self.counts: Counter[str] = Counter()
         self.seconds: Counter[str] = Counter()
         self.refused: dict[str, str] = {}
+        self.samples: dict[str, list[Input]] = {}  # a file of several blocks is one input per block
         self.bar = None
         if progress:
             from tqdm import tqdm
@@ -125,21 +126,29 @@ class _Run:
 
     def tasks(self, inputs: Sequence[Input]) -> Iterator[Task]:
         """Read each input (lazily, as the workers take them); store errors; skip current results."""
-        for inp in inputs:
-            raw, text, error = read_input(inp)
+        for file_input in inputs:
+            raw, text, error, notes = read_input(file_input)
             sha = None if raw is None else _sha256(raw)
-            folder = self.out / inp.key
-            stored = _load_json(folder / "result.json")
-            owner = stored_owner(folder, stored, inp.file)
-            if owner is not None:
-                self.refuse(inp.file, owner)
-            elif sha is not None and not self.force and _is_current(folder, sha, self.settings, stored):
-                self.counts["skipped"] += 1
-                self.tick()
-            elif error is not None or text is None:
-                self.store(inp, error_files(inp.file, error or "", sha, self.settings, sha is None))
-            else:
-                yield Task(inp, text, sha)
+            parts = self.samples[file_input.file] = block_inputs(file_input, text)
+            if self.bar is not None and len(parts) > 1:
+                self.bar.total += len(parts) - 1
+            for inp in parts:
+                folder = self.out / inp.key
+                stored = _load_json(folder / "result.json")
+                owner = stored_owner(folder, stored, inp.file)
+                if owner is not None:
+                    self.refuse(inp.file, owner)
+                elif sha is not None and not self.force and _is_current(folder, sha, self.settings, stored):
+                    self.counts["skipped"] += 1
+                    self.tick()
+                elif error is not None or text is None:
+                    self.store(inp, error_files(inp.file, error or "", sha, self.settings, sha is None))
+                else:
+                    yield Task(inp, text, sha, notes)
+
+    def rows_inputs(self) -> list[Input]:
+        """The inputs of the summary in order: a file of several blocks as one input per block."""
+        return [part for inp in self.inputs for part in self.samples.get(inp.file, [inp])]
 
     def store(self, inp: Input, files: dict[str, str | bytes]) -> None:
         _store(self.out, inp, files)
@@ -241,10 +250,11 @@ def run_batch(
 def _finish(run: _Run, t0: float, started: float, arguments: dict[str, Any]) -> BatchReport:
     """Write summary.csv, the index and run.json from the stored results; return the report."""
     out, settings = run.out, run.settings
-    rows = summary_rows(out, run.inputs, run.refused)
+    inputs = run.rows_inputs()
+    rows = summary_rows(out, inputs, run.refused)
     write_summary(out, rows)
     write_run_index(out, ({"file": inp.file, "folder": None if inp.file in run.refused else inp.key,
-                           "status": row["status"]} for inp, row in zip(run.inputs, rows)), run.notes)
+                           "status": row["status"]} for inp, row in zip(inputs, rows)), run.notes)
     ok = sum(row["status"] == "ok" for row in rows)
     report = BatchReport(out=out, inputs=len(rows), ok=ok, failed=len(rows) - ok, computed=run.counts["computed"],
                          skipped=run.counts["skipped"], worker_deaths=run.counts["worker_deaths"],

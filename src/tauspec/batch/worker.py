@@ -100,8 +100,8 @@ class _Deadline:
 
 
 def run_step(step: Callable[..., dict[str, Any]], text: str, settings: BatchSettings, *, source: str,
-             input_sha256: str | None, client: tuple[str, int]) -> dict[str, Any]:
-    """Run ``step(text, settings, source=..., input_sha256=...)`` under the watchdog and the time limit.
+             input_sha256: str | None, client: tuple[str, int], **options: Any) -> dict[str, Any]:
+    """Run ``step(text, settings, source=..., input_sha256=..., **options)`` under the watchdog and time limit.
 
     Returns the step's result, or for a step stopped at the limit an error result saying so (not retried
     until the limit is raised).
@@ -111,7 +111,7 @@ def run_step(step: Callable[..., dict[str, Any]], text: str, settings: BatchSett
     deadline = _Deadline(settings.time_limit)
     try:
         try:
-            return step(text, settings, source=source, input_sha256=input_sha256)
+            return step(text, settings, source=source, input_sha256=input_sha256, **options)
         finally:
             deadline.disarm()
     except TimeLimitExceeded:
