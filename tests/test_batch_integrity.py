@@ -539,6 +539,7 @@ def test_hostile_names_never_give_an_internal_error(tmp_path, capsys):
     assert [r["file"] for r in rows if r["status"] != "ok"] == ["bytes-\\udcff.csv"]
     text = (out / REPORT_NAME).read_text()
     assert "\u202e" not in text and "&lt;U+202E&gt;" in text and "<b>" not in text
+    assert text.count('<section class="sample"') == len(rows) - 1  # every result found through the index
     for name in ("$x$.csv", "=1+1.csv"):
         assert main(["invert", str(arch / name), "--plot", "--no-modes", "--grid", "24", "--out",
                      str(tmp_path / "single")]) == 0
