@@ -49,6 +49,7 @@ _META_ALIASES = {
     "molar_mass": "molecular_weight",
     "conc": "concentration",
     "c": "concentration",
+    "rho": "density",
 }
 
 _META_LINE = re.compile(r"^#\s*([A-Za-z][\w .\-/]*?)\s*[:=]\s*(.*?)\s*$")
