@@ -561,6 +561,10 @@ def test_blocks_have_folders_no_input_can_name(tmp_path):
     assert report.failed == 0 and rows[3]["sample"] == "a file, not a block"
     for k in (1, 2, 3):
         assert json.loads((out / "steps.txt" / f"#{k}" / "result.json").read_text())["file"] == f"steps.txt#{k}"
+    leftover = out / "steps.txt" / "#2" / ".fit.csv.abcd1234.tmp"  # a write into a block's folder, interrupted
+    leftover.write_text("half")
+    again = run_batch([arch, named], out, settings=SMALL)
+    assert again.skipped == 5 and not leftover.exists() and again.notes[-1].startswith("removed 1 temporary file")
     assert (out / "steps.txt\\x232" / "result.json").exists()
     assert result_key("sub/#2/s.csv") == "sub/_#2/s.csv" and (out / "sub" / "_#2" / "s.csv" / "result.json").exists()
     index = read_run_index(out)

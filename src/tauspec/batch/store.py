@@ -33,6 +33,7 @@ FIGURES = ("fit.png", "spectrum.png", "lcurve.png")
 # The temporary names of an atomic write: ".NAME.XXXXXXXX.tmp" (tempfile.mkstemp) or ".NAME.tmp" (figures).
 _TEMPORARY = re.compile(r"\.(?P<name>.+?)(\.[a-z0-9_]{8})?\.tmp")
 _OURS = frozenset(RESULT_NAMES + RUN_FILES)
+_BLOCK_FOLDER = re.compile(r"#\d+")  # the result folder of one block of a file, inside the file's folder
 
 
 def _header(file: str, input_sha: str | None, settings: BatchSettings, status: str = "ok", error: str | None = None,
@@ -112,14 +113,18 @@ def remove_temporary_files(folders: Iterable[Path]) -> int:
     """Remove the temporary files that interrupted atomic writes left in ``folders``; return how many.
 
     Only regular files whose names are the temporary names tauspec gives its own outputs
-    (``.spectrum.csv.k3j9x0ab.tmp``) are removed; anything else in the folders is left alone.
+    (``.spectrum.csv.k3j9x0ab.tmp``) are removed, in ``folders`` and their blocks' folders (``#2``); anything
+    else is left alone.
     """
     removed = 0
-    for folder in folders:
+    todo = list(folders)
+    while todo:
+        folder = todo.pop()
         try:
             entries = list(os.scandir(folder))
         except OSError:
             continue
+        todo.extend(e.path for e in entries if _BLOCK_FOLDER.fullmatch(e.name) and e.is_dir(follow_symlinks=False))
         for e in entries:
             m = _TEMPORARY.fullmatch(e.name)
             if m is None or m.group("name") not in _OURS:
