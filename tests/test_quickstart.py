@@ -39,7 +39,7 @@ else:  # pragma: no cover
     import tomli as tomllib
 
 ROOT = Path(__file__).resolve().parents[1]
-BAR = re.compile(r"\d+/\d+ \[")  # tqdm's "3/9 [00:05<00:10, ...]"
+BAR = re.compile(r"\d+/\d+ \[[^\]]*(sweep/s|s/sweep)\]")  # tqdm's "3/9 [00:05<00:10,  1.7sweep/s]"
 
 
 def required_distributions() -> dict[str, metadata.Distribution]:
