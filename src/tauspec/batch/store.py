@@ -19,8 +19,9 @@ SCHEMA = "tauspec.batch/1.1"
 
 
 #: Every file the pipeline may write into a result folder (stale ones are removed when a result changes).
-RESULT_FILES = ("spectrum.csv", "fit.csv", "modes.csv", "fit.png", "spectrum.png", "lcurve.png", "diagnosis.png")
 FIGURES = ("fit.png", "spectrum.png", "lcurve.png")
+RESULT_FILES = ("spectrum.csv", "fit.csv", "modes.csv") + tuple(
+    f"{stem}.{fmt}" for stem in ("fit", "spectrum", "lcurve", "diagnosis") for fmt in ("png", "svg", "pdf"))
 
 
 def _header(file: str, input_sha: str | None, settings: BatchSettings, status: str = "ok", error: str | None = None,

@@ -25,7 +25,7 @@ import numpy as np
 
 from ...data.record import field, record, resolve_options
 from ...data.sweep import Sweep
-from ...errors import SettingsError, TauspecError, WeakResultWarning
+from ...errors import DroppedPointsWarning, SettingsError, TauspecError, WeakResultWarning
 from ...models import signatures as sg
 from ...models.beadspring import BeadSpringFit, fit_all
 from ...models.intervals import add_intervals, jacobian_intervals
@@ -150,6 +150,10 @@ def diagnose(sweep: Sweep, options: DiagnoseOptions | None = None, *, spectrum: 
     opts = resolve_options(DiagnoseOptions, options, changes, "diagnose()")
     use_spectrum, solvent, intervals = opts.use_spectrum, opts.solvent, opts.intervals
     notes: list[str] = []
+    sweep, dropped = sweep.restrict(opts.omega_min, opts.omega_max)
+    if dropped:
+        notes.append(dropped)
+        warnings.warn(f"{sweep.source or sweep.name}: {dropped}", DroppedPointsWarning, stacklevel=2)
     spectrum_note = "the spectrum test was switched off"
     if spectrum is None and use_spectrum:
         try:
