@@ -225,8 +225,7 @@ def write_report(folder: str | os.PathLike[str], *, title: str | None = None, ou
             "independent measurements before they drive product or safety decisions.</p>"
             f"{fail_html}{samples_html}</main>")
     target.mkdir(parents=True, exist_ok=True)
-    if paged:
-        _write_pages(target, page_title, sections, page_size, n_pages)
+    _write_pages(target, page_title, sections, page_size, n_pages)  # (none when not paged: old ones go)
     path = target / REPORT_NAME
     atomic_write_text(path, _page(page_title, body, script=True))
     return path
@@ -249,3 +248,5 @@ def _write_pages(target: Path, title: str, sections: list[tuple[str, dict[str, s
             m = re.fullmatch(r"page-(\d+)\.html", old.name)
             if m and int(m.group(1)) > n_pages:
                 old.unlink()
+        if n_pages == 0 and not any(pages.iterdir()):
+            pages.rmdir()

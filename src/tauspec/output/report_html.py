@@ -10,6 +10,7 @@ import base64
 import html
 import math
 from collections.abc import Iterable, Mapping, Sequence
+from pathlib import PurePosixPath
 from typing import Any
 
 from .words import QUANTITIES, evidence_line, interval, number, plain_words, quantity
@@ -129,7 +130,7 @@ def _finite(v: Any) -> bool:
 def label_of(row: Mapping[str, str], result: Mapping[str, Any]) -> tuple[str, str]:
     """(sample name, "25 C · block 2") of a row: the name, and the temperature and block when known."""
     meta = ((result.get("spectrum") or {}).get("meta") or {}) if isinstance(result, Mapping) else {}
-    name = row.get("sample") or result.get("sample") or row.get("file", "")
+    name = row.get("sample") or result.get("sample") or PurePosixPath(row.get("file", "")).stem
     parts = []
     if meta.get("temperature"):
         parts.append(str(meta["temperature"]).replace(" C", " °C") if " C" in str(meta["temperature"])
@@ -239,10 +240,19 @@ def row_html(row: Mapping[str, str], result: Mapping[str, Any], href: str) -> st
         notes = [plain_words(n) for n in (result.get("notes") or [])]
         note = (f"{len(notes)} caution{'s' if len(notes) > 1 else ''}: " + _short(notes[0])) if notes else ""
     else:
-        note = row.get("error", "")
+        note = _without_file(row.get("error", ""), row.get("file", ""))
     cells.append(f'<td class="notes">{text(note)}</td>')
     return (f'<tr class="{"ok" if ok else "failed"}" data-status="{"ok" if ok else "failed"}" '
             f'data-verdict="{html.escape(verdict)}">' + "".join(cells) + "</tr>")
+
+
+def _without_file(error: str, file: str) -> str:
+    """An error without the file name it starts with (the row names the file): ``line 4: row has ...``."""
+    if file and error.startswith(f"{file}:"):
+        rest = error[len(file) + 1:]
+        line, sep, reason = rest.partition(": ")
+        return f"line {line}: {reason}" if sep and line.isdigit() else rest.strip()
+    return error
 
 
 def _short(s: str, n: int = 110) -> str:
