@@ -60,16 +60,19 @@ def run(args: argparse.Namespace) -> int:
         "tauspec/cli/demo_archive.py)")
     seconds: dict[str, float] = {}
 
-    say(f"1. tauspec batch {archive} --out {results} --jobs {args.jobs}" + (" --plot" if args.plot else "")
-        + " --report")
-    seconds["batch"] = _step(args, ["batch", str(archive), "--out", str(results), "--jobs", str(args.jobs),
-                                    "--report"])
+    say(f"1. tauspec batch {archive} --out {results} --jobs {args.jobs}" + (" --plot --report" if args.plot else
+                                                                              "; tauspec report " + str(results)))
+    seconds["batch"] = _step(args, ["batch", str(archive), "--out", str(results), "--jobs", str(args.jobs)]
+                             + (["--report"] if args.plot else []))
+    if not args.plot:
+        _step(args, ["report", str(results)])
     rows = read_summary(results)
     ok = sum(r["status"] == "ok" for r in rows)
+    counts = json.loads((results / "run.json").read_text(encoding="utf-8")).get("counts", {})
     say("")
     say(summary_table(rows))
-    say(f"   {len(rows)} files: {ok} ok, {len(rows) - ok} failed (one export is corrupted on purpose), "
-        f"{seconds['batch']:.0f} s")
+    say(f"   {len(rows)} files: {ok} ok, {len(rows) - ok} failed (one export is corrupted on purpose); "
+        f"{counts.get('computed', 0)} computed, {counts.get('skipped', 0)} already current; {seconds['batch']:.0f} s")
 
     series = sorted(str(results / "series" / f.stem) for f in files if f.parent.name == "series")
     say(f"2. tauspec compare {' '.join(Path(s).name for s in series)} (the M series, from the batch's results)")

@@ -128,8 +128,9 @@ class Sweep:
         else:
             outside = f"outside ω = {lo:g}–{hi:g} rad/s"
         if n_keep < MIN_POINTS:
-            raise SweepError(f"only {n_keep} points are left when those {outside} are left out; at least "
-                             f"{MIN_POINTS} are needed", self.source or self.name)
+            left = f"only {n_keep} point is" if n_keep == 1 else f"only {n_keep} points are"
+            raise SweepError(f"{left} left when those {outside} are left out; at least {MIN_POINTS} are needed",
+                             self.source or self.name)
         note = f"{len(self) - n_keep} of {len(self)} points {outside} were left out (omega_min/omega_max)"
         return self.replace(omega=self.omega[keep], storage=self.storage[keep], loss=self.loss[keep]), note
 

@@ -120,7 +120,7 @@ def plot_series(comparison: Comparison, ax: Any = None) -> Any | None:
         ax.plot(M, t, "o", color="C0", label=r"$\tau_R$ of each sample" if use_rouse else r"$\tau_w$ of each sample")
         grid = np.geomspace(M.min() / 1.3, M.max() * 1.3, 50)
         line = fit.prefactor * grid**x
-        ci = f" [{lo:.2f}, {hi:.2f}]" if math.isfinite(lo) and math.isfinite(hi) else ""
+        ci = f", 95 % [{lo:.2f}, {hi:.2f}]" if math.isfinite(lo) and math.isfinite(hi) else ""
         ax.plot(grid, line, "-", color=NEUTRAL, lw=1, label=f"fit: τ ∝ $M^{{{x:.2f}}}${ci}")
         log_axes(ax, [grid], [t, line])
         ax.set_xlabel(f"molecular weight M [{_m_unit(comparison)}]")
