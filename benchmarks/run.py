@@ -31,7 +31,7 @@ BENCHMARKS = {
     "modes": "bench_modes",
     "pipeline": "bench_pipeline",
 }
-OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty"}
+OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty", "report": "bench_report"}
 
 
 def machine() -> dict:
