@@ -32,8 +32,9 @@ __all__ = ["write_report", "REPORT_NAME", "PAGES_FOLDER", "PAGE_SIZE"]
 
 REPORT_NAME = "report.html"
 PAGES_FOLDER = "report-pages"
-#: Samples per page: up to this many the report is one file; beyond, the sections go to pages of this size.
-PAGE_SIZE = 40
+#: Samples per page: up to this many the report is one file (a few MB of figures); beyond, the sections go to
+#: pages of this size, so that the summary page stays small.
+PAGE_SIZE = 12
 
 _NO_FIGURES = ("no figures stored for this result: run 'tauspec batch ... --plot' (drawn once, in the workers) "
                "or 'tauspec report --plot'")

@@ -284,7 +284,8 @@ def figures_html(figures: Sequence[tuple[str, bytes]]) -> str:
     for stem, data in figures:
         size = _png_size(data)
         dims = f' width="{round(0.75 * size[0])}" height="{round(0.75 * size[1])}"' if size else ""
-        parts.append(f'<img alt="{html.escape(alts.get(stem, stem))}"{dims} src="data:image/png;base64,'
+        parts.append(f'<img alt="{html.escape(alts.get(stem, stem))}"{dims} loading="lazy" decoding="async" '
+                     f'src="data:image/png;base64,'
                      f'{base64.b64encode(data).decode("ascii")}">')
     return f'<div class="figs">{"".join(parts)}</div>' if parts else ""
 
