@@ -23,6 +23,7 @@ from tauspec.analysis.uncertainty.options import BandOptions
 from tauspec.batch.run import BatchReport
 from tauspec.batch.settings import BatchSettings
 from tauspec.data.manifest import read_manifest
+from tauspec.data.read import ReadOptions
 from tauspec.data.record import is_record
 from tauspec.data.sweep import Sweep
 from tauspec.data.write import dumps_json
@@ -104,6 +105,7 @@ def results():
         "band_options": BandOptions(resamples=20, noise=0.02, level=0.9),
         "compare_options": CompareOptions(replicates=4, significance=0.1, reselect=False),
         "batch_settings": BatchSettings(invert=InvertOptions(grid=30, solvent=False), run_diagnose=False),
+        "read_options": ReadOptions(temperature_tolerance=0.5, max_rows=1000),
     }
 
 
@@ -111,7 +113,7 @@ def results():
     "sweep", "spectrum", "lcurve", "modes", "candidate", "derived", "curve", "retardation", "chain_fit", "wlf",
     "arrhenius", "diagnosis", "evidence", "bands", "noise", "interval", "comparison", "pair", "master",
     "pair_shift", "check", "report", "invert_options", "modes_options", "diagnose_options", "band_options",
-    "compare_options", "batch_settings",
+    "compare_options", "batch_settings", "read_options",
 ])
 def test_round_trip(results, name):
     x = results[name]

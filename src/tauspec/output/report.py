@@ -51,8 +51,14 @@ def _read_summary(folder: Path) -> list[dict[str, str]]:
 
 
 def _result_folder(folder: Path, file: str) -> Path | None:
-    """The stored result folder of an input file: its path without the suffix, or with it (batch layout)."""
-    for key in (os.path.splitext(file)[0], file):
+    """The stored result folder of an input file: its path without the suffix, or with it (batch layout).
+
+    One block of a file of several is ``file#k`` in the summary and ``<folder>#k`` on disk.
+    """
+    base, sep, block = file.rpartition("#")
+    tail = f"#{block}" if sep and block.isdigit() else ""
+    name = base if tail else file
+    for key in (os.path.splitext(name)[0] + tail, name + tail):
         if key and (folder / key / "result.json").is_file():
             return folder / key
     return None

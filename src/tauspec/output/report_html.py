@@ -138,6 +138,7 @@ def label_of(row: Mapping[str, str], result: Mapping[str, Any]) -> tuple[str, st
     block = result.get("block") or meta.get("block")
     if block not in (None, ""):
         parts.append(f"block {block}")
+        name = str(name).removesuffix(f"#{block}")  # the block is said beside the name
     return str(name), " · ".join(parts)
 
 
