@@ -199,3 +199,13 @@ def test_progress_bars_only_in_a_terminal_and_never_with_quiet(sweep_file, tmp_p
     piped = subprocess.run([sys.executable, "-m", "tauspec", *argv], capture_output=True, text=True, timeout=300,
                            env={**os.environ, "PYTHONPATH": os.pathsep.join(sys.path)})
     assert piped.returncode == 0 and "resample" not in piped.stderr and "\r" not in piped.stderr
+    # compare and report show theirs too
+    other = write_sweep(tmp_path / "b.csv", lognormal_sweep(2, wmin=1e-2, wmax=1e2, n=30))
+    assert "compare:" in _run_in_terminal(["compare", str(sweep_file), str(other), "--replicates", "2"])
+    folder = tmp_path / "batch"
+    folder.mkdir()
+    (folder / "summary.csv").write_text("file,status,sample,verdict,error\n" + "".join(
+        f"f{k}.csv,error,,,f{k}.csv: no such file\n" for k in range(3)))
+    shown = _run_in_terminal(["report", str(folder)])
+    assert "report:" in shown and "/3 [" in shown
+    assert (folder / "report.html").exists()

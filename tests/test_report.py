@@ -302,8 +302,8 @@ class _Browser:
             if msg.get("id") == i:
                 return msg.get("result", {})
 
-    def evaluate(self, expr):
-        out = self.call("Runtime.evaluate", expression=expr, returnByValue=True)
+    def evaluate(self, expr, *, wait=False):
+        out = self.call("Runtime.evaluate", expression=expr, returnByValue=True, awaitPromise=wait)
         assert "exceptionDetails" not in out, out
         return out["result"].get("value")
 
@@ -361,9 +361,11 @@ def test_browser_sorts_filters_and_clips_nothing(wide_batch, tmp_path, width):
         png = base64.b64decode(shot)
         assert png[:8] == b"\x89PNG\r\n\x1a\n" and int.from_bytes(png[16:20], "big") <= width
         (tmp_path / f"report-{width}.png").write_bytes(png)
-        # every figure at its own aspect ratio
-        ratios = b.evaluate("Array.from(document.querySelectorAll('.figs img')).map(i => "
-                            "[i.naturalWidth / i.naturalHeight, i.clientWidth / i.clientHeight])")
+        # every figure at its own aspect ratio (the images load lazily: load them all first)
+        ratios = b.evaluate("const imgs = Array.from(document.querySelectorAll('.figs img'));"
+                            "Promise.all(imgs.map(i => { i.loading = 'eager'; return i.decode(); })).then(() => "
+                            "imgs.map(i => [i.naturalWidth / i.naturalHeight, i.clientWidth / i.clientHeight]))",
+                            wait=True)
         assert ratios and all(abs(a / c - 1) < 0.02 for a, c in ratios), ratios
 
         names = f"{ROWS}.filter(r => r.dataset.status === 'ok').map(r => r.cells[0].getAttribute('data-sort'))"

@@ -20,7 +20,13 @@ from . import invert as invert_command
 from .common import check_output_arguments, each_file, figure_formats, print_text, progress_bar
 from .options import add_options, options_from_args
 
-__all__ = ["add_arguments", "run", "load_result"]
+__all__ = ["add_arguments", "run", "load_result", "PAIR_COLUMNS"]
+
+#: The columns of pairs.csv: the pair's field (or interval end) → the column's name in words.
+PAIR_COLUMNS = {"a": "sample a", "b": "sample b", "time_shift": "time shift a_t", "modulus_shift": "modulus shift b",
+                "shape_distance": "shape distance D2", "p_value": "p value", "same_shape": "same shape",
+                "time_shift_lo": "a_t low (95 %)", "time_shift_hi": "a_t high (95 %)",
+                "modulus_shift_lo": "b low (95 %)", "modulus_shift_hi": "b high (95 %)"}
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -114,9 +120,8 @@ def run(args: argparse.Namespace) -> int:
         out = Path(args.out)
         out.mkdir(parents=True, exist_ok=True)
         atomic_write_text(out / "comparison.json", dumps_json(data, indent=1) + "\n")
-        cols = ["a", "b", "time_shift", "modulus_shift", "shape_distance", "p_value", "same_shape"]
-        write_csv(out / "pairs.csv", cols + ["time_shift_lo", "time_shift_hi", "modulus_shift_lo", "modulus_shift_hi"],
-                  [[getattr(p, c) for p in result.pairs] for c in cols]
+        write_csv(out / "pairs.csv", list(PAIR_COLUMNS.values()),
+                  [[getattr(p, c) for p in result.pairs] for c in list(PAIR_COLUMNS)[:7]]
                   + [[p.time_shift_ci[0] for p in result.pairs], [p.time_shift_ci[1] for p in result.pairs],
                      [p.modulus_shift_ci[0] for p in result.pairs], [p.modulus_shift_ci[1] for p in result.pairs]])
         written += [out / "comparison.json", out / "pairs.csv"]

@@ -29,16 +29,18 @@ def run(args: argparse.Namespace) -> int:
     options = options_from_args(args, DiagnoseOptions)
     formats = figure_formats(args)
 
-    def work(path: str) -> tuple[dict, str]:
+    def work(path: str) -> tuple[dict, str, list[str]]:
+        from .text import diagnosis_text
+
         sweep = read_sweep(path)
         diag = diagnose(sweep, options)
         result = diag.to_dict()
-        text = diag.report()
+        text, caveats = diagnosis_text(result)
         out = output_dir_for(args, path)
         if out is not None:
             out.mkdir(parents=True, exist_ok=True)
             atomic_write_text(out / "diagnosis.json", dumps_json(result, indent=1) + "\n")
-            atomic_write_text(out / "diagnosis.txt", text + "\n")
+            atomic_write_text(out / "diagnosis.txt", diag.report() + "\n")
             if args.plot:
                 from ..output.figures.diagnosis import plot_diagnosis
                 from ..output.figures.style import save_figure
@@ -46,6 +48,6 @@ def run(args: argparse.Namespace) -> int:
                 save_figure(plot_diagnosis(diag), out / "diagnosis", formats)
             text += f"\nwrote {out}/ (diagnosis.json, diagnosis.txt" + (", diagnosis figure" if args.plot else "") \
                 + ")"
-        return result, text
+        return result, text, caveats
 
     return run_each_file(args, work)

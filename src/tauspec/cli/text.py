@@ -117,3 +117,32 @@ def curve_text(curve: Any, *, table: bool) -> tuple[str, list[str]]:
         if n:
             lines.append("    * over 5 % from outside the supported window")
     return "\n".join(lines), caveats
+
+
+def diagnosis_text(diag: Any) -> tuple[str, list[str]]:
+    """The diagnosis in words, and its notes as caveats.
+
+    The verdict, its statement, the numbers that mean something for the verdict (units on their intervals), the
+    fits, and the evidence as sentences with rounded numbers.
+    """
+    from ..analysis.diagnosis.diagnose import Diagnosis
+    from ..output.diagnosis_words import fit_words
+    from ..output.words import VERDICT_WORDS, evidence_line, key_numbers, plain_words
+
+    d = diag.to_dict() if isinstance(diag, Diagnosis) else dict(diag)
+    verdict = str(d.get("verdict", ""))
+    lines = [f"{d.get('sample', '')}: {verdict.upper()} — {VERDICT_WORDS.get(verdict, verdict)}"]
+    if d.get("statement"):
+        lines.append(f"  {plain_words(d['statement'])}")
+    if d.get("reason"):
+        lines.append(f"  reason: {plain_words(d['reason'])}")
+    lines += [f"  {quantity(k, v, ci)}" for k, v, ci in key_numbers(d) if number(v) != "–"]
+    fits = fit_words(d.get("fits") or {})
+    if fits:
+        lines.append(f"  fits (rms residual, BIC): {fits}")
+    outcomes = [evidence_line(e) for e in d.get("evidence") or [] if isinstance(e, dict)]
+    made = [(t, p) for t, p in outcomes if p is not None]
+    lines.append(f"  evidence: {sum(p is True for _, p in made)} tests passed, {sum(p is False for _, p in made)} "
+                 f"failed, {len(outcomes) - len(made)} not made on these data")
+    lines += [f"    {'✓' if p else '✗'} {t}" for t, p in made]
+    return "\n".join(lines), [plain_words(n) for n in d.get("notes") or []]

@@ -13,9 +13,10 @@ from collections.abc import Iterable, Mapping, Sequence
 from pathlib import PurePosixPath
 from typing import Any
 
-from .words import QUANTITIES, evidence_line, interval, number, plain_words, quantity
+from .words import QUANTITIES, evidence_line, gel_exponent, interval, key_numbers, number, plain_words, quantity
+from .words import is_finite_number as _finite
 
-__all__ = ["CSS", "SCRIPT", "text", "row_html", "section_html", "legend_html", "key_numbers", "label_of",
+__all__ = ["CSS", "SCRIPT", "text", "row_html", "section_html", "legend_html", "label_of",
            "HEADERS", "FIGURE_ORDER"]
 
 CSS = """
@@ -120,13 +121,6 @@ def text(value: Any) -> str:
     return f"<bdi>{html.escape(str(value))}</bdi>" if value not in (None, "") else ""
 
 
-def _finite(v: Any) -> bool:
-    try:
-        return math.isfinite(float(v))
-    except (TypeError, ValueError):
-        return False
-
-
 def label_of(row: Mapping[str, str], result: Mapping[str, Any]) -> tuple[str, str]:
     """(sample name, "25 C · block 2") of a row: the name, and the temperature and block when known."""
     meta = ((result.get("spectrum") or {}).get("meta") or {}) if isinstance(result, Mapping) else {}
@@ -140,36 +134,6 @@ def label_of(row: Mapping[str, str], result: Mapping[str, Any]) -> tuple[str, st
         parts.append(f"block {block}")
         name = str(name).removesuffix(f"#{block}")  # the block is said beside the name
     return str(name), " · ".join(parts)
-
-
-def _gel_exponent(diag: Mapping[str, Any]) -> Any:
-    if diag.get("n") is not None:
-        return diag.get("n")
-    for e in diag.get("evidence") or []:
-        if isinstance(e, Mapping) and e.get("test") == "critical_gel_power_law":
-            return e.get("value")
-    return None
-
-
-def key_numbers(diag: Mapping[str, Any]) -> list[tuple[str, Any, Any]]:
-    """The numbers that mean something for the verdict: [(JSON key, value, interval)].
-
-    Rouse and Zimm: τ_R, G0, a, N.  Entangled: G_N⁰, τ_d, M_e, Z (when the diagnosis gives them; τ_R and G0
-    of a bead-spring fit mean nothing there).  Gel: n and S.  Other and inconclusive: none.
-    """
-    verdict = diag.get("verdict")
-    if verdict in ("rouse", "zimm"):
-        return [("tau_R", diag.get("tau_R"), diag.get("tau_R_ci")), ("G0", diag.get("G0"), diag.get("G0_ci")),
-                ("alpha", diag.get("alpha"), diag.get("alpha_ci")), ("N", diag.get("N"), None)]
-    if verdict == "entangled":
-        keys = [("GN0", "GN0_ci"), ("tau_d", "tau_d_ci"), ("Me", "Me_ci"), ("Z", "Z_ci")]
-        return [(k, diag.get(k), diag.get(ci)) for k, ci in keys if _finite(diag.get(k))]
-    if verdict == "gel":
-        out = [("n", _gel_exponent(diag), diag.get("n_ci"))]
-        if _finite(diag.get("S")):
-            out.append(("S", diag.get("S"), diag.get("S_ci")))
-        return out
-    return []
 
 
 def _cell(key: str | None, value: Any, ci: Any = None) -> str:
@@ -187,7 +151,7 @@ def _third_cell(diag: Mapping[str, Any]) -> str:
     if verdict in ("rouse", "zimm"):
         return _cell("alpha", diag.get("alpha"), diag.get("alpha_ci"))
     if verdict == "gel":
-        return _cell("n", _gel_exponent(diag), diag.get("n_ci"))
+        return _cell("n", gel_exponent(diag), diag.get("n_ci"))
     if verdict == "entangled" and _finite(diag.get("Me")):
         z = f'<span class="sub">Z {number(diag["Z"])}</span>' if _finite(diag.get("Z")) else ""
         return (f'<td class="num" data-sort="{float(diag["Me"])!r}"><span class="sym">M_e</span>'

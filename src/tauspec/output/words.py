@@ -12,7 +12,8 @@ from collections.abc import Mapping, Sequence
 from typing import Any
 
 __all__ = ["QUANTITIES", "EVIDENCE_WORDS", "VERDICT_WORDS", "number", "quantity", "interval", "evidence_line",
-           "symbol", "unit", "words", "plain_words"]
+           "symbol", "unit", "words", "plain_words", "key_numbers", "gel_exponent",
+           "is_finite_number"]
 
 #: JSON key → (symbol, words, unit).  A unit of "" is a pure number.
 QUANTITIES: Mapping[str, tuple[str, str, str]] = {
@@ -82,7 +83,10 @@ _SYMBOLS = [
     (r"\btau_w\b", "τ_w"), (r"\btau_n\b", "τ_n"), (r"\btau\b", "τ"), (r"\bomega_max\b", "ω_max"),
     (r"\bomega_min\b", "ω_min"), (r"\bomega\b", "ω"), (r"\beta_s\b", "η_s"), (r"\beta0\b", "η0"),
     (r"\btan delta\b", "tan δ"), (r"\bdelta\b", "δ"), (r"\bchi2\b", "χ²"), (r"\bpi\b", "π"), (r"\bsqrt\b", "√"),
-    (r"\btheta\b", "θ"), (r">=", "≥"), (r"<=", "≤"), (r"\bG''", "G″"), (r"\bG'", "G′"), (r"\bG0\^2", "G0²"),
+    (r"\btheta\b", "θ"), (r"\bgeneral_sine\b", "free-exponent chain"),
+    (r"\bgeneral_power\b", "free-exponent chain (power-law form)"), (r"\bzimm_good\b", "Zimm chain (good solvent)"),
+    (r"\bzimm_theta\b", "Zimm chain (θ solvent)"), (r">=", "≥"), (r"<=", "≤"), (r"\bG''", "G″"), (r"\bG'", "G′"),
+    (r"\bG0\^2", "G0²"),
 ]
 
 
@@ -173,3 +177,42 @@ def evidence_line(e: Mapping[str, Any]) -> tuple[str, bool | None]:
             text += f", expected {expected}"
     passed = e.get("passed")
     return text, passed if isinstance(passed, bool) else None
+
+
+def is_finite_number(v: Any) -> bool:
+    """True for a value that reads as a finite number."""
+    try:
+        return math.isfinite(float(v))
+    except (TypeError, ValueError):
+        return False
+
+
+def gel_exponent(diag: Mapping[str, Any]) -> Any:
+    """The gel exponent n of a diagnosis: its own key ``n``, else the value of the critical-gel test."""
+    if diag.get("n") is not None:
+        return diag.get("n")
+    for e in diag.get("evidence") or []:
+        if isinstance(e, Mapping) and e.get("test") == "critical_gel_power_law":
+            return e.get("value")
+    return None
+
+
+def key_numbers(diag: Mapping[str, Any]) -> list[tuple[str, Any, Any]]:
+    """The numbers that mean something for the verdict: [(JSON key, value, interval)].
+
+    Rouse and Zimm: τ_R, G0, a, N.  Entangled: G_N⁰, τ_d, M_e, Z (when the diagnosis gives them; τ_R and G0
+    of a bead-spring fit mean nothing there).  Gel: n and S.  Other and inconclusive: none.
+    """
+    verdict = diag.get("verdict")
+    if verdict in ("rouse", "zimm"):
+        return [("tau_R", diag.get("tau_R"), diag.get("tau_R_ci")), ("G0", diag.get("G0"), diag.get("G0_ci")),
+                ("alpha", diag.get("alpha"), diag.get("alpha_ci")), ("N", diag.get("N"), None)]
+    if verdict == "entangled":
+        keys = [("GN0", "GN0_ci"), ("tau_d", "tau_d_ci"), ("Me", "Me_ci"), ("Z", "Z_ci")]
+        return [(k, diag.get(k), diag.get(ci)) for k, ci in keys if is_finite_number(diag.get(k))]
+    if verdict == "gel":
+        out = [("n", gel_exponent(diag), diag.get("n_ci"))]
+        if is_finite_number(diag.get("S")):
+            out.append(("S", diag.get("S"), diag.get("S_ci")))
+        return out
+    return []

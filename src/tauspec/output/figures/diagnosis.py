@@ -8,6 +8,7 @@ from typing import Any
 import numpy as np
 
 from ...models.chains import chain_moduli
+from ..diagnosis_words import MODEL_WORDS
 from .style import (
     DOUBLE_COLUMN,
     LOSS,
@@ -27,13 +28,8 @@ from .style import (
 
 __all__ = ["plot_diagnosis", "plot_chain_fits", "plot_mode_times", "plot_rouse_spectrum"]
 
-#: Words for the bead-spring models of a diagnosis (their keys in ``Diagnosis.fits``).
-MODEL_WORDS = {"rouse": "Rouse", "zimm_theta": "Zimm θ", "zimm_good": "Zimm good solv.",
-               "general_sine": "free exponent", "general_power": "free exponent, power law"}
-
-
 def _words(model: str) -> str:
-    return MODEL_WORDS.get(model, model.replace("_", " "))
+    return MODEL_WORDS.get(model, model.replace("_", " ")).replace("good solvent", "good solv.")
 
 
 def plot_diagnosis(diag: Any, axes: Sequence[Any] | None = None) -> Any:
