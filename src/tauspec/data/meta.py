@@ -24,6 +24,7 @@ _ALIASES = {
     "m": "molecular_weight",
     "molar_mass": "molecular_weight",
     "conc": "concentration",
+    "rho": "density",
     "c": "concentration",
 }
 #: Longest key taken as a key (a longer text before a colon is a sentence, not a key).

@@ -8,6 +8,7 @@ in K.  Readers convert at the edge with :func:`to_si`.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 
 __all__ = [
     "KIND_UNITS",
@@ -20,6 +21,8 @@ __all__ = [
     "temperature_kelvin",
     "temperature_scale",
     "number_end",
+    "density_kg_m3",
+    "molar_mass_g_mol",
 ]
 
 _TWO_PI = 2.0 * math.pi
@@ -242,3 +245,55 @@ def temperature_kelvin(text: str) -> float:
     if scale == "K":
         return value
     raise ValueError(f"temperature unit {unit!r} not understood (use C or K)")
+
+
+_DENSITY = {"kg/m3": 1.0, "kg/m^3": 1.0, "kg/m³": 1.0, "g/cm3": 1e3, "g/cm^3": 1e3, "g/cm³": 1e3, "g/ml": 1e3,
+            "g/cc": 1e3, "kg/l": 1e3, "g/l": 1.0}
+_MOLAR_MASS = {"g/mol": 1.0, "da": 1.0, "kg/mol": 1e3, "kda": 1e3, "mg/mol": 1e-3}
+
+
+def _with_unit(text: str, table: Mapping[str, float], what: str, units: str) -> tuple[float, bool]:
+    """(value converted by the table, whether a unit was given); a unit not in the table is refused."""
+    value, unit = parse_quantity(text)
+    u = unit.strip().lower().replace(" ", "")
+    if not u:
+        return value, False
+    if u not in table:
+        raise ValueError(f"metadata {what}: unknown unit {unit!r} (use {units})")
+    return value * table[u], True
+
+
+def density_kg_m3(text: str) -> float:
+    """A density in kg/m³ from metadata text such as ``"0.92 g/cm3"`` or ``"920 kg/m3"``.
+
+    Without a unit the magnitude decides, since polymer densities (0.8–2.2 g/cm³) leave no overlap:
+    0.3–5 is read as g/cm³, 300–5000 as kg/m³; anything else without a unit is refused.
+
+    Raises
+    ------
+    ValueError
+        When the text is not a positive number with a known unit (or a unitless value in those ranges).
+    """
+    value, given = _with_unit(text, _DENSITY, "density", "g/cm3 or kg/m3")
+    if not given:
+        if 0.3 <= value <= 5:
+            value *= 1e3
+        elif not 300 <= value <= 5000:
+            raise ValueError(f"metadata density {text!r}: give a unit (g/cm3 or kg/m3)")
+    if not (value > 0 and math.isfinite(value)):
+        raise ValueError(f"metadata density {text!r} is not a positive number")
+    return value
+
+
+def molar_mass_g_mol(text: str) -> float:
+    """A molecular weight in g/mol (the unit of the trade) from text such as ``"100 kg/mol"``; no unit: g/mol.
+
+    Raises
+    ------
+    ValueError
+        When the text is not a positive number with a known unit.
+    """
+    value, _ = _with_unit(text, _MOLAR_MASS, "molecular_weight", "g/mol or kg/mol")
+    if not (value > 0 and math.isfinite(value)):
+        raise ValueError(f"metadata molecular_weight {text!r} is not a positive number")
+    return value

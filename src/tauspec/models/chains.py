@@ -1,4 +1,11 @@
-"""Bead-spring chains: the mode-time laws (finite-N Rouse sine form, power form) and the moduli of a chain."""
+"""Bead-spring chains: the mode-time laws and the moduli of a chain.
+
+Two forms of each law: the discrete chain (``"sine"``: the finite-N Rouse eigenvalue spacing raised to a/2;
+a = 2 is Rouse 1953 exactly) and the continuum law (``"power"``: τ_p = τ_1 p^(−a); τ_R/p² is the Rouse law
+handbooks write for N ≫ 1, Ferry 1980 ch. 9, Doi & Edwards 1986 ch. 4; τ_1 p^(−3ν) the Zimm law, Zimm 1956).
+The exact Zimm eigenvalues of a finite chain need a numerical diagonalisation (Lodge & Wu 1971, from memory);
+the discrete Zimm form here is the sine spacing with a = 3ν.  The forms differ only near the shortest modes.
+"""
 
 from __future__ import annotations
 
@@ -9,12 +16,15 @@ import numpy as np
 from ..spectrum.kernels import modes_moduli
 
 __all__ = [
-    "FORMS", "NU_GOOD", "N_MAX", "A_BOUNDS", "TAIL_EPS", "EXACT_MODES", "BIN_RATIO", "mode_times", "chain_moduli",
-    "rouse_moduli", "zimm_moduli"
+    "FORMS", "FORM_NAMES", "NU_GOOD", "N_MAX", "A_BOUNDS", "TAIL_EPS", "EXACT_MODES", "BIN_RATIO", "mode_times",
+    "chain_moduli", "rouse_moduli", "zimm_moduli", "power_tail",
 ]
 
 
 FORMS = ("sine", "power")
+
+#: The plain name of each form: "discrete" chain (sine spacing) or "continuum" law (pure power of p).
+FORM_NAMES = {"sine": "discrete", "power": "continuum"}
 
 #: Flory exponent of a chain in good solvent (renormalization-group value; Rubinstein & Colby 2003, ch. 8).
 NU_GOOD = 0.588
@@ -98,6 +108,26 @@ def _chain_unit(omega: np.ndarray, tau1: float, N: float, a: float, form: str) -
         sp = (1 - f) * sp + f * sp1
         spp = (1 - f) * spp + f * spp1
     return sp, spp
+
+
+def power_tail(omega: np.ndarray, tau1: float, N: float, a: float) -> tuple[np.ndarray, np.ndarray]:
+    """Unit-G0 moduli of the modes p > N of the infinite power law τ_p = τ_1 p^(−a) (a > 1).
+
+    These are the modes a truncated (continuum-form) chain lacks against the N → ∞ law whose asymptotes
+    (tan δ = tan(π/(2a)), G'' = (π/(2√2)) G0 (ωτ_1)^(1/2) for a = 2; Ferry 1980, ch. 9) the intermediate
+    tests use.  Modes N < p ≤ 10⁶ are summed (binned as in :func:`chain_moduli`); beyond, in their
+    low-frequency limit, Σ_{p>M} ωτ_p = ωτ_1 ζ(a, M+1) and Σ (ωτ_p)² = (ωτ_1)² ζ(2a, M+1) (Hurwitz ζ).
+    """
+    from scipy.special import zeta
+
+    omega = np.asarray(omega, dtype=float)
+    n = max(1, int(round(N)))
+    big = max(10**6, 100 * n)
+    sp_big, spp_big = _unit_chain(omega, tau1, big, a, "power")
+    sp_n, spp_n = _unit_chain(omega, tau1, n, a, "power")
+    x = omega * tau1
+    return (sp_big - sp_n + x**2 * float(zeta(2 * a, big + 1)),
+            spp_big - spp_n + x * float(zeta(a, big + 1)))
 
 
 def chain_moduli(

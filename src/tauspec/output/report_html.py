@@ -276,7 +276,8 @@ def _facts(result: Mapping[str, Any]) -> list[str]:
         rule = {"lcurve": "L-curve corner", "gcv": "GCV minimum", "fixed": "given"}.get(spec.get("select"),
                                                                                          spec.get("select"))
         facts.append(f"λ = {number(spec.get('lambda'))} ({rule})")
-        facts.append(f"η_s = {number(spec.get('eta_s'))} Pa·s (Newtonian high-frequency contribution)")
+        facts.append(f"η_s = {number(spec.get('eta_s'))} Pa·s (Newtonian high-frequency contribution: solvent plus "
+                     "modes faster than the window; the solvent itself: see the diagnosis)")
         if _finite(spec.get("residual_rms")):
             facts.append(f"rms residual {100 * float(spec['residual_rms']):.1f} %")
     modes = result.get("modes") or {}
