@@ -311,7 +311,7 @@ def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
 
     assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0  # the corrupted export is expected: exit 0
     first = capsys.readouterr().out
-    assert "exports/batch-22-truncated.csv:4: row has 2 values" in first and "9 computed" in first
+    assert "exports/batch-22-truncated.csv" in first and "line 4: row has 2 values" in first and "9 computed" in first
     # after the batch: the series compared, the master curve and a prediction, each with its figures
     for name in ("compare/overlay.png", "compare/series.png", "master/master.png", "predict/relaxation.png",
                  "results/report.html", "results/series/binder-M40/spectrum.png"):

@@ -47,7 +47,7 @@ def run(args: argparse.Namespace) -> int:
 
     Exit status 0 when the only failure is the archive's deliberately corrupted export.
     """
-    from ..batch.summary import read_summary, summary_table
+    from ..batch.summary import read_summary
     from .demo_archive import CORRUPTED, WLF_DEMO, write_demo_archive, write_temperature_set
 
     check_output_arguments(args)
@@ -70,7 +70,7 @@ def run(args: argparse.Namespace) -> int:
     ok = sum(r["status"] == "ok" for r in rows)
     counts = json.loads((results / "run.json").read_text(encoding="utf-8")).get("counts", {})
     say("")
-    say(summary_table(rows))
+    say(_table(results, rows))
     say(f"   {len(rows)} files: {ok} ok, {len(rows) - ok} failed (one export is corrupted on purpose); "
         f"{counts.get('computed', 0)} computed, {counts.get('skipped', 0)} already current; {seconds['batch']:.0f} s")
 
@@ -109,6 +109,25 @@ def run(args: argparse.Namespace) -> int:
     unexpected = [r for r in rows if r["status"] != "ok" and r["file"] not in expected]
     sys.stdout.flush()
     return 1 if unexpected else 0
+
+
+def _table(results: Path, rows: list[dict[str, str]]) -> str:
+    """The batch in a few lines: each file's verdict and the numbers that mean something for it, with units."""
+    from ..output.report import result_folder
+    from ..output.results import read_result_json
+    from ..output.words import error_words, key_numbers, number, quantity
+
+    width = max(len(r["file"]) for r in rows)
+    lines = [f"   {'file':<{width}}  {'verdict':<12}  key numbers"]
+    for r in rows:
+        if r["status"] != "ok":
+            lines.append(f"   {r['file']:<{width}}  {'failed':<12}  {error_words(r['error'], r['file'])}")
+            continue
+        folder = result_folder(results, r["file"])
+        diag = (read_result_json(folder).get("diagnosis") or {}) if folder is not None else {}
+        numbers = [quantity(k, v) for k, v, _ in key_numbers(diag)[:3] if number(v) != "–"]
+        lines.append(f"   {r['file']:<{width}}  {r['verdict'] or '–':<12}  {', '.join(numbers)}")
+    return "\n".join(lines)
 
 
 def _series_words(path: Path) -> str:

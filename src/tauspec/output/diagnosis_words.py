@@ -10,8 +10,10 @@ from .words import number
 __all__ = ["MODEL_WORDS", "fit_words"]
 
 #: Words for the bead-spring models of a diagnosis (their keys in ``fits``).
-MODEL_WORDS = {"rouse": "Rouse", "zimm_theta": "Zimm θ", "zimm_good": "Zimm good solvent",
-               "general_sine": "free exponent", "general_power": "free exponent, power law"}
+MODEL_WORDS = {"rouse": "Rouse", "rouse_continuum": "Rouse, continuum form", "zimm_theta": "Zimm θ",
+               "zimm_good": "Zimm good solvent", "zimm_theta_discrete": "Zimm θ, discrete form",
+               "zimm_good_discrete": "Zimm good solvent, discrete form", "general_sine": "free exponent",
+               "general_power": "free exponent, power law"}
 
 
 def fit_words(fits: Mapping[str, Any]) -> str:

@@ -27,7 +27,7 @@ from ..errors import TauspecError
 from .report_html import CSS, FIGURE_ORDER, HEADERS, SCRIPT, legend_html, row_html, section_html, symbols_used, text
 from .results import read_result_json
 
-__all__ = ["write_report", "REPORT_NAME", "PAGES_FOLDER", "PAGE_SIZE"]
+__all__ = ["write_report", "result_folder", "REPORT_NAME", "PAGES_FOLDER", "PAGE_SIZE"]
 
 
 REPORT_NAME = "report.html"
@@ -50,11 +50,12 @@ def _read_summary(folder: Path) -> list[dict[str, str]]:
                            str(path)) from None
 
 
-def _result_folder(folder: Path, file: str) -> Path | None:
+def result_folder(folder: str | os.PathLike[str], file: str) -> Path | None:
     """The stored result folder of an input file: its path without the suffix, or with it (batch layout).
 
     One block of a file of several is ``file#k`` in the summary and ``<folder>#k`` on disk.
     """
+    folder = Path(folder)
     base, sep, block = file.rpartition("#")
     tail = f"#{block}" if sep and block.isdigit() else ""
     name = base if tail else file
@@ -128,7 +129,7 @@ def _samples(folder: Path, rows: list[dict[str, str]], draw: bool,
              tick: Callable[[], None]) -> Iterator[tuple[dict[str, str], dict[str, Any], str]]:
     """Yield (row, result, section) for each summary row, reading one result at a time ("" for failed files)."""
     for i, row in enumerate(rows):
-        rf = _result_folder(folder, row.get("file", ""))
+        rf = result_folder(folder, row.get("file", ""))
         result = _clean_notes(_load(rf), row.get("file", "")) if rf is not None else {}
         section = ""
         if row.get("status") == "ok" and rf is not None:

@@ -13,7 +13,17 @@ from collections.abc import Iterable, Mapping, Sequence
 from pathlib import PurePosixPath
 from typing import Any
 
-from .words import QUANTITIES, evidence_line, gel_exponent, interval, key_numbers, number, plain_words, quantity
+from .words import (
+    QUANTITIES,
+    error_words,
+    evidence_line,
+    gel_exponent,
+    interval,
+    key_numbers,
+    number,
+    plain_words,
+    quantity,
+)
 from .words import is_finite_number as _finite
 
 __all__ = ["CSS", "SCRIPT", "text", "row_html", "section_html", "legend_html", "label_of",
@@ -205,19 +215,10 @@ def row_html(row: Mapping[str, str], result: Mapping[str, Any], href: str) -> st
         notes = [plain_words(n) for n in (result.get("notes") or [])]
         note = (f"{len(notes)} caution{'s' if len(notes) > 1 else ''}: " + _short(notes[0])) if notes else ""
     else:
-        note = _without_file(row.get("error", ""), row.get("file", ""))
+        note = error_words(row.get("error", ""), row.get("file", ""))
     cells.append(f'<td class="notes">{text(note)}</td>')
     return (f'<tr class="{"ok" if ok else "failed"}" data-status="{"ok" if ok else "failed"}" '
             f'data-verdict="{html.escape(verdict)}">' + "".join(cells) + "</tr>")
-
-
-def _without_file(error: str, file: str) -> str:
-    """An error without the file name it starts with (the row names the file): ``line 4: row has ...``."""
-    if file and error.startswith(f"{file}:"):
-        rest = error[len(file) + 1:]
-        line, sep, reason = rest.partition(": ")
-        return f"line {line}: {reason}" if sep and line.isdigit() else rest.strip()
-    return error
 
 
 def _short(s: str, n: int = 110) -> str:

@@ -13,7 +13,7 @@ from typing import Any
 
 __all__ = ["QUANTITIES", "EVIDENCE_WORDS", "VERDICT_WORDS", "number", "quantity", "interval", "evidence_line",
            "symbol", "unit", "words", "plain_words", "key_numbers", "gel_exponent",
-           "is_finite_number"]
+           "is_finite_number", "error_words"]
 
 #: JSON key → (symbol, words, unit).  A unit of "" is a pure number.
 QUANTITIES: Mapping[str, tuple[str, str, str]] = {
@@ -75,6 +75,13 @@ EVIDENCE_WORDS: Mapping[str, tuple[str, str]] = {
     "tan_delta_intermediate": ("tan δ in the bead-spring region", ""),
     "tan_delta_zimm": ("tan δ in the bead-spring region (Zimm test)", ""),
     "rouse_coefficient": ("G0 √τ_R from the ω^½ asymptote of G″ over that of the fit", ""),
+    "phase_resolved": ("median tan δ (a phase angle the rheometer resolves)", ""),
+    "noise_level": ("relative point-to-point scatter of the data", ""),
+    "spectrum_describes": ("rms residual of a smooth spectrum over the data's scatter", ""),
+    "kramers_kronig": ("misfit of G′ and G″ to each other (Kramers–Kronig, Booij & Thoone)", ""),
+    "crossover_plateau": ("G′ above G″ between two crossovers", "decades"),
+    "storage_dominated": ("G′ above G″ with G″ rising past the first crossover", "decades"),
+    "entangled_shape": ("entangled shape of the spectrum, exponent n_e of its τ^n_e rise", ""),
 }
 
 # code words of free text (expected values, notes) and how a reader writes them
@@ -83,7 +90,10 @@ _SYMBOLS = [
     (r"\btau_w\b", "τ_w"), (r"\btau_n\b", "τ_n"), (r"\btau\b", "τ"), (r"\bomega_max\b", "ω_max"),
     (r"\bomega_min\b", "ω_min"), (r"\bomega\b", "ω"), (r"\beta_s\b", "η_s"), (r"\beta0\b", "η0"),
     (r"\btan delta\b", "tan δ"), (r"\bdelta\b", "δ"), (r"\bchi2\b", "χ²"), (r"\bpi\b", "π"), (r"\bsqrt\b", "√"),
-    (r"\btheta\b", "θ"), (r"\bgeneral_sine\b", "free-exponent chain"),
+    (r"\btheta\b", "θ"), (r"\bgeneral_sine\b", "free-exponent chain"), (r"\brouse_continuum\b", "Rouse chain "
+                                                                                        "(continuum form)"),
+    (r"\bzimm_good_discrete\b", "Zimm chain (good solvent, discrete form)"),
+    (r"\bzimm_theta_discrete\b", "Zimm chain (θ solvent, discrete form)"),
     (r"\bgeneral_power\b", "free-exponent chain (power-law form)"), (r"\bzimm_good\b", "Zimm chain (good solvent)"),
     (r"\bzimm_theta\b", "Zimm chain (θ solvent)"), (r">=", "≥"), (r"<=", "≤"), (r"\bG''", "G″"), (r"\bG'", "G′"),
     (r"\bG0\^2", "G0²"),
@@ -216,3 +226,12 @@ def key_numbers(diag: Mapping[str, Any]) -> list[tuple[str, Any, Any]]:
             out.append(("S", diag.get("S"), diag.get("S_ci")))
         return out
     return []
+
+
+def error_words(error: str, file: str) -> str:
+    """An error without the file name it starts with (the row names the file): ``line 4: row has ...``."""
+    if file and error.startswith(f"{file}:"):
+        rest = error[len(file) + 1:]
+        line, sep, reason = rest.partition(": ")
+        return f"line {line}: {reason}" if sep and line.isdigit() else rest.strip()
+    return error
