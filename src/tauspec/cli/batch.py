@@ -22,7 +22,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     add_output_arguments(p, out_help="folder for the results and summary.csv (required)",
                          plot_help="draw every result's figures in the workers, once (PNG for the report, and the "
                                    "--format ones)",
-                         json_help="print one JSON object per file (its summary row, numbers as numbers)")
+                         json_help="print one JSON object per file (its summary row, numbers as numbers)",
+                         format_help="formats of the figures besides the PNG the report shows: svg, pdf (with "
+                                     "--force for results already current)")
     for action in p._actions:
         if action.dest == "out":
             action.required = True

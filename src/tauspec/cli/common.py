@@ -24,15 +24,15 @@ __all__ = ["add_output_arguments", "check_output_arguments", "figure_formats", "
 
 def add_output_arguments(p: argparse.ArgumentParser, *, out_help: str = "write result files into DIR",
                          out_default: Path | None = None, plot_help: str | None = None,
-                         json_help: str = "print one JSON object per file on stdout, nothing else") -> None:
+                         json_help: str = "print one JSON object per file on stdout, nothing else",
+                         format_help: str = "figure format: png (default), svg or pdf; several as png,pdf") -> None:
     """Add the common flags ``--out``, ``--json``, ``--plot``, ``--format`` and ``--quiet``."""
     g = p.add_argument_group("output (the same flags on every command)")
     g.add_argument("--out", type=Path, default=out_default, metavar="DIR", help=out_help)
     g.add_argument("--json", action="store_true", help=json_help)
     g.add_argument("--plot", action="store_true",
                    help=plot_help or "draw the figures into --out DIR (needs --out)")
-    g.add_argument("--format", default="png", metavar="FMT",
-                   help="figure format: png (default), svg or pdf; several as png,pdf")
+    g.add_argument("--format", default="png", metavar="FMT", help=format_help)
     g.add_argument("--quiet", action="store_true", help="print nothing but errors (no summary, no progress bar)")
 
 

@@ -16,7 +16,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     add_output_arguments(p, out_help="write report.html into this folder (default: DIR itself)",
                          plot_help="draw the figures of results the batch stored none for (slow: about a second "
                                    "per sample; 'tauspec batch --plot' draws them once, in the workers)",
-                         json_help="print {\"report\": path, \"pages\": [...]} as JSON on stdout")
+                         json_help="print {\"report\": path, \"pages\": [...]} as JSON on stdout",
+                         format_help="accepted as by every command; the report embeds its figures as PNG")
 
 
 def run(args: argparse.Namespace) -> int:

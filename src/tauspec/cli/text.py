@@ -126,7 +126,7 @@ def diagnosis_text(diag: Any) -> tuple[str, list[str]]:
     fits, and the evidence as sentences with rounded numbers.
     """
     from ..analysis.diagnosis.diagnose import Diagnosis
-    from ..output.diagnosis_words import fit_words
+    from ..output.diagnosis_words import entanglement_lines, fit_words
     from ..output.words import VERDICT_WORDS, evidence_line, key_numbers, plain_words
 
     d = diag.to_dict() if isinstance(diag, Diagnosis) else dict(diag)
@@ -137,6 +137,7 @@ def diagnosis_text(diag: Any) -> tuple[str, list[str]]:
     if d.get("reason"):
         lines.append(f"  reason: {plain_words(d['reason'])}")
     lines += [f"  {quantity(k, v, ci)}" for k, v, ci in key_numbers(d) if number(v) != "–"]
+    lines += [f"    {line}" for line in entanglement_lines(d)]
     fits = fit_words(d.get("fits") or {})
     if fits:
         lines.append(f"  fits (rms residual, BIC): {fits}")

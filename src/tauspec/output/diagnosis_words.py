@@ -25,3 +25,41 @@ def fit_words(fits: Mapping[str, Any]) -> str:
     rows.sort(key=lambda r: (r[0] is None, r[0] if r[0] is not None else 0.0))
     return "; ".join(f"{words} {100 * float(rms):.1f} %, {number(bic)}" for bic, words, rms in rows
                      if rms is not None)
+
+
+#: Words for the estimators of the plateau modulus (``entanglement.estimates[].method``).
+ESTIMATOR_WORDS = {"bsw_fit": "BSW fit", "spectrum_integral": "integral of the spectrum over the entanglement zone",
+                   "loss_peak_integral": "integral of the terminal loss peak", "tan_delta_minimum":
+                   "G′ at the minimum of tan δ"}
+
+
+def _estimator(method: Any) -> str:
+    return ESTIMATOR_WORDS.get(str(method), str(method).replace("_", " "))
+
+
+def entanglement_lines(diag: Mapping[str, Any]) -> list[str]:
+    """The plateau modulus's estimator and the others beside it, τ_d's method, M_e's convention and Z, in words.
+
+    Empty unless the diagnosis carries its ``entanglement`` object (an entangled verdict).
+    """
+    from .words import is_finite_number, plain_words, quantity
+
+    e = diag.get("entanglement")
+    if not isinstance(e, Mapping):
+        return []
+    lines = []
+    if e.get("GN0_method"):
+        source = next((x.get("source") for x in e.get("estimates") or [] if x.get("method") == e["GN0_method"]), "")
+        lines.append(f"G_N⁰ by the {_estimator(e['GN0_method'])}" + (f" ({source})" if source else ""))
+    others = [x for x in e.get("estimates") or [] if x.get("method") != e.get("GN0_method")]
+    if others:
+        lines.append("beside it: " + "; ".join(f"{quantity('GN0', x.get('value'), x.get('ci'))} by the "
+                                               f"{_estimator(x.get('method'))}" for x in others))
+    if e.get("tau_d_method"):
+        lines.append(f"τ_d: {plain_words(e['tau_d_method'])}")
+    if is_finite_number(diag.get("Z")) and is_finite_number(diag.get("Me")):
+        lines.append(f"Z = M/M_e = {float(diag['Z']):.3g}" + (f" (M_e {e['Me_convention']})" if e.get("Me_convention")
+                                                              else ""))
+    elif not is_finite_number(diag.get("Me")) and is_finite_number(diag.get("GN0")):
+        lines.append("M_e: needs the density and the temperature in the sweep's metadata")
+    return lines

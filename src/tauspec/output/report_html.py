@@ -13,6 +13,7 @@ from collections.abc import Iterable, Mapping, Sequence
 from pathlib import PurePosixPath
 from typing import Any
 
+from .diagnosis_words import entanglement_lines
 from .words import (
     QUANTITIES,
     error_words,
@@ -299,7 +300,7 @@ def section_html(anchor: str, row: Mapping[str, str], result: Mapping[str, Any],
              f'<p class="muted">{text(row.get("file", ""))}</p>']
     if diag.get("statement"):
         parts.append(f"<p>{text(plain_words(diag['statement']))}</p>")
-    numbers = [quantity(k, v, ci) for k, v, ci in key_numbers(diag) if _finite(v)]
+    numbers = [quantity(k, v, ci) for k, v, ci in key_numbers(diag) if _finite(v)] + entanglement_lines(diag)
     eta0 = (result.get("derived") or {}).get("eta0")
     if _finite(eta0):
         numbers.append(quantity("eta0", eta0))

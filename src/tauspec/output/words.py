@@ -87,7 +87,8 @@ EVIDENCE_WORDS: Mapping[str, tuple[str, str]] = {
 # code words of free text (expected values, notes) and how a reader writes them
 _SYMBOLS = [
     (r"\btau_R\b", "τ_R"), (r"\btau_N\b", "τ_N"), (r"\btau_1\b", "τ_1"), (r"\btau_d\b", "τ_d"),
-    (r"\btau_w\b", "τ_w"), (r"\btau_n\b", "τ_n"), (r"\btau\b", "τ"), (r"\bomega_max\b", "ω_max"),
+    (r"\btau_w\b", "τ_w"), (r"\btau_max\b", "τ_max"),
+    (r"\bG_N0\b", "G_N⁰"), (r"\btau_n\b", "τ_n"), (r"\btau\b", "τ"), (r"\bomega_max\b", "ω_max"),
     (r"\bomega_min\b", "ω_min"), (r"\bomega\b", "ω"), (r"\beta_s\b", "η_s"), (r"\beta0\b", "η0"),
     (r"\btan delta\b", "tan δ"), (r"\bdelta\b", "δ"), (r"\bchi2\b", "χ²"), (r"\bpi\b", "π"), (r"\bsqrt\b", "√"),
     (r"\btheta\b", "θ"), (r"\bgeneral_sine\b", "free-exponent chain"), (r"\brouse_continuum\b", "Rouse chain "
