@@ -33,7 +33,7 @@ BENCHMARKS = {
     "reader": "bench_reader",
     "dialect": "bench_dialect",
 }
-OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty"}
+OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty", "report": "bench_report"}
 
 
 def machine() -> dict:

@@ -305,6 +305,21 @@ def test_inputs_layout_manifest_and_name_clashes(tmp_path):
     assert [(i.file, i.key) for i in find_inputs([work / "liquids" / "m1.txt"], out)] == [("m1.txt", "m1.txt")]
 
 
+def test_demo_runs_the_whole_job(tmp_path, capsys):
+    """The demo runs the whole job on its invented archive (40 s or so: the batch, compare, master, predict)."""
+    assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0  # the corrupted export is expected: exit 0
+    first = capsys.readouterr().out
+    assert "exports/batch-22-truncated.csv" in first and "line 4: row has 2 values" in first and "9 computed" in first
+    # after the batch: the series compared, the master curve and a prediction, each with its figures
+    for name in ("compare/overlay.png", "compare/series.png", "master/master.png", "predict/relaxation.png",
+                 "results/report.html", "results/series/binder-M40.csv/spectrum.png"):
+        assert (tmp_path / name).stat().st_size > 10_000, name
+    assert "series scaling τ_R ∝ M^2.0" in first  # Rouse chains: τ_R ∝ M² (Ferry 1980, ch. 9)
+    assert "where everything is:" in first
+    # the science of the demo and its resume: tests/test_quickstart.py
+    assert len(read_summary(tmp_path / "results")) == 9
+
+
 def test_written_files_get_the_usual_permissions(reference):
     out, _ = reference
     mask = os.umask(0o022)

@@ -51,7 +51,7 @@ def test_invert_out_and_plot(sweep_file, tmp_path, capsys):
     assert d["lambda"] == 0.01 and d["select"] == "fixed"
     table = np.genfromtxt(out / "spectrum.csv", delimiter=",", skip_header=1)
     np.testing.assert_allclose(table[:, 1], d["H"])
-    assert "strength λ = 0.01" in capsys.readouterr().out
+    assert "λ = 0.01 (given)" in capsys.readouterr().out
 
 
 def test_bad_file_one_line_exit_1(tmp_path, sweep_file, capsys):

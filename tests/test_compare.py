@@ -337,7 +337,7 @@ def test_cli_from_sweep_files_and_from_invert_folders(tmp_path, capsys):
     for key in ("time_shift", "modulus_shift", "shape_distance", "same_shape", "time_shift_ci"):
         assert d2["pairs"][0][key] == pytest.approx(d1["pairs"][0][key], rel=1e-9)
     assert (tmp_path / "cmp" / "comparison.json").is_file() and (tmp_path / "cmp" / "overlay.png").is_file()
-    assert (tmp_path / "cmp" / "pairs.csv").read_text().startswith("a,b,time_shift")
+    assert (tmp_path / "cmp" / "pairs.csv").read_text().startswith("sample a,sample b,time shift a_t,modulus shift b")
 
 
 def test_cli_manifest_and_reference(tmp_path, capsys):

@@ -229,7 +229,7 @@ def test_curve_flags_and_output():
     assert c.flags[-1] and not c.flags[0]
     assert "extrapolation" in c.report()
     lines = curve_csv_text(c).splitlines()
-    assert lines[0] == "t [s],G(t) [Pa],outside_share,outside_window"
+    assert lines[0] == "t [s],G(t) [Pa],outside share,outside window"
     assert len(lines) == 21 and lines[-1].endswith(",yes")
     assert float(lines[1].split(",")[1]) == pytest.approx(c.y[0], rel=1e-15)
 

@@ -51,7 +51,7 @@ def test_relaxation_csv_matches_library(sweep_file, tmp_path, capsys):
     expected = relaxation_modulus(fit_modes(read_sweep(sweep_file)), t).y
     np.testing.assert_allclose(G, expected, rtol=1e-15)
     text = capsys.readouterr().out
-    assert "Maxwell mode(s)" in text and f"wrote {out}" in text
+    assert "Maxwell modes" in text and f"wrote {out}" in text
 
 
 def test_creep_json_is_one_object(sweep_file, tmp_path, capsys):
@@ -71,13 +71,29 @@ def test_creep_json_is_one_object(sweep_file, tmp_path, capsys):
 
 
 def test_viscosity_with_plot(sweep_file, tmp_path, capsys, monkeypatch):
-    monkeypatch.chdir(tmp_path)  # without --out the files go to the current folder as <stem>-<quantity>.*
-    assert predict.run(_args(str(sweep_file), "--quantity", "viscosity", "--rates", "0.1:10:3", "--plot")) == 0
-    header, _, eta = _read_curve(tmp_path / "fluid-viscosity.csv")
-    assert header.startswith("shear_rate [1/s],eta_cox_merz [Pa s]")
+    out = tmp_path / "v"
+    assert predict.run(_args(str(sweep_file), "--quantity", "viscosity", "--rates", "0.1:10:3", "--plot",
+                             "--format", "png,svg", "--out", str(out))) == 0
+    header, _, eta = _read_curve(out / "viscosity.csv")
+    assert header.startswith("shear rate [1/s],viscosity Cox-Merz [Pa s]")
     assert np.all(np.diff(eta) < 0)  # shear thinning of a Maxwell fluid's |η*|
-    assert (tmp_path / "fluid-viscosity.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
-    assert "Cox-Merz" in capsys.readouterr().out
+    assert (out / "viscosity.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert (out / "viscosity.svg").read_text().lstrip().startswith("<?xml")
+    assert "Cox–Merz" in capsys.readouterr().out
+
+
+def test_nothing_is_written_without_out(sweep_file, tmp_path, capsys, monkeypatch):
+    # without --out the curve is printed, one line per point, and no file appears in the current folder
+    monkeypatch.chdir(tmp_path)
+    before = sorted(tmp_path.iterdir())
+    assert predict.run(_args(str(sweep_file), "--quantity", "relaxation", "--times", "0.1,1,10")) == 0
+    text = capsys.readouterr().out
+    assert sorted(tmp_path.iterdir()) == before
+    rows = [ln.split() for ln in text.splitlines() if ln.strip().split()[:1] in (["0.1"], ["1"], ["10"])]
+    expected = relaxation_modulus(fit_modes(read_sweep(sweep_file)), [0.1, 1, 10]).y
+    np.testing.assert_allclose([float(r[1]) for r in rows], expected, rtol=1e-3)  # printed to 4 digits
+    with pytest.raises(SettingsError, match="--plot needs --out"):
+        predict.run(_args(str(sweep_file), "--quantity", "relaxation", "--plot"))
 
 
 @pytest.mark.parametrize(

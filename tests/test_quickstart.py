@@ -117,7 +117,7 @@ def test_demo_in_a_terminal_with_only_the_required_dependencies(bare, tmp_path, 
     assert status == 0, shown[-2000:]  # the corrupted export is expected: exit 0
     assert "internal error" not in shown and "Traceback" not in shown
     assert BAR.search(shown), "no progress bar in the terminal"
-    assert "exports/batch-22-truncated.csv:4: row has 2 values" in shown and "9 computed" in shown
+    assert "exports/batch-22-truncated.csv" in shown and "line 4: row has 2 values" in shown and "9 computed" in shown
     rows = {r["file"]: r for r in read_summary(tmp_path / "results")}
     assert len(rows) == 9
     for s in demo_samples():
@@ -138,7 +138,7 @@ def test_demo_in_a_terminal_with_only_the_required_dependencies(bare, tmp_path, 
         assert (tmp_path / "results" / "series" / f"{s.name}.csv" / "modes.csv").exists()
     # and it resumes: nothing is computed twice
     assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0
-    assert "(0 computed, 9 already current)" in capsys.readouterr().out
+    assert "0 computed, 9 already current" in capsys.readouterr().out
 
 
 def test_the_progress_bar_is_silent_when_redirected_or_quiet(bare, tmp_path):

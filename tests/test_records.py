@@ -159,8 +159,21 @@ def test_schema_of_another_kind_is_refused(results):
 
 
 def test_reprs_are_short(results):
+    from html.parser import HTMLParser
+
     for name, x in results.items():
         assert len(repr(x)) < 300, name
+        # in a notebook: the same numbers as a small table
+        page = x._repr_html_()
+        cells: list[str] = []
+        parser = HTMLParser()
+        parser.handle_data = cells.append
+        parser.feed(page)
+        assert page.startswith("<table>") and cells[0] == type(x).__name__, name
+        for part in repr(x)[len(type(x).__name__) + 1:-1].split(", ")[:3]:
+            if "=" in part and not part.endswith("...") and not any(c in part for c in "()[]'\""):
+                key, value = part.split("=", 1)
+                assert key in cells and value in cells, (name, key)
 
 
 def test_options_are_validated_once_with_one_line(results):

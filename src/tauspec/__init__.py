@@ -50,6 +50,17 @@ _EXPORTS = {
     "creep_compliance": "modes.derived",
     "complex_viscosity": "modes.derived",
     "shear_viscosity": "modes.derived",
+    # figures (matplotlib, loaded on first use): each takes an optional axes and returns it
+    "plot_fit": "output.figures.spectrum",
+    "plot_residuals": "output.figures.spectrum",
+    "plot_spectrum": "output.figures.spectrum",
+    "plot_lcurve": "output.figures.spectrum",
+    "plot_diagnosis": "output.figures.diagnosis",
+    "plot_master": "output.figures.master",
+    "plot_overlay": "output.figures.overlay",
+    "plot_series": "output.figures.overlay",
+    "plot_curve": "output.figures.curve",
+    "save_figure": "output.figures.style",
 }
 
 __all__ = sorted(_EXPORTS) + ["__version__"]

@@ -4,17 +4,15 @@ from __future__ import annotations
 
 import functools
 import os
-import tempfile
 import time
 import warnings
 from collections.abc import Callable, Mapping, Sequence
-from pathlib import Path
 from typing import Any
 
 from ..data.read import parse_sweep_text, parse_sweeps_text
 from ..data.sweep import Sweep
 from ..data.write import dumps_json
-from ..errors import SweepError, TauspecError
+from ..errors import DroppedPointsWarning, SweepError, TauspecError
 from .settings import BatchSettings
 from .store import _header, _sha256
 
@@ -50,6 +48,7 @@ def _modes_step(sweep: Sweep, settings: BatchSettings, state: dict[str, Any]) ->
     from ..output.tables import modes_csv_text
 
     modes = fit_modes(sweep, state["spectrum"], settings.modes)
+    state["modes"] = modes
     return modes_entries(modes, state["spectrum"]), {"modes.csv": modes_csv_text(modes)}
 
 
@@ -70,18 +69,21 @@ _PIPELINE: tuple[tuple[str, Callable[..., tuple[dict[str, Any], dict[str, str]]]
 )
 
 
-def _figures(state: Mapping[str, Any]) -> dict[str, bytes]:
-    """PNG bytes of the spectrum's figures (and the diagnosis's), drawn into a scratch folder of the worker."""
-    from ..output.figures.spectrum import save_spectrum_figures
+def _figures(state: Mapping[str, Any], formats: tuple[str, ...]) -> dict[str, bytes]:
+    """The figures of one result, drawn here in the worker once: {file name: bytes}.
 
-    with tempfile.TemporaryDirectory(prefix="tauspec-fig-") as tmp:
-        paths = save_spectrum_figures(state["spectrum"], tmp)
-        if "diagnosis" in state:
-            from ..output.figures.diagnosis import plot_diagnosis
+    ``fit``, ``spectrum`` (with the Maxwell modes as stems), ``lcurve`` and, with a diagnosis, ``diagnosis``,
+    each in every format (PNG first: at a fixed pixel size, the one the report shows).
+    """
+    from ..output.figures.spectrum import spectrum_figures
+    from ..output.figures.style import figure_bytes
 
-            plot_diagnosis(state["diagnosis"], Path(tmp) / "diagnosis.png")
-            paths.append(Path(tmp) / "diagnosis.png")
-        return {p.name: p.read_bytes() for p in paths}
+    figures = spectrum_figures(state["spectrum"], modes=state.get("modes"))
+    if "diagnosis" in state:
+        from ..output.figures.diagnosis import plot_diagnosis
+
+        figures["diagnosis"] = plot_diagnosis(state["diagnosis"])
+    return {f"{stem}.{fmt}": figure_bytes(fig, fmt) for stem, fig in figures.items() for fmt in formats}
 
 
 def _read(text: str, source: str, block: int | None) -> Sweep:
@@ -142,6 +144,9 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
             warnings.simplefilter("always")
             sweep = sweep_or_text if isinstance(sweep_or_text, Sweep) else _read(sweep_or_text, source, block)
             result["sample"] = sweep.name
+            sweep, dropped = sweep.restrict(settings.invert.omega_min, settings.invert.omega_max)
+            if dropped:
+                warnings.warn(f"{source}: {dropped}", DroppedPointsWarning, stacklevel=1)
             seconds["read"] = time.perf_counter() - t
             state: dict[str, Any] = {}
             for name, step in _PIPELINE:
@@ -154,7 +159,7 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
                 seconds[name] = time.perf_counter() - t
             if settings.plots:
                 t = time.perf_counter()
-                files.update(_figures(state))
+                files.update(_figures(state, settings.figure_formats))
                 seconds["plots"] = time.perf_counter() - t
     except TauspecError as exc:
         if exc.source is None:

@@ -3,12 +3,14 @@
 A settings file has one section per step, and each key is a field of that step's options record — the same
 records the Python API and the command line build::
 
-    [invert]            # InvertOptions: strength, select, grid, solvent, equilibrium_modulus, eta_s
+    [invert]            # InvertOptions: strength, select, grid, solvent, equilibrium_modulus, eta_s,
+                        #   omega_min, omega_max
     [modes]             # run = false skips the step; ModesOptions: n_modes, significance, per_decade
     [diagnose]          # run = false skips the step; DiagnoseOptions: intervals, use_spectrum
     [batch]             # how the run treats each file: time_limit (seconds per file)
 
-The physical switches of ``[invert]`` (``solvent``, ``equilibrium_modulus``, ``eta_s``) hold for every step.
+The physical switches of ``[invert]`` (``solvent``, ``equilibrium_modulus``, ``eta_s``) and its frequency range
+(``omega_min``, ``omega_max``: points outside are left out, with a note) hold for every step.
 """
 
 from __future__ import annotations
@@ -32,7 +34,8 @@ __all__ = ["BatchSettings", "SECTIONS", "settings_from_mapping", "load_settings"
 
 #: TOML section -> (options record, the keys it offers there, whether it has a ``run`` switch).
 SECTIONS: dict[str, tuple[type, tuple[str, ...], bool]] = {
-    "invert": (InvertOptions, ("strength", "select", "grid", "solvent", "equilibrium_modulus", "eta_s"), False),
+    "invert": (InvertOptions, ("strength", "select", "grid", "solvent", "equilibrium_modulus", "eta_s", "omega_min",
+                               "omega_max"), False),
     "modes": (ModesOptions, ("n_modes", "significance", "per_decade"), True),
     "diagnose": (DiagnoseOptions, ("intervals", "use_spectrum"), True),
 }
@@ -49,9 +52,10 @@ class BatchSettings:
 
     ``modes`` and ``diagnose`` carry the physical switches of ``invert`` (made so here, once);
     ``run_modes`` and ``run_diagnose`` say whether those steps run.  ``plots`` only decides whether figures
-    are drawn; it is not part of :meth:`digest` (a rerun with ``plots`` draws the missing figures).
-    ``time_limit`` (s) stops a file that runs longer: it becomes an error row and the run goes on; it is not
-    part of :meth:`digest` either (a file stopped by a shorter limit is tried again under a longer one).
+    are drawn (PNG, which the report shows, and the other ``figure_formats``); neither is part of :meth:`digest`
+    (a rerun with ``plots`` draws the missing figures).  ``time_limit`` (s) stops a file that runs longer: it
+    becomes an error row and the run goes on; it is not part of :meth:`digest` either (a file stopped by a
+    shorter limit is tried again under a longer one).
     """
 
     invert: InvertOptions = field(default_factory=InvertOptions)
@@ -63,16 +67,22 @@ class BatchSettings:
     time_limit: float = option(TIME_LIMIT, transient=True, metavar="SECONDS",
                                help="stop a file that takes longer than this many seconds (an error row; default "
                                     f"{TIME_LIMIT:g})")
+    figure_formats: tuple[str, ...] = field(default=("png",), transient=True)
 
     def __post_init__(self) -> None:
+        from ..output.figures.style import check_formats
+
         for name in ("run_modes", "run_diagnose", "plots"):
             check_bool(name, getattr(self, name))
         check_number("time_limit", self.time_limit, lo=0, lo_open=True, what="a time in seconds")
         object.__setattr__(self, "time_limit", float(self.time_limit))
+        object.__setattr__(self, "figure_formats", ("png",) + tuple(
+            f for f in check_formats(self.figure_formats) if f != "png"))
         inv = self.invert
+        span = {"omega_min": inv.omega_min, "omega_max": inv.omega_max}
         object.__setattr__(self, "modes", dataclasses.replace(
-            self.modes, solvent=inv.solvent, equilibrium_modulus=inv.equilibrium_modulus, eta_s=inv.eta_s))
-        object.__setattr__(self, "diagnose", dataclasses.replace(self.diagnose, solvent=inv.solvent))
+            self.modes, solvent=inv.solvent, equilibrium_modulus=inv.equilibrium_modulus, eta_s=inv.eta_s, **span))
+        object.__setattr__(self, "diagnose", dataclasses.replace(self.diagnose, solvent=inv.solvent, **span))
 
     @property
     def steps(self) -> tuple[str, ...]:

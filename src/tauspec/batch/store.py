@@ -27,8 +27,9 @@ SCHEMA = "tauspec.batch/1.1"
 
 
 #: Every file the pipeline may write into a result folder (stale ones are removed when a result changes).
-RESULT_FILES = ("spectrum.csv", "fit.csv", "modes.csv", "fit.png", "spectrum.png", "lcurve.png", "diagnosis.png")
 FIGURES = ("fit.png", "spectrum.png", "lcurve.png")
+RESULT_FILES = ("spectrum.csv", "fit.csv", "modes.csv") + tuple(
+    f"{stem}.{fmt}" for stem in ("fit", "spectrum", "lcurve", "diagnosis") for fmt in ("png", "svg", "pdf"))
 
 # The temporary names of an atomic write: ".NAME.XXXXXXXX.tmp" (tempfile.mkstemp) or ".NAME.tmp" (figures).
 _TEMPORARY = re.compile(r"\.(?P<name>.+?)(\.[a-z0-9_]{8})?\.tmp")

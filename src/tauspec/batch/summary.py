@@ -118,8 +118,8 @@ def summary_table(rows: Sequence[Mapping[str, str]]) -> str:
     """Return the summary rows as a plain-text table (errors with their reason), every name printable."""
     rows = [{k: printable(v) for k, v in r.items()} for r in rows]
     width = max([len(r["file"]) for r in rows] + [4])
-    head = (f"{'file':{width}s}  {'status':6s}  {'verdict':12s}  {'tau_R [s]':>9s}  {'G0 [Pa]':>9s}  "
-            f"{'alpha':>6s}  {'eta0 [Pa·s]':>11s}  {'λ':>8s}  {'rms':>6s}")
+    head = (f"{'file':{width}s}  {'status':6s}  {'verdict':12s}  {'τ_R [s]':>9s}  {'G0 [Pa]':>9s}  "
+            f"{'a':>6s}  {'η0 [Pa·s]':>11s}  {'λ':>8s}  {'rms':>6s}")
     lines = [head, "-" * len(head)]
     for r in rows:
         if r["status"] != "ok":

@@ -9,7 +9,7 @@ from ..analysis.uncertainty.options import BandOptions
 from ..errors import SettingsError
 from .options import add_options, options_from_args
 
-__all__ = ["add_band_arguments", "band_settings", "band_fields"]
+__all__ = ["add_band_arguments", "band_settings", "band_fields", "run_bands"]
 
 
 def add_band_arguments(p: argparse.ArgumentParser) -> None:
@@ -36,3 +36,16 @@ def band_fields(bands: Any) -> dict[str, Any]:
     return {"H_lo": d["H_lo"], "H_hi": d["H_hi"], "band_level": d["level"], "band_method": d["description"],
             "band_noise": d["noise"], "band_resamples": d["n_resamples"], "band_failed": d["n_failed"],
             "band_seed": d["seed"], "intervals": d["intervals"]}
+
+
+def run_bands(spectrum: Any, options: BandOptions, args: argparse.Namespace) -> Any:
+    """The confidence bands of one spectrum, with a progress bar in a terminal (see ``progress_bar``)."""
+    from ..analysis.uncertainty.bands import confidence_bands
+    from .common import progress_bar
+
+    bar = progress_bar(args, options.resamples, "resample", desc=f"{spectrum.sample}: bands")
+    try:
+        return confidence_bands(spectrum, options, progress=None if bar is None else bar.update)
+    finally:
+        if bar is not None:
+            bar.close()

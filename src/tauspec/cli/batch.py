@@ -5,10 +5,16 @@ from __future__ import annotations
 import argparse
 import dataclasses
 import sys
+from collections.abc import Mapping
 from pathlib import Path
+from typing import Any
 
 from ..data.write import dumps_json
+from .common import add_output_arguments, figure_formats
 from .options import add_options
+
+#: Columns of summary.csv that hold text; every other column holds a number (or nothing).
+TEXT_COLUMNS = frozenset({"file", "status", "sample", "verdict", "error", "block", "temperature", "note", "notes"})
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -17,23 +23,49 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
     p.add_argument("paths", nargs="+", metavar="PATH",
                    help="folders (searched recursively for .csv .tsv .txt .dat files) or sweep files")
-    p.add_argument("--out", type=Path, required=True, metavar="DIR",
-                   help="folder for the results and summary.csv (one run at a time)")
-    p.add_argument("--jobs", type=int, default=1, metavar="N", help="worker processes (default 1)")
-    p.add_argument("--backend", choices=["loky", "dask"], default="loky",
+    add_output_arguments(p, out_help="folder for the results and summary.csv (required; one run at a time)",
+                         plot_help="draw every result's figures in the workers, once (PNG for the report, and the "
+                                   "--format ones)",
+                         json_help="print one JSON object per file (its summary row, numbers as numbers)",
+                         format_help="formats of the figures besides the PNG the report shows: svg, pdf (with "
+                                     "--force for results already current)")
+    for action in p._actions:
+        if action.dest == "out":
+            action.required = True
+    p.add_argument("--plots", dest="plot", action="store_true", help=argparse.SUPPRESS)  # the flag's old name
+    g = p.add_argument_group("batch")
+    g.add_argument("--jobs", type=int, default=1, metavar="N", help="worker processes (default 1)")
+    g.add_argument("--backend", choices=["loky", "dask"], default="loky",
                    help="loky: processes on this machine (default); dask: a dask.distributed cluster")
-    p.add_argument("--scheduler", default=None, metavar="ADDRESS",
+    g.add_argument("--scheduler", default=None, metavar="ADDRESS",
                    help="Dask scheduler, tcp://HOST:PORT (with --backend dask; default: a local cluster)")
-    p.add_argument("--manifest", type=Path, default=None, metavar="CSV",
+    g.add_argument("--manifest", type=Path, default=None, metavar="CSV",
                    help="a CSV file whose 'file' column lists more inputs (relative to its folder)")
-    p.add_argument("--settings", type=Path, default=None, metavar="FILE.toml",
+    g.add_argument("--settings", type=Path, default=None, metavar="FILE.toml",
                    help="TOML file with [invert], [modes], [diagnose] and [batch] options (see docs/batch.md)")
-    add_options(p, BatchSettings, only=["time_limit"])
-    p.add_argument("--plots", action="store_true", help="write PNG figures beside each result")
-    p.add_argument("--force", action="store_true", help="recompute every file, even when its result is current")
-    p.add_argument("--quiet", action="store_true", help="print nothing (no progress bar, no counts)")
-    p.add_argument("--json", action="store_true", help="print one JSON object (the summary row) per file")
-    p.add_argument("--report", action="store_true", help="also write DIR/report.html, the browsable report")
+    add_options(g, BatchSettings, only=["time_limit"])
+    g.add_argument("--force", action="store_true", help="recompute every file, even when its result is current")
+    g.add_argument("--report", action="store_true",
+                   help="also write DIR/report.html, the browsable report (draws the figures, as --plot)")
+
+
+def json_row(row: Mapping[str, str]) -> dict[str, Any]:
+    """A summary row with its numbers as JSON numbers and empty cells as null."""
+    out: dict[str, Any] = {}
+    for key, text in row.items():
+        if text is None or text == "":
+            out[key] = None
+        elif key in TEXT_COLUMNS:
+            out[key] = text
+        else:
+            try:
+                value = float(text)
+            except ValueError:
+                out[key] = text
+            else:
+                out[key] = int(value) if value.is_integer() and "." not in text and "e" not in text.lower() \
+                    else value
+    return out
 
 
 def run(args: argparse.Namespace) -> int:
@@ -43,7 +75,10 @@ def run(args: argparse.Namespace) -> int:
     from ..batch.summary import read_summary
     from ..output.text import printable
 
-    settings = load_settings(args.settings, plots=args.plots)
+    plots = bool(args.plot or args.report)
+    settings = load_settings(args.settings, plots=plots)
+    if plots:
+        settings = dataclasses.replace(settings, figure_formats=figure_formats(args))
     if hasattr(args, "time_limit"):
         from .options import options_from_args
 
@@ -58,10 +93,10 @@ def run(args: argparse.Namespace) -> int:
     if args.report:
         from ..output.report import write_report
 
-        report_path = write_report(args.out)
+        report_path = write_report(args.out, progress=progress)
     if args.json:
         for row in rows:
-            print(dumps_json(row), flush=True)
+            print(dumps_json(json_row(row)), flush=True)
         return report.status
     if not args.quiet:
         print(f"{report.inputs} files: {report.ok} ok, {report.failed} failed "

@@ -18,12 +18,16 @@ from ..data.write import atomic_write_text, dumps_json, write_csv
 from ..errors import SettingsError, TauspecError
 from ..spectrum.options import InvertOptions
 from . import invert as invert_command
-from .common import each_file
+from .common import check_output_arguments, each_file, figure_formats, print_text, progress_bar
 from .options import add_options, options_from_args
 
-__all__ = ["add_arguments", "run", "load_result"]
+__all__ = ["add_arguments", "run", "load_result", "PAIR_COLUMNS"]
 
-
+#: The columns of pairs.csv: the pair's field (or interval end) → the column's name in words.
+PAIR_COLUMNS = {"a": "sample a", "b": "sample b", "time_shift": "time shift a_t", "modulus_shift": "modulus shift b",
+                "shape_distance": "shape distance D2", "p_value": "p value", "same_shape": "same shape",
+                "time_shift_lo": "a_t low (95 %)", "time_shift_hi": "a_t high (95 %)",
+                "modulus_shift_lo": "b low (95 %)", "modulus_shift_hi": "b high (95 %)"}
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -34,6 +38,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
             action.help = "sweep files, result.json files or result folders written by 'tauspec invert --out'"
         elif action.dest == "json":
             action.help = "print the comparison as one JSON object on stdout, nothing else"
+        elif action.dest == "out":
+            action.help = "write comparison.json and pairs.csv into DIR"
     p.add_argument("--reference", metavar="FILE", default=None,
                    help="compare every sample against this one (one of the FILEs) instead of all pairs")
     p.add_argument("--manifest", metavar="CSV", default=None,
@@ -84,8 +90,7 @@ def _read_manifest(path: str) -> list[ManifestEntry]:
 
 def run(args: argparse.Namespace) -> int:
     """Load every sample, compare them and print the result (one JSON object with --json)."""
-    from ..analysis.comparison.compare import compare
-    from ..output.figures.overlay import save_overlay
+    check_output_arguments(args)
     from ..output.results import expand_batch_folders
 
     files = expand_batch_folders(each_file(args.files))  # a batch output folder: its results, by its index
@@ -93,16 +98,53 @@ def run(args: argparse.Namespace) -> int:
         raise SettingsError("compare needs at least two files")
     options = options_from_args(args, CompareOptions)
     inversion = invert_command.invert_options(args)
-    spectra, stored = [], []
-    for f in files:
-        try:
-            spectrum, diagnosis = load_result(f, inversion)
-        except TauspecError as exc:
-            if exc.source is None:
-                exc = type(exc)(exc.reason, f, exc.line)
-            raise exc from None
-        spectra.append(spectrum)
-        stored.append(diagnosis)
+    formats = figure_formats(args)
+    bar = progress_bar(args, 2 * len(files), "step", desc="compare")
+    try:
+        spectra, stored = [], []
+        for f in files:
+            try:
+                spectrum, diagnosis = load_result(f, inversion)
+            except TauspecError as exc:
+                if exc.source is None:
+                    exc = type(exc)(exc.reason, f, exc.line)
+                raise exc from None
+            spectra.append(spectrum)
+            stored.append(diagnosis)
+            if bar is not None:
+                bar.update(1)
+        result = _compare(args, files, spectra, stored, options, None if bar is None else bar.update)
+    finally:
+        if bar is not None:
+            bar.close()
+    data = result.to_dict()
+    written = []
+    if args.out is not None:
+        out = Path(args.out)
+        out.mkdir(parents=True, exist_ok=True)
+        atomic_write_text(out / "comparison.json", dumps_json(data, indent=1) + "\n")
+        write_csv(out / "pairs.csv", list(PAIR_COLUMNS.values()),
+                  [[getattr(p, c) for p in result.pairs] for c in list(PAIR_COLUMNS)[:7]]
+                  + [[p.time_shift_ci[0] for p in result.pairs], [p.time_shift_ci[1] for p in result.pairs],
+                     [p.modulus_shift_ci[0] for p in result.pairs], [p.modulus_shift_ci[1] for p in result.pairs]])
+        written += [out / "comparison.json", out / "pairs.csv"]
+        if args.plot:
+            from ..output.figures.overlay import save_overlay
+
+            written += save_overlay(result, out, formats=formats)
+    if args.json:
+        print(dumps_json(data), flush=True)
+    else:
+        text = result.report() + "".join(f"\n  wrote {p}" for p in written)
+        print_text(args, text)
+    return 0
+
+
+def _compare(args: argparse.Namespace, files: list[str], spectra: list[Any], stored: list[Any],
+             options: CompareOptions, progress: Any) -> Any:
+    """The comparison of the loaded samples with the manifest's metadata and labels (see ``run``)."""
+    from ..analysis.comparison.compare import compare
+
     # stored diagnoses (batch results) are used unless --diagnose asks for fresh ones
     diagnoses = stored if any(d is not None for d in stored) and not args.diagnose else None
     manifest = _read_manifest(args.manifest) if args.manifest else []
@@ -119,24 +161,5 @@ def run(args: argparse.Namespace) -> int:
         if not matches:
             raise SettingsError(f"--reference {args.reference!r} is not one of the FILEs")
         reference = matches[0]
-    result = compare(spectra, options, labels=labels, reference=reference, metadata=metadata,
-                     diagnose=args.diagnose, diagnoses=diagnoses)
-    data = result.to_dict()
-    if args.out is not None:
-        out = Path(args.out)
-        if out.exists() and not out.is_dir():
-            raise SettingsError(f"--out {args.out!r} is a file, not a folder")
-        out.mkdir(parents=True, exist_ok=True)
-        atomic_write_text(out / "comparison.json", dumps_json(data, indent=1) + "\n")
-        cols = ["a", "b", "time_shift", "modulus_shift", "shape_distance", "p_value", "same_shape"]
-        write_csv(out / "pairs.csv", cols + ["time_shift_lo", "time_shift_hi", "modulus_shift_lo", "modulus_shift_hi"],
-                  [[getattr(p, c) for p in result.pairs] for c in cols]
-                  + [[p.time_shift_ci[0] for p in result.pairs], [p.time_shift_ci[1] for p in result.pairs],
-                     [p.modulus_shift_ci[0] for p in result.pairs], [p.modulus_shift_ci[1] for p in result.pairs]])
-    if args.plot:
-        save_overlay(result, args.out or ".", prefix="" if args.out else "compare-")
-    if args.json:
-        print(dumps_json(data), flush=True)
-    else:
-        print(result.report(), flush=True)
-    return 0
+    return compare(spectra, options, labels=labels, reference=reference, metadata=metadata,
+                   diagnose=args.diagnose, diagnoses=diagnoses, progress=progress)

@@ -14,6 +14,11 @@ Every number here is invented; the models are published:
   (Baumgaertel, Schausberger & Winter 1990).
 * Critical gel: G' = S Γ(1−n) cos(nπ/2) ω^n, G'' = S Γ(1−n) sin(nπ/2) ω^n
   (Winter & Chambon 1986).
+
+Beside the archive, the lab measured one of its entangled controls at three temperatures
+(:func:`write_temperature_set`), for a master curve: G(ω; T) = b_T G(a_T ω; T_ref) with
+b_T = T/T_ref and log a_T by the WLF equation with the constants C1 = 8.86, C2 = 101.6 K at T_ref
+(Williams, Landel & Ferry 1955; Ferry 1980, ch. 11).
 """
 
 from __future__ import annotations
@@ -28,7 +33,8 @@ from ..data.write import atomic_write_text
 from ..models.chains import mode_times
 from ..spectrum.kernels import log_grid, modes_moduli, spectrum_moduli
 
-__all__ = ["DemoSample", "demo_samples", "write_demo_archive", "GAS_CONSTANT", "CORRUPTED"]
+__all__ = ["DemoSample", "demo_samples", "write_demo_archive", "temperature_samples", "write_temperature_set",
+           "GAS_CONSTANT", "CORRUPTED", "WLF_DEMO"]
 
 
 #: Molar gas constant R, J/(mol K) (CODATA 2018, exact).
@@ -36,6 +42,8 @@ GAS_CONSTANT = 8.314462618
 
 #: The archive's deliberately corrupted exports, relative to its folder.
 CORRUPTED = ("exports/batch-22-truncated.csv",)
+#: The temperature set: T_ref (°C), the WLF constants at T_ref (C1, C2 in K) and the temperatures (°C).
+WLF_DEMO = {"T_ref": 140.0, "C1": 8.86, "C2": 101.6, "temperatures": (120.0, 140.0, 160.0)}
 
 
 @dataclass(frozen=True)
@@ -86,9 +94,7 @@ def demo_samples(seed: int = 20261201) -> list[DemoSample]:
     # entangled controls: BSW spectra
     tau_fine = log_grid(1e-9, 1e4, 1400)
     for name, G_N, tau_max in (("control-entangled-A", 2.0e5, 8.0), ("control-entangled-B", 3.0e5, 30.0)):
-        n_e, n_g, tau_c = 0.23, 0.67, 1e-6
-        H = G_N * (n_e * (tau_fine / tau_max) ** n_e + n_g * (tau_fine / tau_c) ** (-n_g))
-        H[tau_fine > tau_max] = 0.0
+        H = _bsw(tau_fine, G_N, tau_max)
         gp, gpp = spectrum_moduli(omega, tau_fine, H)
         out.append(DemoSample(name, "entangled", omega, _noisy(rng, gp, 0.015), _noisy(rng, gpp, 0.015),
                               {"sample": name, "temperature": "25 C"},
@@ -102,6 +108,43 @@ def demo_samples(seed: int = 20261201) -> list[DemoSample]:
                           {"sample": "batch-17-gelled", "temperature": "25 C", "note": "stored 9 months"},
                           {"n": n, "S": S}))
     return out
+
+
+def _bsw(tau: np.ndarray, G_N: float, tau_max: float) -> np.ndarray:
+    n_e, n_g, tau_c = 0.23, 0.67, 1e-6
+    H = G_N * (n_e * (tau / tau_max) ** n_e + n_g * (tau / tau_c) ** (-n_g))
+    H[tau > tau_max] = 0.0
+    return H
+
+
+def temperature_samples(seed: int = 20261201) -> list[DemoSample]:
+    """The entangled control ``control-entangled-A`` measured at three temperatures (see the module docstring)."""
+    rng = np.random.default_rng(seed + 1)
+    omega = np.geomspace(0.01, 100.0, 33)
+    tau_fine = log_grid(1e-9, 1e5, 1400)
+    H = _bsw(tau_fine, 2.0e5, 8.0)
+    T_ref, C1, C2 = WLF_DEMO["T_ref"], WLF_DEMO["C1"], WLF_DEMO["C2"]
+    out = []
+    for T in WLF_DEMO["temperatures"]:
+        log_aT = -C1 * (T - T_ref) / (C2 + T - T_ref)
+        bT = (T + 273.15) / (T_ref + 273.15)
+        gp, gpp = spectrum_moduli(omega * 10**log_aT, tau_fine, H)
+        name = f"control-entangled-A-{T:g}C"
+        out.append(DemoSample(name, "temperature", omega, _noisy(rng, bT * gp, 0.015), _noisy(rng, bT * gpp, 0.015),
+                              {"sample": "control-entangled-A", "temperature": f"{T:g} C"},
+                              {"log_aT": log_aT, "bT": bT}))
+    return out
+
+
+def write_temperature_set(folder: str | Path, seed: int = 20261201) -> list[Path]:
+    """Write the three-temperature sweeps of :func:`temperature_samples` into ``folder``; return the files."""
+    folder = Path(folder)
+    files = []
+    for s in temperature_samples(seed):
+        path = folder / f"{s.name}.csv"
+        atomic_write_text(path, _sweep_text(s))
+        files.append(path)
+    return files
 
 
 def _sweep_text(s: DemoSample) -> str:

@@ -14,9 +14,10 @@ from ..output.tables import spectrum_tables, write_modes_csv
 from ..spectrum.invert import invert
 from ..spectrum.options import InvertOptions
 from ..spectrum.result import Spectrum
-from .bands import add_band_arguments, band_fields, band_settings
-from .common import add_output_arguments, output_dir_for, run_each_file
+from .bands import add_band_arguments, band_fields, band_settings, run_bands
+from .common import add_output_arguments, check_output_arguments, figure_formats, output_dir_for, run_each_file
 from .options import add_options, options_from_args
+from .text import bands_text, derived_text, modes_text, spectrum_text
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -28,12 +29,15 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 def add_inversion_options(p: argparse.ArgumentParser, *, modes: bool = True) -> None:
     """Register the files, output and inversion options (shared with commands that invert sweeps)."""
     p.add_argument("files", nargs="+", metavar="FILE", help="sweep files (text tables with a header row)")
-    add_output_arguments(p)
-    add_options(p, InvertOptions)
+    add_output_arguments(p, out_help="write spectrum.csv, fit.csv, modes.csv and result.json into DIR "
+                                     "(DIR/<file stem>/ for several files)")
+    g = p.add_argument_group("inversion")
+    add_options(g, InvertOptions)
     if modes:
-        p.add_argument("--no-modes", dest="modes", action="store_false",
+        g = p.add_argument_group("Maxwell modes")
+        g.add_argument("--no-modes", dest="modes", action="store_false",
                        help="skip the discrete Maxwell modes and the numbers derived from them")
-        add_options(p, ModesOptions)
+        add_options(g, ModesOptions)
 
 
 def invert_options(args: argparse.Namespace) -> InvertOptions:
@@ -41,25 +45,15 @@ def invert_options(args: argparse.Namespace) -> InvertOptions:
     return options_from_args(args, InvertOptions)
 
 
-def add_modes(sweep: Any, spectrum: Spectrum, args: argparse.Namespace, result: dict) -> Any:
-    """Fit Maxwell modes started from ``spectrum`` and add them to ``result`` (see :func:`modes_entries`)."""
+def fit_modes_for(sweep: Any, spectrum: Spectrum, args: argparse.Namespace) -> Any:
+    """Maxwell modes started from ``spectrum``, with its physical switches and the ``--modes`` count."""
     from ..modes.fit import fit_modes
 
-    modes = fit_modes(sweep, spectrum, options_from_args(args, ModesOptions, **_physics(spectrum.options)))
-    result.update(modes_entries(modes, spectrum))
-    return modes
+    return fit_modes(sweep, spectrum, ModesOptions.like(spectrum.options, **_modes_fields(args)))
 
 
-def _physics(options: InvertOptions) -> dict[str, Any]:
-    """The physical switches of an inversion, which the modes share."""
-    return {"solvent": options.solvent, "equilibrium_modulus": options.equilibrium_modulus, "eta_s": options.eta_s}
-
-
-def modes_report(spectrum: Spectrum, modes: Any) -> str:
-    """The modes table and the derived numbers from modes and spectrum side by side."""
-    from ..modes.derived import derive, side_by_side
-
-    return modes.report() + "\n" + side_by_side(derive(modes), derive(spectrum))
+def _modes_fields(args: argparse.Namespace) -> dict[str, Any]:
+    return {"n_modes": getattr(args, "n_modes", None)}
 
 
 def write_spectrum_files(spectrum: Spectrum, out: Path, result: dict) -> None:
@@ -71,37 +65,46 @@ def write_spectrum_files(spectrum: Spectrum, out: Path, result: dict) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    """Invert every file; print JSON lines or a text report."""
+    """Invert every file; print JSON lines or a short text summary, the caveats at its end."""
+    check_output_arguments(args)
     options = invert_options(args)
     options_from_args(args, ModesOptions)  # refuse a bad --modes before any work
     band_options = band_settings(args) if args.bands else None
+    formats = figure_formats(args)
 
-    def work(path: str) -> tuple[dict, str]:
+    def work(path: str) -> tuple[dict, str, list[str]]:
         sweep = read_sweep(path)
-        spectrum = invert(sweep, options)
+        spectrum = invert(sweep, options)  # (the ω range of the options applies to the modes too)
         result = spectrum.to_dict()
-        modes = add_modes(sweep, spectrum, args, result) if getattr(args, "modes", True) else None
+        text, caveats = spectrum_text(spectrum)
+        modes = None
+        if getattr(args, "modes", True):
+            from ..modes.derived import derive
+
+            modes = fit_modes_for(sweep, spectrum, args)
+            result.update(modes_entries(modes, spectrum))
+            for part in (modes_text(modes), derived_text(derive(modes), derive(spectrum))):
+                text += "\n" + part[0]
+                caveats += part[1]
         bands = None
         if band_options is not None:
-            from ..analysis.uncertainty.bands import confidence_bands
-
-            bands = confidence_bands(spectrum, band_options)
+            bands = run_bands(spectrum, band_options, args)
             result.update(band_fields(bands))
+            part = bands_text(bands)
+            text += "\n" + part[0]
+            caveats += part[1]
         out = output_dir_for(args, path)
         if out is not None:
             write_spectrum_files(spectrum, out, result)
             if modes is not None:
                 write_modes_csv(out / "modes.csv", modes)
-        if args.plot:
+            text += f"\n  wrote {out}/ (spectrum.csv, fit.csv" + (", modes.csv" if modes is not None else "") + \
+                    ", result.json" + (", figures" if args.plot else "") + ")"
+        if args.plot and out is not None:
             from ..output.figures.spectrum import save_spectrum_figures
 
-            save_spectrum_figures(spectrum, out or Path("."), prefix="" if out else f"{Path(path).stem}-",
+            save_spectrum_figures(spectrum, out, formats=formats, modes=modes,
                                   band=None if bands is None else (bands.H_lo, bands.H_hi))
-        text = spectrum.report()
-        if modes is not None:
-            text += "\n" + modes_report(spectrum, modes)
-        if bands is not None:
-            text += "\n" + bands.report()
-        return result, text
+        return result, text, caveats
 
     return run_each_file(args, work)

@@ -11,7 +11,7 @@ from ..data.units import temperature_kelvin
 from ..data.write import atomic_write_text, dumps_json
 from ..errors import SettingsError
 from ..output.tables import master_csv_text
-from .common import add_output_arguments, each_file
+from .common import add_output_arguments, check_output_arguments, each_file, figure_formats, print_text
 
 __all__ = ["add_arguments", "run"]
 
@@ -26,7 +26,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                              "'# temperature:' lines)")
     parser.add_argument("--vertical", choices=("density", "fit"), default="density",
                         help="vertical factor b_T: from the density rule T/T_ref (default) or fitted to the overlaps")
-    add_output_arguments(parser)
+    add_output_arguments(parser, out_help="write master.csv (a sweep file at T_ref) and master.json into DIR",
+                         json_help="print the master curve as one JSON object on stdout, nothing else")
 
 
 def _kelvin(text: str, what: str) -> float:
@@ -40,6 +41,8 @@ def run(args: argparse.Namespace) -> int:
     """Read the files, superpose them and write the results; return the exit status."""
     from ..analysis.superposition.master import superpose
 
+    check_output_arguments(args)
+    formats = figure_formats(args)
     sweeps = [s for f in each_file(args.files) for s in read_sweeps(f)]  # a file may hold several temperatures
     temperatures = None
     if args.temperatures is not None:
@@ -62,21 +65,16 @@ def run(args: argparse.Namespace) -> int:
     written = []
     if args.out is not None:
         out = Path(args.out)
-        if out.exists() and not out.is_dir():
-            raise SettingsError(f"--out {args.out!r} is a file, not a folder")
         atomic_write_text(out / "master.csv", master_csv_text(result))
         atomic_write_text(out / "master.json", dumps_json(data, indent=2) + "\n")
         written += [out / "master.csv", out / "master.json"]
-    if args.plot:
-        from ..output.figures.master import plot_master
+        if args.plot:
+            from ..output.figures.master import plot_master
+            from ..output.figures.style import save_figure
 
-        png = Path(args.out or ".") / "master.png"
-        png.parent.mkdir(parents=True, exist_ok=True)
-        written.append(plot_master(result, png))
+            written += save_figure(plot_master(result), out / "master", formats)
     if args.json:
         print(dumps_json(data))
     else:
-        print(result.report())
-        for p in written:
-            print(f"wrote {p}")
+        print_text(args, result.report() + "".join(f"\nwrote {p}" for p in written))
     return 0

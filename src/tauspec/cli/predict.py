@@ -1,9 +1,9 @@
 """``tauspec predict``: relaxation modulus, creep compliance or steady-shear viscosity predicted from a sweep.
 
-The sweep is represented by discrete Maxwell modes (:func:`tauspec.modes.fit_modes`),
-or by the continuous spectrum with ``--basis spectrum``; the predicted curve is
-written as CSV (and PNG with ``--plot``), each point with the share of its value
-that comes from relaxation times outside the supported window.
+The sweep is represented by discrete Maxwell modes (:func:`tauspec.modes.fit_modes`), or by the continuous
+spectrum with ``--basis spectrum``; each point of the predicted curve carries the share of its value that comes
+from relaxation times outside the supported window.  Without ``--out`` the curve is printed; with it, it is
+written as ``<quantity>.csv`` (and drawn with ``--plot``).
 """
 
 from __future__ import annotations
@@ -17,11 +17,12 @@ import numpy as np
 
 from ..errors import SettingsError, TauspecError
 from ..spectrum.options import InvertOptions
-from .common import add_output_arguments, output_dir_for, run_each_file
+from .common import add_output_arguments, check_output_arguments, figure_formats, output_dir_for, run_each_file
 from .options import add_options, options_from_args
 
 QUANTITIES = ("relaxation", "creep", "viscosity")
 _POINTS = 50
+_PHYSICS = ("solvent", "equilibrium_modulus", "omega_min", "omega_max")
 
 
 def add_arguments(parser: argparse.ArgumentParser) -> None:
@@ -31,14 +32,15 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="relaxation: G(t); creep: J(t); viscosity: steady-shear viscosity by the Cox-Merz rule")
     parser.add_argument("--times", metavar="SPEC",
                         help="times in s for relaxation/creep: 'a,b,c' or 'start:stop:n' (log-spaced); "
-                             "default 1/omega_max to 1/omega_min")
+                             "default 1/ω_max to 1/ω_min")
     parser.add_argument("--rates", metavar="SPEC",
                         help="shear rates in 1/s for viscosity: 'a,b,c' or 'start:stop:n' (log-spaced); "
                              "default the measured frequency range")
     parser.add_argument("--basis", choices=("modes", "spectrum"), default="modes",
                         help="predict from the fitted Maxwell modes (default) or the continuous spectrum")
-    add_options(parser, InvertOptions, only=("solvent", "equilibrium_modulus"))
-    add_output_arguments(parser)
+    add_options(parser, InvertOptions, only=_PHYSICS)
+    add_output_arguments(parser, out_help="write <quantity>.csv into DIR (DIR/<file stem>/ for several files); "
+                                          "without it the curve is printed")
 
 
 def parse_points(spec: str, what: str) -> np.ndarray:
@@ -62,18 +64,11 @@ def parse_points(spec: str, what: str) -> np.ndarray:
     return values
 
 
-def _output_paths(args: argparse.Namespace, path: str) -> tuple[Path, Path]:
-    """``--out DIR``: ``DIR/<quantity>.csv`` (``DIR/<file>/...`` for several); else ``<stem>-<quantity>.csv``."""
-    out = output_dir_for(args, path)
-    csv = out / f"{args.quantity}.csv" if out is not None else Path(f"{Path(path).stem}-{args.quantity}.csv")
-    return csv, csv.with_suffix(".png")
-
-
 def _basis(sweep: Any, args: argparse.Namespace) -> tuple[Any, Any]:
     from ..modes.fit import fit_modes
     from ..modes.options import ModesOptions
 
-    options = options_from_args(args, InvertOptions, only=("solvent", "equilibrium_modulus"))
+    options = options_from_args(args, InvertOptions, only=_PHYSICS)
     spectrum = None
     if args.basis == "spectrum":
         from ..spectrum.invert import invert
@@ -83,69 +78,66 @@ def _basis(sweep: Any, args: argparse.Namespace) -> tuple[Any, Any]:
     return modes, spectrum
 
 
-def _plot(curve: Any, path: Path, title: str) -> None:
-    """Draw the curve on log axes in the house style, flagged points marked, and save it as PNG."""
-    import matplotlib as mpl
-
-    from ..output.figures.spectrum import STYLE, _save, new_axes
-
-    with mpl.rc_context(STYLE):
-        fig, ax = new_axes()
-        ax.loglog(curve.x, curve.y, "-", color="#1f5f9e", label=f"{curve.y_name} from {curve.basis}")
-        flags = curve.flags
-        if flags.any():
-            ax.loglog(curve.x[flags], curve.y[flags], "o", mfc="none", color="#c2501b",
-                      label="> 5 % from outside the window")
-        ax.set_xlabel(f"{curve.x_name} [{curve.x_unit}]")
-        ax.set_ylabel(f"{curve.y_name} [{curve.y_unit}]")
-        ax.set_title(title, fontsize=8)
-        ax.legend(frameon=False)
-        path.parent.mkdir(parents=True, exist_ok=True)
-        _save(fig, path.with_suffix(""), ("png",))
-
-
-def predict_file(path: str, args: argparse.Namespace) -> dict[str, Any]:
-    """Predict one file's curve, write the CSV (and PNG); return the JSON object."""
+def predict_file(path: str, args: argparse.Namespace) -> tuple[dict[str, Any], str, list[str]]:
+    """Predict one file's curve; write the CSV (and figures) with ``--out``; return (JSON object, text, caveats)."""
     from ..data.read import read_sweep
     from ..data.write import atomic_write_text
     from ..modes.curves import creep_compliance, relaxation_modulus, shear_viscosity
-    from ..modes.derived import derive, side_by_side
+    from ..modes.derived import derive
     from ..output.results import modes_json
     from ..output.tables import curve_csv_text
+    from .text import curve_text, derived_text
 
     sweep = read_sweep(path)
     modes, spectrum = _basis(sweep, args)
     source = modes if spectrum is None else spectrum
-    w = sweep.omega
+    w = modes.omega  # the frequencies used (within --omega-min/--omega-max)
     if args.quantity == "viscosity":
         x = parse_points(args.rates, "rates") if args.rates else np.geomspace(w[0], w[-1], _POINTS)
         curve = shear_viscosity(source, x)
     else:
         x = parse_points(args.times, "times") if args.times else np.geomspace(1.0 / w[-1], 1.0 / w[0], _POINTS)
         curve = (relaxation_modulus if args.quantity == "relaxation" else creep_compliance)(source, x)
-    csv, png = _output_paths(args, path)
-    try:
-        atomic_write_text(csv, curve_csv_text(curve))
-        if args.plot:
-            _plot(curve, png, f"{sweep.name}: {curve.y_name}")
-    except OSError as exc:
-        raise TauspecError(f"cannot write the prediction ({exc.strerror or exc})", str(csv)) from None
+    out = output_dir_for(args, path)
+    csv = out / f"{args.quantity}.csv" if out is not None else None
+    figures: list[Path] = []
+    if out is not None:
+        try:
+            atomic_write_text(csv, curve_csv_text(curve))
+            if args.plot:
+                from ..output.figures.curve import curve_figure
+                from ..output.figures.style import save_figure
+
+                figures = save_figure(curve_figure(curve, title=sweep.name), out / args.quantity,
+                                      figure_formats(args))
+        except OSError as exc:
+            raise TauspecError(f"cannot write the prediction ({exc.strerror or exc})", str(csv)) from None
     derived = derive(source)
-    return {
+    head = (f"{sweep.name}: {modes.n_modes} Maxwell modes (rms residual {100 * modes.residual_rms:.1f} %)"
+            if spectrum is None else f"{sweep.name}: continuous spectrum (rms residual "
+            f"{100 * spectrum.residual_rms:.1f} %)")
+    text, caveats = curve_text(curve, table=out is None)
+    dtext, dcaveats = derived_text(derived)
+    lines = [head, text, dtext]
+    if out is not None:
+        lines.append(f"  wrote {csv}" + "".join(f", {p}" for p in figures))
+    result = {
         "sample": sweep.name,
         "source": sweep.source,
         "quantity": args.quantity,
         "curve": curve.to_dict(),
         "modes": modes_json(modes),
         "derived": derived.to_dict(),
-        "files": {"csv": str(csv), "png": str(png) if args.plot else None},
-        "_text": "\n".join([modes.report(), curve.report(), side_by_side(derived),
-                            f"wrote {csv}" + (f" and {png}" if args.plot else "")]),
+        "files": {"csv": None if csv is None else str(csv),
+                  "png": next((str(p) for p in figures if p.suffix == ".png"), None),
+                  "figures": [str(p) for p in figures]},
     }
+    return result, "\n".join(lines), caveats + dcaveats + list(modes.warnings)
 
 
 def run(args: argparse.Namespace) -> int:
     """Run ``tauspec predict``; return the exit status."""
+    check_output_arguments(args)
     if args.quantity == "viscosity" and args.times:
         raise SettingsError("--times belongs to --quantity relaxation or creep; use --rates for viscosity")
     if args.quantity != "viscosity" and args.rates:
@@ -155,8 +147,4 @@ def run(args: argparse.Namespace) -> int:
         if getattr(args, what):
             parse_points(getattr(args, what), what)
 
-    def work(path: str) -> tuple[dict[str, Any], str]:
-        result = predict_file(path, args)
-        return result, result.pop("_text")
-
-    return run_each_file(args, work)
+    return run_each_file(args, lambda path: predict_file(path, args))

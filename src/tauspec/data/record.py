@@ -8,7 +8,8 @@ keyword-only dataclass and gives it
 * ``from_dict(d)`` — the inverse, guided by the field annotations (lists back to arrays and tuples, ``null``
   back to NaN, nested objects back to records), refusing a wrong ``schema``;
 * equality by value: two records are equal when their JSON forms are (arrays by value, NaN equal to NaN);
-* a short ``repr`` (scalars shown, arrays and long texts summarised), under 300 characters.
+* a short ``repr`` (scalars shown, arrays and long texts summarised), under 300 characters, and the same as a
+  small HTML table for notebooks (``_repr_html_``).
 
 The JSON keys are a public contract (add keys, never rename or drop one), so a field may carry another JSON key
 (``field(key="lambda")`` for the attribute ``strength``), and a record whose contract form is not the plain list
@@ -278,7 +279,8 @@ def _short(v: Any) -> str:
     return repr(v)
 
 
-def _repr(self: Any) -> str:
+def _scalars(self: Any) -> list[tuple[str, str]]:
+    """(name, short value) of the fields a repr shows: scalars, short tuples and nested records' names."""
     parts = []
     for f in dataclasses.fields(self):
         if not f.repr:
@@ -286,9 +288,22 @@ def _repr(self: Any) -> str:
         v = getattr(self, f.name)
         if isinstance(v, Mapping | list | tuple | np.ndarray) and not (isinstance(v, tuple) and len(v) <= 3):
             continue  # collections are summarised by the scalars that describe them
-        parts.append(f"{f.name}={_short(v)}")
-    text = f"{type(self).__name__}({', '.join(parts)})"
+        parts.append((f.name, _short(v)))
+    return parts
+
+
+def _repr(self: Any) -> str:
+    text = f"{type(self).__name__}({', '.join(f'{k}={v}' for k, v in _scalars(self))})"
     return text if len(text) <= 290 else text[:286] + "...)"
+
+
+def _repr_html(self: Any) -> str:
+    """The repr as a small HTML table, for notebooks."""
+    import html
+
+    rows = "".join(f"<tr><th style='text-align:left'>{html.escape(k)}</th><td style='text-align:left'>"
+                   f"{html.escape(v)}</td></tr>" for k, v in _scalars(self))
+    return f"<table><caption style='text-align:left'><b>{html.escape(type(self).__name__)}</b></caption>{rows}</table>"
 
 
 def record(cls: type[T] | None = None, *, schema: str | None = None) -> Any:
@@ -308,6 +323,7 @@ def record(cls: type[T] | None = None, *, schema: str | None = None) -> Any:
         c.__eq__ = _eq  # type: ignore[assignment]
         c.__hash__ = None  # type: ignore[assignment]
         c.__repr__ = _repr  # type: ignore[assignment]
+        c._repr_html_ = _repr_html  # type: ignore[attr-defined]
         return c
 
     return wrap if cls is None else wrap(cls)

@@ -10,11 +10,11 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import SweepError
+from ..errors import SettingsError, SweepError
 from .record import field, record
 from .units import parse_quantity, temperature_kelvin
 
-__all__ = ["Sweep", "MIN_POINTS", "OMEGA_RANGE", "MODULUS_RANGE"]
+__all__ = ["Sweep", "MIN_POINTS", "OMEGA_RANGE", "MODULUS_RANGE", "check_frequency_range"]
 
 
 #: Fewest usable points a sweep must have (common practice: an inversion with
@@ -105,6 +105,36 @@ class Sweep:
         """Width of the frequency range in decades, log10(ω_max/ω_min)."""
         return float(math.log10(self.omega[-1] / self.omega[0]))
 
+    def restrict(self, omega_min: float | None = None, omega_max: float | None = None) -> tuple[Sweep, str | None]:
+        """The points with ω_min ≤ ω ≤ ω_max (rad/s; None leaves that end open) and a note of what was dropped.
+
+        Returns the sweep itself and None when nothing lies outside.  Points at the ends of a sweep are often
+        spoiled by instrument inertia (high ω) or torque resolution (low ω); dropping them is the user's call.
+
+        Raises
+        ------
+        SweepError
+            When fewer than :data:`MIN_POINTS` points remain.
+        """
+        lo = -math.inf if omega_min is None else float(omega_min)
+        hi = math.inf if omega_max is None else float(omega_max)
+        keep = (self.omega >= lo) & (self.omega <= hi)
+        if keep.all():
+            return self, None
+        n_keep = int(keep.sum())
+        if omega_min is None:
+            outside = f"above ω = {hi:g} rad/s"
+        elif omega_max is None:
+            outside = f"below ω = {lo:g} rad/s"
+        else:
+            outside = f"outside ω = {lo:g}–{hi:g} rad/s"
+        if n_keep < MIN_POINTS:
+            left = f"only {n_keep} point is" if n_keep == 1 else f"only {n_keep} points are"
+            raise SweepError(f"{left} left when those {outside} are left out; at least {MIN_POINTS} are needed",
+                             self.source or self.name)
+        note = f"{len(self) - n_keep} of {len(self)} points {outside} were left out (omega_min/omega_max)"
+        return self.replace(omega=self.omega[keep], storage=self.storage[keep], loss=self.loss[keep]), note
+
     def replace(self, **changes: Any) -> Sweep:
         """Return a copy with some fields changed (validated again)."""
         return dataclasses.replace(self, **changes)
@@ -133,3 +163,25 @@ class Sweep:
             except ValueError as exc:
                 raise SweepError(str(exc), self.source or self.name) from None
         return value
+
+
+def check_frequency_range(omega_min: Any, omega_max: Any) -> tuple[float | None, float | None]:
+    """Validate an optional frequency range (rad/s) of an options record; return it as floats.
+
+    Raises
+    ------
+    SettingsError
+        For a value that is not a positive number, or ``omega_min`` not below ``omega_max``.
+    """
+    out = []
+    for name, v in (("omega_min", omega_min), ("omega_max", omega_max)):
+        if v is None:
+            out.append(None)
+            continue
+        if isinstance(v, bool) or not isinstance(v, int | float | np.integer | np.floating) or not (
+                math.isfinite(float(v)) and float(v) > 0):
+            raise SettingsError(f"{name} must be a positive angular frequency in rad/s, not {v!r}")
+        out.append(float(v))
+    if out[0] is not None and out[1] is not None and not out[0] < out[1]:
+        raise SettingsError(f"omega_min must be below omega_max, not {out[0]:g} ≥ {out[1]:g}")
+    return out[0], out[1]

@@ -31,7 +31,7 @@ from typing import Any
 import numpy as np
 
 from ..data.record import resolve_options
-from ..errors import SettingsError, WeakResultWarning
+from ..errors import DroppedPointsWarning, SettingsError, WeakResultWarning
 from ..spectrum.kernels import loss_kernel, modes_moduli, quadrature_weights, storage_kernel
 from ..spectrum.window import outside_mask, supported_window
 from .options import ModesOptions
@@ -160,6 +160,11 @@ def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = N
     from scipy.stats import f as f_dist
 
     opts = resolve_options(ModesOptions, options, changes, "fit_modes()")
+    dropped = None
+    if opts.omega_min is not None or opts.omega_max is not None:
+        sweep, dropped = sweep.restrict(opts.omega_min, opts.omega_max)
+        if dropped:
+            warnings.warn(f"{sweep.source or sweep.name}: {dropped}", DroppedPointsWarning, stacklevel=2)
     eta_s, per_decade, significance, n_modes = opts.eta_s, opts.per_decade, opts.significance, opts.n_modes
     solvent = opts.solvent and eta_s is None  # a known η_s is held, not fitted
     equilibrium = opts.equilibrium_modulus
@@ -320,5 +325,6 @@ def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = N
         G_e=chosen.G_e, G_e_se=ge_se, window=window, outside_window=outside, residual_rms=rms,
         omega=omega, storage=storage, loss=loss, storage_fit=gp, loss_fit=gpp, candidates=tuple(candidates),
         start=start, options=opts,
-        sample=str(getattr(sweep, "name", "")), source=str(getattr(sweep, "source", "")), warnings=tuple(loud + notes),
+        sample=str(getattr(sweep, "name", "")), source=str(getattr(sweep, "source", "")),
+        warnings=tuple(([dropped] if dropped else []) + loud + notes),
     )

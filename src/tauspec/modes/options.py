@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from ..data.record import check_bool, check_number, option, record
+from ..data.sweep import check_frequency_range
 from ..spectrum.options import InvertOptions
 
 __all__ = ["ModesOptions"]
@@ -28,6 +29,8 @@ class ModesOptions:
         Fit η_s ≥ 0 (G'' gains η_s ω) and G_e ≥ 0 (G' gains G_e), as in the inversion.
     eta_s : float, optional
         A known solvent viscosity (Pa·s), held fixed instead of fitted.
+    omega_min, omega_max : float, optional
+        Fit only the points with ω_min ≤ ω ≤ ω_max (rad/s), as in the inversion.
     """
 
     n_modes: int | None = option(None, flag="--modes", metavar="N",
@@ -37,13 +40,15 @@ class ModesOptions:
     solvent: bool = option(True, cli=False, help="fit η_s")
     equilibrium_modulus: bool = option(False, cli=False, help="fit G_e")
     eta_s: float | None = option(None, cli=False, help="known solvent viscosity (Pa·s)")
+    omega_min: float | None = option(None, cli=False, help="lowest angular frequency used (rad/s)")
+    omega_max: float | None = option(None, cli=False, help="highest angular frequency used (rad/s)")
 
     @classmethod
     def like(cls, invert_options: InvertOptions, **changes: Any) -> ModesOptions:
-        """Options with the physical switches of an inversion (solvent, equilibrium modulus, known η_s)."""
+        """Options with the physical switches of an inversion (solvent, equilibrium modulus, known η_s, ω range)."""
         o = invert_options
         return cls(**{"solvent": o.solvent, "equilibrium_modulus": o.equilibrium_modulus, "eta_s": o.eta_s,
-                      **changes})
+                      "omega_min": o.omega_min, "omega_max": o.omega_max, **changes})
 
     def __post_init__(self) -> None:
         if self.n_modes is not None:
@@ -59,3 +64,6 @@ class ModesOptions:
         if self.eta_s is not None:
             check_number("eta_s", self.eta_s, lo=0, what="a nonnegative viscosity in Pa·s", say_range=False)
             object.__setattr__(self, "eta_s", float(self.eta_s))
+        lo, hi = check_frequency_range(self.omega_min, self.omega_max)
+        object.__setattr__(self, "omega_min", lo)
+        object.__setattr__(self, "omega_max", hi)

@@ -1,113 +1,44 @@
-"""The batch report: one self-contained HTML file a rheologist browses.
+"""The batch report: HTML a rheologist browses, assembled from what the batch stored.
 
-:func:`write_report` reads a batch output folder (``summary.csv`` and each
-sample's ``result.json``, one at a time) and writes ``report.html``: a summary
-table sortable by clicking a column header, a filter by verdict, one section
-per sample with its figures (embedded: PNG as base64 where the batch wrote
-them, otherwise SVG drawn here from the stored result) and its evidence list,
-and the failed files with their reasons.  No network access, no external
-script or style sheet.
+:func:`write_report` reads a batch output folder (``summary.csv`` and each sample's ``result.json``, one at a
+time) and writes ``report.html``: a summary table (sortable by a click on a column header, filtered by verdict
+and by status, failed files last), a legend of every symbol in it, the failed files with their reasons, and one
+section per sample with its statement, key numbers, figures and evidence.  The report draws nothing: the figures
+are the PNG files the batch workers drew once (``tauspec batch --plot``); results without them say so, and
+``draw=True`` (``tauspec report --plot``) draws the missing ones here instead.
+
+A large archive keeps the summary page small: past :data:`PAGE_SIZE` samples the sections go to pages
+``report-pages/page-NN.html`` beside it, which the table links to.  No network access, no external script
+or style sheet: each page stands alone.
 """
 
 from __future__ import annotations
 
-import base64
 import csv
 import html
-import io
-import math
 import os
 import re
-from collections.abc import Iterator, Mapping
+from collections.abc import Callable, Iterator, Mapping
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-
 from ..data.write import atomic_write_text
 from ..errors import TauspecError
-from .results import read_result_json, read_run_index, result_folder, spectrum_from_result
+from .report_html import CSS, FIGURE_ORDER, HEADERS, SCRIPT, legend_html, row_html, section_html, symbols_used, text
+from .results import read_result_json, read_run_index, result_folder
 from .text import BIDI_CONTROLS, show_bidi_controls, spreadsheet_value
 
-__all__ = ["write_report", "REPORT_NAME"]
+__all__ = ["write_report", "REPORT_NAME", "PAGES_FOLDER", "PAGE_SIZE"]
 
 
 REPORT_NAME = "report.html"
+PAGES_FOLDER = "report-pages"
+#: Samples per page: up to this many the report is one file (a few MB of figures); beyond, the sections go to
+#: pages of this size, so that the summary page stays small.
+PAGE_SIZE = 12
 
-_CSS = """
-body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,sans-serif;margin:0;color:#1d2327;background:#fafaf7}
-header{background:#24394d;color:#f3f1ea;padding:1.1rem 2rem}
-header h1{margin:0;font-size:1.35rem;font-weight:600;letter-spacing:.02em}
-header p{margin:.3rem 0 0;font-size:.9rem;opacity:.85}
-main{padding:1rem 2rem 3rem;max-width:1200px}
-h2{font-size:1.1rem;border-bottom:2px solid #d6d2c4;padding-bottom:.2rem;margin-top:2rem}
-table{border-collapse:collapse;font-size:.86rem;width:100%;background:#fff}
-th,td{padding:.32rem .55rem;border-bottom:1px solid #e6e3da;text-align:left;vertical-align:top}
-th{background:#efece3;cursor:pointer;user-select:none;white-space:nowrap}
-th:hover{background:#e3dfd2}
-th.asc::after{content:" \\25B2";font-size:.7em}th.desc::after{content:" \\25BC";font-size:.7em}
-td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
-tr.error td{color:#8a2d14}
-.verdict{display:inline-block;padding:.05rem .45rem;border-radius:.7rem;font-size:.8rem;background:#e7e4d9}
-.v-rouse{background:#d7ead3}.v-zimm{background:#d5e3f0}.v-entangled{background:#efe0c8}
-.v-gel{background:#ead5e6}.v-inconclusive,.v-other{background:#e4e4e4}
-.controls{margin:.6rem 0;font-size:.9rem}
-section.sample{background:#fff;border:1px solid #e6e3da;border-radius:6px;padding:.4rem 1.2rem 1rem;margin:1.2rem 0}
-section.sample h3{margin:.6rem 0 .3rem;font-size:1rem}
-.figs{display:flex;flex-wrap:wrap;gap:.8rem}.figs img,.figs svg{max-width:360px;height:auto;border:1px solid #eee}
-ul.evidence{font-size:.85rem;padding-left:1.1rem}ul.evidence li.fail{color:#8a2d14}
-.muted{color:#6b6f72;font-size:.85rem}
-.caution{font-size:.82rem;color:#5a4a2a;background:#f6efdc;padding:.5rem .8rem;border-radius:4px}
-"""
-
-# Sorting and filtering: a few lines of plain JavaScript, no library.
-_JS = """
-(function(){
-  var table=document.getElementById('summary');
-  var body=table.tBodies[0];
-  function key(td){var v=td.getAttribute('data-sort');if(v===null)v=td.textContent.trim();
-    var n=parseFloat(v);return (v!==''&&!isNaN(n)&&isFinite(v))?[0,n]:[v===''?2:1,v.toLowerCase()];}
-  function cmp(a,b){if(a[0]!==b[0])return a[0]-b[0];return a[1]<b[1]?-1:a[1]>b[1]?1:0;}
-  Array.prototype.forEach.call(table.tHead.rows[0].cells,function(th,i){
-    th.addEventListener('click',function(){
-      var asc=!th.classList.contains('asc');
-      Array.prototype.forEach.call(table.tHead.rows[0].cells,function(h){h.classList.remove('asc','desc');});
-      th.classList.add(asc?'asc':'desc');
-      var rows=Array.prototype.slice.call(body.rows);
-      rows.sort(function(r1,r2){var c=cmp(key(r1.cells[i]),key(r2.cells[i]));return asc?c:-c;});
-      rows.forEach(function(r){body.appendChild(r);});
-    });
-  });
-  var sel=document.getElementById('verdict-filter');
-  sel.addEventListener('change',function(){
-    Array.prototype.forEach.call(body.rows,function(r){
-      r.style.display=(sel.value===''||r.getAttribute('data-verdict')===sel.value)?'':'none';});
-    Array.prototype.forEach.call(document.querySelectorAll('section.sample'),function(s){
-      s.style.display=(sel.value===''||s.getAttribute('data-verdict')===sel.value)?'':'none';});
-  });
-})();
-"""
-
-_COLUMNS = [
-    ("sample", "sample", False),
-    ("status", "status", False),
-    ("verdict", "verdict", False),
-    ("tau_R", "τ_R [s]", True),
-    ("G0", "G0 [Pa]", True),
-    ("alpha", "a", True),
-    ("eta0", "η0 [Pa·s]", True),
-    ("lambda", "λ", True),
-    ("file", "file", False),
-    ("error", "error / cautions", False),
-]
-
-
-def _fmt(v: Any, digits: int = 3) -> str:
-    try:
-        f = float(v)
-    except (TypeError, ValueError):
-        return ""
-    return f"{f:.{digits}g}" if math.isfinite(f) else ""
+_NO_FIGURES = ("no figures stored for this result: run 'tauspec batch ... --plot' (drawn once, in the workers) "
+               "or 'tauspec report --plot'")
 
 
 def _read_summary(folder: Path) -> list[dict[str, str]]:
@@ -118,11 +49,6 @@ def _read_summary(folder: Path) -> list[dict[str, str]]:
     except OSError as exc:
         raise TauspecError(f"no batch summary here ({exc.strerror or exc}); run 'tauspec batch' first",
                            str(path)) from None
-
-
-def _name(text: str) -> str:
-    """A name from the archive in HTML: escaped, and isolated from the text around it (``<bdi>``)."""
-    return f"<bdi>{html.escape(text)}</bdi>"
 
 
 def _visible_bidi(doc: str) -> str:
@@ -139,139 +65,96 @@ def _load(path: Path) -> dict[str, Any]:
         return {}
 
 
-def _interval(d: Mapping[str, Any], key: str) -> str:
-    ci = d.get(f"{key}_ci")
-    if isinstance(ci, list | tuple) and len(ci) == 2 and all(_fmt(c) for c in ci):
-        return f" [{_fmt(ci[0])}, {_fmt(ci[1])}]"
-    return ""
+_WARNING_PREFIX = re.compile(r"^[A-Za-z]+Warning: ")
 
 
-def _row_html(row: Mapping[str, str], result: Mapping[str, Any], anchor: str) -> str:
-    diag = result.get("diagnosis") or {}
-    verdict = row.get("verdict", "") or ""
-    cells = []
-    for key, _, numeric in _COLUMNS:
-        value = row.get(key, "") or ""
-        if key == "sample":
-            label = _name(value or Path(row.get("file", "")).stem)
-            cells.append(f'<td><a href="#{anchor}">{label}</a></td>' if row.get("status") == "ok"
-                         else f"<td>{label}</td>")
-        elif key == "verdict":
-            cells.append(f'<td><span class="verdict v-{html.escape(verdict)}">{html.escape(verdict)}</span></td>'
-                         if verdict else "<td></td>")
-        elif key == "tau_R" and value:
-            cells.append(f'<td class="num" data-sort="{html.escape(value)}">{_fmt(value)}'
-                         f'<span class="muted">{html.escape(_interval(diag, "tau_R"))}</span></td>')
-        elif numeric:
-            cells.append(f'<td class="num" data-sort="{html.escape(value)}">{_fmt(value)}</td>')
-        elif key == "error":
-            text = value or "; ".join(str(n) for n in (result.get("notes") or [])[:2])
-            cells.append(f"<td>{html.escape(text)}</td>")
-        elif key == "file":
-            cells.append(f"<td>{_name(value)}</td>")
-        else:
-            cells.append(f"<td>{html.escape(value)}</td>")
-    cls = ' class="error"' if row.get("status") != "ok" else ""
-    return f'<tr{cls} data-verdict="{html.escape(verdict)}">' + "".join(cells) + "</tr>"
+def _clean_notes(result: dict[str, Any], file: str) -> dict[str, Any]:
+    """The result with its notes in words: without the warning's class name and the file name they start with."""
+    notes = []
+    for n in result.get("notes") or []:
+        n = _WARNING_PREFIX.sub("", str(n))
+        for prefix in (f"{file}: ", f"{Path(file).name}: "):
+            if n.startswith(prefix):
+                n = n[len(prefix):]
+        notes.append(n)
+    return {**result, "notes": notes}
 
 
-def _svg(fig: Any) -> str:
-    buf = io.StringIO()
-    fig.savefig(buf, format="svg")
-    text = buf.getvalue()
-    text = text[text.index("<svg"):]  # drop the XML prolog and doctype inside HTML
-    text = re.sub(r"<metadata>.*?</metadata>", "", text, flags=re.S)  # creator links, dates
-    return re.sub(r"<!--.*?-->", "", text, flags=re.S)
+def _stored_figures(folder: Path) -> list[tuple[str, bytes]]:
+    out = []
+    for stem, _ in FIGURE_ORDER:
+        path = folder / f"{stem}.png"
+        if path.is_file():
+            out.append((stem, path.read_bytes()))
+    return out
 
 
-def _figures_html(folder: Path, result: Mapping[str, Any]) -> str:
-    pngs = sorted(p for p in folder.glob("*.png"))
-    if pngs:
-        return "".join(
-            f'<img alt="{html.escape(p.stem)}" src="data:image/png;base64,'
-            f'{base64.b64encode(p.read_bytes()).decode("ascii")}">' for p in pngs)
-    spec = result.get("spectrum")
+def _drawn_figures(result: Mapping[str, Any]) -> list[tuple[str, bytes]]:
+    """The figures of a stored result drawn here (``draw=True``), as PNG bytes: fit, spectrum, diagnosis, L-curve."""
+    import dataclasses
+    import types
+
+    import numpy as np
+
+    from .figures.spectrum import spectrum_figures
+    from .figures.style import figure_bytes
+    from .results import diagnosis_from_result, spectrum_from_result
+
     try:
         view = spectrum_from_result(result)
     except TauspecError:
-        return '<p class="muted">no figures stored</p>'
-    import matplotlib as mpl
+        return []
+    modes = result.get("modes") or {}
+    stems = None
+    if modes.get("g") is not None:
+        stems = types.SimpleNamespace(g=np.asarray(modes["g"], dtype=float), tau=np.asarray(modes["tau"], dtype=float))
+    figs = spectrum_figures(view, modes=stems)
+    diag = diagnosis_from_result(result)
+    if diag is not None:
+        from .figures.diagnosis import plot_diagnosis
 
-    from .figures.spectrum import STYLE, fit_figure, new_axes, plot_spectrum
-
-    parts = []
-    with mpl.rc_context(STYLE):
-        parts.append(_svg(fit_figure(view, height=3.4)))
-        band = None
-        if "H_lo" in spec and "H_hi" in spec:
-            band = (np.asarray(spec["H_lo"], dtype=float), np.asarray(spec["H_hi"], dtype=float))
-        fig, ax = new_axes()
-        plot_spectrum(view, ax, band=band)
-        parts.append(_svg(fig))
-    return "".join(parts)
+        diag = dataclasses.replace(diag, omega=view.omega, storage=view.storage, loss=view.loss, spectrum=view)
+        figs["diagnosis"] = plot_diagnosis(diag)
+    return [(stem, figure_bytes(figs[stem])) for stem, _ in FIGURE_ORDER if stem in figs]
 
 
-def _evidence_html(result: Mapping[str, Any]) -> str:
-    diag = result.get("diagnosis") or {}
-    items = []
-    if diag.get("statement"):
-        items.append(f"<p>{html.escape(str(diag['statement']))}</p>")
-    ev = diag.get("evidence") or []
-    if ev:
-        lis = []
-        for e in ev:
-            if not isinstance(e, dict):
-                continue
-            ok = e.get("passed")
-            mark = "✓" if ok is True else "✗" if ok is False else "–"
-            cls = ' class="fail"' if ok is False else ""
-            value = _fmt(e.get("value")) or str(e.get("value", ""))
-            lis.append(f"<li{cls}>{mark} {html.escape(str(e.get('test', '')))}: {html.escape(value)}"
-                       f" (expected {html.escape(str(e.get('expected', '')))})</li>")
-        items.append('<ul class="evidence">' + "".join(lis) + "</ul>")
-    spec = result.get("spectrum") or {}
-    facts = []
-    if spec:
-        lo, hi = (spec.get("window") or [math.nan, math.nan])[:2]
-        facts.append(f"supported window τ ∈ [{_fmt(lo)}, {_fmt(hi)}] s")
-        facts.append(f"λ = {_fmt(spec.get('lambda'))} ({html.escape(str(spec.get('select', '')))})")
-        facts.append(f"η_s = {_fmt(spec.get('eta_s'))} Pa·s (Newtonian high-frequency contribution: solvent + "
-                     "modes faster than the window; the solvent itself: see the diagnosis)")
-        facts.append(f"fit rms {_fmt(100 * float(spec.get('residual_rms', math.nan)), 2)} %")
-    derived = result.get("derived") or {}
-    if derived.get("eta0") is not None:
-        facts.append(f"η0 = {_fmt(derived.get('eta0'))} Pa·s")
-    if facts:
-        items.append(f'<p class="muted">{"; ".join(facts)}</p>')
-    notes = result.get("notes") or []
-    if notes:
-        items.append('<ul class="evidence">' + "".join(f"<li>{html.escape(str(n))}</li>" for n in notes) + "</ul>")
-    return "".join(items)
-
-
-def _sections(folder: Path, rows: list[dict[str, str]]) -> Iterator[tuple[str, str]]:
-    """Yield (table row, section) for each summary row, reading one result at a time.
-
-    Each file's result folder is the one the run's index names, and only when it holds that file's own result.
-    """
-    index = read_run_index(folder)
+def _samples(folder: Path, rows: list[dict[str, str]], draw: bool,
+             tick: Callable[[], None]) -> Iterator[tuple[dict[str, str], dict[str, Any], str]]:
+    """Yield (row, result, section) for each summary row, reading one result at a time ("" for failed files)."""
+    # each file's result folder, as the run recorded it (a folder of failed files alone needs no index)
+    index = read_run_index(folder) if any(r.get("status") == "ok" for r in rows) else {}
     for i, row in enumerate(rows):
         rf = result_folder(folder, index, row.get("file", ""))
-        result = _load(rf) if rf is not None else {}
-        anchor = f"s{i}"
-        tr = _row_html(row, result, anchor)
+        result = _clean_notes(_load(rf), row.get("file", "")) if rf is not None else {}
         section = ""
         if row.get("status") == "ok" and rf is not None:
-            verdict = html.escape(row.get("verdict", "") or "")
-            title = _name(row.get("sample") or Path(row.get("file", "")).stem)
-            section = (f'<section class="sample" id="{anchor}" data-verdict="{verdict}"><h3>{title} '
-                       f'<span class="verdict v-{verdict}">{verdict}</span></h3>'
-                       f'<p class="muted">{_name(row.get("file", ""))}</p>'
-                       f'<div class="figs">{_figures_html(rf, result)}</div>{_evidence_html(result)}</section>')
-        yield tr, section
+            figures = _stored_figures(rf)
+            if not figures and draw:
+                figures = _drawn_figures(result)
+            section = section_html(f"s{i}", row, result, figures, _NO_FIGURES)
+        tick()
+        yield row, result, section
 
 
-def write_report(folder: str | os.PathLike[str], *, title: str | None = None) -> Path:
+def _page(title: str, body: str, *, script: bool) -> str:
+    return _visible_bidi(f'<!DOCTYPE html>\n<html lang="en">\n<head>\n<meta charset="utf-8">\n'
+            f'<meta name="viewport" content="width=device-width, initial-scale=1">\n<title>{title}</title>\n'
+            f"<style>{CSS}</style>\n</head>\n<body>\n{body}\n"
+            + (f"<script>{SCRIPT}</script>\n" if script else "") + "</body>\n</html>\n")
+
+
+def _controls(rows: list[dict[str, str]]) -> str:
+    verdicts = sorted({r.get("verdict", "") for r in rows if r.get("verdict")})
+    options = '<option value="">all verdicts</option>' + "".join(
+        f'<option value="{html.escape(v)}">{html.escape(v)}</option>' for v in verdicts)
+    return ('<div class="controls"><label>Verdict <select id="verdict-filter">' + options + "</select></label>"
+            '<label>Status <select id="status-filter"><option value="">all files</option>'
+            '<option value="ok">processed</option><option value="failed">failed</option></select></label>'
+            '<span class="muted">Click a column header to sort; failed files stay last.</span></div>')
+
+
+def write_report(folder: str | os.PathLike[str], *, title: str | None = None, out: str | os.PathLike[str] | None = None,
+                 draw: bool = False, progress: bool = False, page_size: int = PAGE_SIZE) -> Path:
     """Write ``report.html`` for a batch output folder and return its path.
 
     Parameters
@@ -280,6 +163,15 @@ def write_report(folder: str | os.PathLike[str], *, title: str | None = None) ->
         The ``--out`` folder of ``tauspec batch`` (holding ``summary.csv``).
     title : str, optional
         Heading of the page; default names the folder.
+    out : path-like, optional
+        Folder to write the report into (default: ``folder``).
+    draw : bool
+        Draw the figures of results that have none stored (slow: a second or so per sample); otherwise such a
+        result says how to get them.
+    progress : bool
+        Show a progress bar (tqdm) on stderr.
+    page_size : int
+        Samples per page before the sections move to pages of their own.
 
     Raises
     ------
@@ -287,52 +179,77 @@ def write_report(folder: str | os.PathLike[str], *, title: str | None = None) ->
         When the folder holds no batch summary.
     """
     folder = Path(folder)
-    rows = _read_summary(folder)
-    verdicts = sorted({r.get("verdict", "") for r in rows if r.get("verdict")})
+    target = Path(out) if out is not None else folder
+    rows = sorted(_read_summary(folder), key=lambda r: r.get("status") != "ok")  # failed files last
+    bar = None
+    if progress and len(rows) > 1:
+        import sys
+
+        from tqdm import tqdm
+
+        bar = tqdm(total=len(rows), unit="sample", desc="report", file=sys.stderr, leave=False)
     n_ok = sum(r.get("status") == "ok" for r in rows)
+    paged = n_ok > page_size
+    page_of: dict[str, int] = {}
+    trs, sections, symbols = [], [], set()
+    try:
+        for i, (row, result, section) in enumerate(_samples(folder, rows, draw, bar.update if bar else lambda: None)):
+            anchor = f"s{i}"
+            if section:
+                page_of[anchor] = len(sections) // page_size + 1 if paged else 0
+                sections.append((anchor, row, section))
+                symbols |= symbols_used(result.get("diagnosis") or {})
+            href = (f"{PAGES_FOLDER}/page-{page_of[anchor]:02d}.html#{anchor}" if paged and section else
+                    f"#{anchor}" if section else "")
+            trs.append(row_html(row, result, href))
+    finally:
+        if bar is not None:
+            bar.close()
     failed = [r for r in rows if r.get("status") != "ok"]
-    trs, sections = [], []
-    for tr, sec in _sections(folder, rows):
-        trs.append(tr)
-        if sec:
-            sections.append(sec)
-    head = "".join(f"<th>{html.escape(label)}</th>" for _, label, _ in _COLUMNS)
-    options = '<option value="">all verdicts</option>' + "".join(
-        f'<option value="{html.escape(v)}">{html.escape(v)}</option>' for v in verdicts)
+    page_title = html.escape(title or f"tauspec report — {folder.resolve().name}")
+    head = "".join(f'<th title="{html.escape(tip)}">{html.escape(label)}</th>' for label, tip in HEADERS)
     fail_html = ""
     if failed:
         fail_html = "<h2>Files that failed</h2><ul>" + "".join(
-            f"<li><code>{_name(r.get('file', ''))}</code>: {html.escape(r.get('error', ''))}</li>"
-            for r in failed) + "</ul>"
-    page_title = html.escape(title or f"tauspec report — {folder.resolve().name}")
-    doc = f"""<!DOCTYPE html>
-<html lang="en">
-<head>
-<meta charset="utf-8">
-<meta name="viewport" content="width=device-width, initial-scale=1">
-<title>{page_title}</title>
-<style>{_CSS}</style>
-</head>
-<body>
-<header><h1>{page_title}</h1>
-<p>{len(rows)} files: {n_ok} processed, {len(failed)} failed.</p></header>
-<main>
-<h2>Summary</h2>
-<div class="controls"><label for="verdict-filter">Show </label><select id="verdict-filter">{options}</select>
-<span class="muted"> Click a column header to sort.</span></div>
-<table id="summary"><thead><tr>{head}</tr></thead><tbody>
-{"".join(trs)}
-</tbody></table>
-<p class="caution">These are model-based inferences from a finite frequency window. Check them against
-independent measurements before they drive product or safety decisions.</p>
-{fail_html}
-<h2>Samples</h2>
-{"".join(sections)}
-</main>
-<script>{_JS}</script>
-</body>
-</html>
-"""
-    out = folder / REPORT_NAME
-    atomic_write_text(out, _visible_bidi(doc))
-    return out
+            f"<li><code>{text(r.get('file', ''))}</code>: {text(r.get('error', ''))}</li>" for r in failed) + "</ul>"
+    n_pages = (len(sections) + page_size - 1) // page_size if paged else 0
+    if paged:
+        samples_html = ("<h2>Samples</h2><p>The " + str(len(sections)) + " samples are on " + str(n_pages)
+                        + " pages of their own, so that this page stays small:</p><nav class=\"pages\">" + "".join(
+                            f'<a href="{PAGES_FOLDER}/page-{k:02d}.html">page {k}</a>' for k in range(1, n_pages + 1))
+                        + "</nav>")
+    else:
+        samples_html = "<h2>Samples</h2>" + "".join(sec for _, _, sec in sections)
+    body = (f"<header><h1>{page_title}</h1><p>{len(rows)} files: {n_ok} processed, {len(failed)} failed.</p></header>"
+            f"<main><h2>Summary</h2>{_controls(rows)}"
+            f'<div class="table-wrap"><table id="summary"><thead><tr>{head}</tr></thead><tbody>{"".join(trs)}'
+            f"</tbody></table></div>{legend_html(symbols)}"
+            '<p class="caution">These are model-based inferences from a finite frequency window. Check them against '
+            "independent measurements before they drive product or safety decisions.</p>"
+            f"{fail_html}{samples_html}</main>")
+    target.mkdir(parents=True, exist_ok=True)
+    _write_pages(target, page_title, sections, page_size, n_pages)  # (none when not paged: old ones go)
+    path = target / REPORT_NAME
+    atomic_write_text(path, _page(page_title, body, script=True))
+    return path
+
+
+def _write_pages(target: Path, title: str, sections: list[tuple[str, dict[str, str], str]], page_size: int,
+                 n_pages: int) -> None:
+    """Write the sample pages (and remove pages of an earlier, longer report)."""
+    pages = target / PAGES_FOLDER
+    for k in range(1, n_pages + 1):
+        chunk = sections[(k - 1) * page_size: k * page_size]
+        nav = ('<nav class="pages"><a href="../' + REPORT_NAME + '">← summary</a>'
+               + (f'<a href="page-{k - 1:02d}.html">← page {k - 1}</a>' if k > 1 else "")
+               + (f'<a href="page-{k + 1:02d}.html">page {k + 1} →</a>' if k < n_pages else "") + "</nav>")
+        body = (f"<header><h1>{title}</h1><p>Samples, page {k} of {n_pages}</p></header><main>{nav}"
+                + "".join(sec for _, _, sec in chunk) + f"{nav}</main>")
+        atomic_write_text(pages / f"page-{k:02d}.html", _page(f"{title} — page {k}", body, script=False))
+    if pages.is_dir():
+        for old in pages.glob("page-*.html"):
+            m = re.fullmatch(r"page-(\d+)\.html", old.name)
+            if m and int(m.group(1)) > n_pages:
+                old.unlink()
+        if n_pages == 0 and not any(pages.iterdir()):
+            pages.rmdir()

@@ -12,13 +12,14 @@ from typing import Any
 
 from ..data.write import atomic_write_text, csv_text
 
-__all__ = ["spectrum_tables", "modes_csv_text", "write_modes_csv", "curve_csv_text", "master_csv_text"]
+__all__ = ["spectrum_tables", "modes_csv_text", "write_modes_csv", "curve_csv_text", "master_csv_text", "MODES_COLUMNS",
+           "CURVE_COLUMNS"]
 
 
 def spectrum_tables(spectrum: Any) -> dict[str, str]:
     """The CSV tables of one spectrum: ``{"spectrum.csv": text, "fit.csv": text}``."""
     return {
-        "spectrum.csv": csv_text(["tau [s]", "H [Pa]", "in_window"],
+        "spectrum.csv": csv_text(["tau [s]", "H [Pa]", "in window"],
                                  [spectrum.tau, spectrum.H, [int(v) for v in spectrum.in_window]]),
         "fit.csv": csv_text(
             ["omega [rad/s]", "G' [Pa]", "G'' [Pa]", "G' fit [Pa]", "G'' fit [Pa]"],
@@ -27,21 +28,19 @@ def spectrum_tables(spectrum: Any) -> dict[str, str]:
     }
 
 
-def modes_csv_text(modes: Any) -> str:
-    """Return the modes as CSV text: ``# key: value`` lines for η_s, G_e and the window, then one row per mode.
+#: The columns of ``modes.csv``.
+MODES_COLUMNS = ("mode", "g [Pa]", "tau [s]", "g standard error [Pa]", "tau standard error [s]", "outside window")
 
-    Columns: ``mode, g [Pa], tau [s], g_se [Pa], tau_se [s], outside_window``.
+
+def modes_csv_text(modes: Any) -> str:
+    """Return the modes as a plain CSV table, one row per mode (η_s, G_e and the window are in the JSON beside it).
+
+    Columns: :data:`MODES_COLUMNS`; a standard error that could not be computed is left empty.
     """
     def num(v: float) -> str:
         return repr(float(v)) if math.isfinite(v) else ""
 
-    lines = [
-        f"# sample: {modes.sample}",
-        f"# eta_s: {num(modes.eta_s)} Pa s",
-        f"# G_e: {num(modes.G_e)} Pa",
-        f"# window: {num(modes.window[0])} s to {num(modes.window[1])} s",
-        "mode,g [Pa],tau [s],g_se [Pa],tau_se [s],outside_window",
-    ]
+    lines = [",".join(MODES_COLUMNS)]
     for i in range(modes.n_modes):
         lines.append(",".join([str(i + 1), num(modes.g[i]), num(modes.tau[i]), num(modes.g_se[i]),
                                num(modes.tau_se[i]), "yes" if modes.outside_window[i] else "no"]))
@@ -53,10 +52,20 @@ def write_modes_csv(path: str | os.PathLike[str], modes: Any) -> None:
     atomic_write_text(path, modes_csv_text(modes))
 
 
+#: The CSV columns of each predicted quantity (``Curve.quantity``): (abscissa, ordinate), units in brackets.
+CURVE_COLUMNS = {
+    "relaxation": ("t [s]", "G(t) [Pa]"),
+    "creep": ("t [s]", "J(t) [1/Pa]"),
+    "complex_viscosity": ("omega [rad/s]", "|eta*| [Pa s]"),
+    "viscosity": ("shear rate [1/s]", "viscosity Cox-Merz [Pa s]"),
+}
+
+
 def curve_csv_text(curve: Any) -> str:
-    """A predicted curve (:class:`~tauspec.modes.derived.Curve`) as CSV: abscissa, value, out-of-window share, flag."""
-    return csv_text([f"{curve.x_name} [{curve.x_unit}]", f"{curve.y_name} [{curve.y_unit}]", "outside_share",
-                     "outside_window"],
+    """A predicted curve (:class:`~tauspec.modes.curves.Curve`) as CSV: abscissa, value, out-of-window share, flag."""
+    x_col, y_col = CURVE_COLUMNS.get(curve.quantity, (f"{curve.x_name} [{curve.x_unit}]",
+                                                      f"{curve.y_name} [{curve.y_unit}]"))
+    return csv_text([x_col, y_col, "outside share", "outside window"],
                     [curve.x, curve.y, curve.outside_share, ["yes" if f else "no" for f in curve.flags]])
 
 

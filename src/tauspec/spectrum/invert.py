@@ -27,7 +27,7 @@ import numpy as np
 
 from ..data.record import resolve_options
 from ..data.sweep import Sweep
-from ..errors import SettingsError, WeakResultWarning
+from ..errors import DroppedPointsWarning, SettingsError, WeakResultWarning
 from .options import InvertOptions
 from .problem import Problem, build_problem, strength_path
 from .regularize import PathSolution, TikhonovPath, objective, solve_cvxpy
@@ -102,6 +102,9 @@ def invert(sweep: Sweep, options: InvertOptions | None = None, **changes: Any) -
     34:561; Davies & Anderssen (1997), J. Non-Newtonian Fluid Mech. 73:163.
     """
     opts = resolve_options(InvertOptions, options, changes, "invert()")
+    sweep, dropped = sweep.restrict(opts.omega_min, opts.omega_max)
+    if dropped:
+        warnings.warn(f"{sweep.source or sweep.name}: {dropped}", DroppedPointsWarning, stacklevel=2)
     if opts.grid is None or isinstance(opts.grid, int):
         tau = default_grid(sweep.omega, opts.grid)
     else:
@@ -143,7 +146,8 @@ def invert(sweep: Sweep, options: InvertOptions | None = None, **changes: Any) -
     return Spectrum(
         sample=sweep.name, source=sweep.source, tau=tau, H=H, strength=strength, chosen_by=chosen_by, window=window,
         eta_s=eta_fit, G_e=G_e, residual_rms=rms, omega=sweep.omega, storage=sweep.storage, loss=sweep.loss,
-        storage_fit=storage_fit, loss_fit=loss_fit, lcurve=lcurve, warnings=tuple(notes), options=resolved,
+        storage_fit=storage_fit, loss_fit=loss_fit, lcurve=lcurve,
+        warnings=tuple(([dropped] if dropped else []) + notes), options=resolved,
         objective=objective(problem.A, problem.b, problem.L, x, strength), meta=dict(sweep.meta),
     )
 

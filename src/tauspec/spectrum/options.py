@@ -8,6 +8,7 @@ from collections.abc import Mapping
 import numpy as np
 
 from ..data.record import check_bool, check_choice, check_number, option, record
+from ..data.sweep import check_frequency_range
 from ..errors import SettingsError
 from .rules import RULES
 
@@ -45,6 +46,9 @@ class InvertOptions:
     solver : {"auto", "fast", "cvxpy"}
     n_strengths : int
         Strengths on the initial path (at least 8).
+    omega_min, omega_max : float, optional
+        Use only the points with ω_min ≤ ω ≤ ω_max (rad/s), e.g. to leave out points spoiled by instrument
+        inertia; the others are dropped with a note.
     """
 
     strength: str | float = option("auto", metavar="auto|VALUE",
@@ -61,6 +65,11 @@ class InvertOptions:
     bounds: Mapping[str, tuple[float, float]] | None = option(None, cli=False, help="bounds on H, eta_s, G_e (SI)")
     solver: str = option("auto", cli=False, choices=SOLVERS, help="solver of the regularized problem")
     n_strengths: int = option(50, cli=False, help="strengths on the initial path")
+    omega_min: float | None = option(None, metavar="RAD_S",
+                                     help="leave out the points below this angular frequency (rad/s)")
+    omega_max: float | None = option(None, metavar="RAD_S",
+                                     help="leave out the points above this angular frequency (rad/s), e.g. "
+                                          "those spoiled by instrument inertia")
 
     def __post_init__(self) -> None:
         if not (isinstance(self.strength, str) and self.strength == "auto"):
@@ -86,6 +95,9 @@ class InvertOptions:
             object.__setattr__(self, "eta_s", float(self.eta_s))
         check_choice("solver", self.solver, SOLVERS)
         check_number("n_strengths", self.n_strengths, lo=8, integer=True, what="a whole number")
+        lo, hi = check_frequency_range(self.omega_min, self.omega_max)
+        object.__setattr__(self, "omega_min", lo)
+        object.__setattr__(self, "omega_max", hi)
         if self.bounds is not None:
             self._check_bounds()
 

@@ -122,7 +122,7 @@ class Spectrum:
                     "n_strengths": o.n_strengths, "select": o.select, "strength": o.strength, "solvent": o.solvent,
                     "equilibrium_modulus": o.equilibrium_modulus, "eta_s_known": o.eta_s,
                     "bounds": {k: list(v) for k, v in (o.bounds or {}).items()}, "solver": o.solver,
-                    "objective": self.objective}
+                    "objective": self.objective, "omega_min": o.omega_min, "omega_max": o.omega_max}
         d = {k: (settings if k == "settings" else v) for k, v in d.items() if k != "objective"}
         return insert_after(d, "H", "in_window", self.in_window.tolist())
 
@@ -132,7 +132,8 @@ class Spectrum:
         if "plateau" in s and "equilibrium_modulus" not in s:  # results written before the rename (schema 1)
             s["equilibrium_modulus"] = s["plateau"]
         d["objective"] = s.get("objective")
-        names = ("grid", "n_strengths", "select", "strength", "solvent", "equilibrium_modulus", "solver")
+        names = ("grid", "n_strengths", "select", "strength", "solvent", "equilibrium_modulus", "solver", "omega_min",
+                 "omega_max")
         options = {k: s[k] for k in names if k in s}
         options["eta_s"] = s.get("eta_s_known")
         options["bounds"] = s.get("bounds") or None

@@ -32,7 +32,7 @@ from __future__ import annotations
 import dataclasses
 import itertools
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
 import numpy as np
@@ -146,6 +146,7 @@ def compare(
     diagnoses: Sequence[Any] | None = None,
     bands: Sequence[tuple[np.ndarray, np.ndarray] | None] | None = None,
     invert_options: InvertOptions | None = None,
+    progress: Callable[[int], Any] | None = None,
     **changes: Any,
 ) -> Comparison:
     """Compare relaxation spectra: shifts, shape distances and their test, ranking and series scaling.
@@ -172,6 +173,8 @@ def compare(
         ``H_hi`` and ``level`` — used for the weights (None for a sample without one).
     invert_options : InvertOptions, optional
         How sweeps are inverted.
+    progress : callable, optional
+        Called with 1 after each sample's replicates are done (a progress bar's ``update``).
     **changes
         Fields of ``CompareOptions`` given directly (``compare([a, b], replicates=4)``).
 
@@ -200,8 +203,11 @@ def compare(
         raise SettingsError("diagnoses must have one entry per sample")
 
     band_list = list(bands) if bands is not None else [None] * n
-    unc = [sample_uncertainty(s, replicates=opts.replicates, seed=opts.seed, band=b, reselect=opts.reselect)
-           for s, b in zip(spectra, band_list)]
+    unc = []
+    for s, b in zip(spectra, band_list):
+        unc.append(sample_uncertainty(s, replicates=opts.replicates, seed=opts.seed, band=b, reselect=opts.reselect))
+        if progress is not None:
+            progress(1)
     nulls = [_null_distances(u, opts.min_overlap) for u in unc]
     index_pairs = [(ref, j) for j in range(n) if j != ref] if ref is not None else \
         list(itertools.combinations(range(n), 2))

@@ -28,7 +28,7 @@ import numpy as np
 from ...data.record import field, record, resolve_options
 from ...data.sweep import Sweep
 from ...data.units import density_kg_m3, molar_mass_g_mol
-from ...errors import SettingsError, SweepError, TauspecError, WeakResultWarning
+from ...errors import DroppedPointsWarning, SettingsError, SweepError, TauspecError, WeakResultWarning
 from ...models import signatures as sg
 from ...models.beadspring import ROUSE_MODELS, ZIMM_MODELS, BeadSpringFit, fit_all
 from ...models.bounds import checked_interval
@@ -233,6 +233,10 @@ def diagnose(sweep: Sweep, options: DiagnoseOptions | None = None, *, spectrum: 
     opts = resolve_options(DiagnoseOptions, options, changes, "diagnose()")
     use_spectrum, solvent, intervals = opts.use_spectrum, opts.solvent, opts.intervals
     notes: list[str] = []
+    sweep, dropped = sweep.restrict(opts.omega_min, opts.omega_max)
+    if dropped:
+        notes.append(dropped)
+        warnings.warn(f"{sweep.source or sweep.name}: {dropped}", DroppedPointsWarning, stacklevel=2)
     spectrum, spectrum_note = _recover_spectrum(sweep, spectrum, use_spectrum)
     w, gp, gpp = sweep.omega, sweep.storage, sweep.loss
     tau_starts: list[float] = []

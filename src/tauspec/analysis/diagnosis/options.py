@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ...data.record import check_bool, option, record
+from ...data.sweep import check_frequency_range
 
 __all__ = ["DiagnoseOptions"]
 
@@ -19,6 +20,8 @@ class DiagnoseOptions:
         Fit a Newtonian contribution η_s ω to G'' in the chain fits.
     intervals : bool
         Compute the 95 % profile-likelihood intervals (the costly part); otherwise Jacobian intervals.
+    omega_min, omega_max : float, optional
+        Use only the points with ω_min ≤ ω ≤ ω_max (rad/s); the others are dropped with a note.
     """
 
     use_spectrum: bool = option(True, negate="--no-spectrum",
@@ -27,6 +30,15 @@ class DiagnoseOptions:
     intervals: bool = option(True, negate="--no-intervals",
                              help="profile-likelihood intervals (--no-intervals: Jacobian intervals, faster)")
 
+    omega_min: float | None = option(None, metavar="RAD_S",
+                                     help="leave out the points below this angular frequency (rad/s)")
+    omega_max: float | None = option(None, metavar="RAD_S",
+                                     help="leave out the points above this angular frequency (rad/s), e.g. "
+                                          "those spoiled by instrument inertia")
+
     def __post_init__(self) -> None:
         for name in ("use_spectrum", "solvent", "intervals"):
             check_bool(name, getattr(self, name))
+        lo, hi = check_frequency_range(self.omega_min, self.omega_max)
+        object.__setattr__(self, "omega_min", lo)
+        object.__setattr__(self, "omega_max", hi)

@@ -205,11 +205,12 @@ class MasterCurve:
                          f"{self.bT[i]:8.4f}")
         if self.wlf is not None:
             w = self.wlf
-            lines.append(f"  WLF: C1 = {w.C1:.4g} [{w.C1_ci[0]:.4g}, {w.C1_ci[1]:.4g}], C2 = {w.C2:.4g} K "
-                         f"[{w.C2_ci[0]:.4g}, {w.C2_ci[1]:.4g}] at {_celsius(w.T_ref)}"
+            lines.append(f"  WLF at {_celsius(w.T_ref)}: C1 = {w.C1:.4g}, 95% interval [{w.C1_ci[0]:.4g}, "
+                         f"{w.C1_ci[1]:.4g}]; C2 = {w.C2:.4g} K, 95% interval [{w.C2_ci[0]:.4g}, {w.C2_ci[1]:.4g}] K"
                          + (" (C2 at the edge of its range)" if w.at_bound else ""))
         a = self.arrhenius
-        lines.append(f"  Arrhenius: E_a = {a.Ea / 1e3:.4g} kJ/mol [{a.Ea_ci[0] / 1e3:.4g}, {a.Ea_ci[1] / 1e3:.4g}]")
+        lines.append(f"  Arrhenius: E_a = {a.Ea / 1e3:.4g} kJ/mol, 95% interval [{a.Ea_ci[0] / 1e3:.4g}, "
+                     f"{a.Ea_ci[1] / 1e3:.4g}] kJ/mol")
         lines.append(f"  {self.comparison}")
         lines.append(f"  {self.check.statement}")
         lines.extend(f"  note: {n}" for n in self.notes)

@@ -54,7 +54,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from typing import Any
 
 import numpy as np
@@ -210,7 +210,8 @@ _BAND_WORDS = {
 }
 
 
-def confidence_bands(spectrum: Spectrum, options: BandOptions | None = None, **changes: Any) -> Bands:
+def confidence_bands(spectrum: Spectrum, options: BandOptions | None = None, *,
+                     progress: Callable[[int], Any] | None = None, **changes: Any) -> Bands:
     """Pointwise confidence band of H(τ) and intervals of η_s, G_e and other statistics.
 
     Each of ``resamples`` sweeps is made from the fitted moduli of
@@ -230,6 +231,8 @@ def confidence_bands(spectrum: Spectrum, options: BandOptions | None = None, **c
         Resamples, method, known noise, strength mode, interval kind, level, seed, jobs and the statistics
         (names from :data:`~tauspec.analysis.uncertainty.statistics.STATISTICS`, or callables
         ``fn(sweep, spectrum) -> float | mapping``); see :class:`~tauspec.analysis.uncertainty.options.BandOptions`.
+    progress : callable, optional
+        Called with the number of resamples done since the last call (a progress bar's ``update``).
     **changes
         Fields of ``BandOptions`` given directly (``confidence_bands(spectrum, resamples=100)``).
 
@@ -250,15 +253,18 @@ def confidence_bands(spectrum: Spectrum, options: BandOptions | None = None, **c
     seeds = np.random.SeedSequence(int(seed)).spawn(int(resamples))
 
     if jobs == 1:
-        rows = _run_resamples(design, seeds)
+        rows = _run_resamples(design, seeds, progress)
     else:
         from joblib import Parallel, delayed
 
         n_chunks = min(len(seeds), 4 * int(jobs))
         bounds = np.linspace(0, len(seeds), n_chunks + 1).astype(int)
-        parts = Parallel(n_jobs=int(jobs))(
-            delayed(_run_resamples)(design, seeds[a:b]) for a, b in zip(bounds[:-1], bounds[1:]) if b > a)
-        rows = [r for part in parts for r in part]
+        rows = []
+        for part in Parallel(n_jobs=int(jobs), return_as="generator")(
+                delayed(_run_resamples)(design, seeds[a:b]) for a, b in zip(bounds[:-1], bounds[1:]) if b > a):
+            rows += part
+            if progress is not None:
+                progress(len(part))
 
     ok = [r for r in rows if r[4] is None]
     n_failed = len(rows) - len(ok)

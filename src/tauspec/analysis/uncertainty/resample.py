@@ -5,7 +5,7 @@ from __future__ import annotations
 import dataclasses
 import math
 import warnings
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
 import numpy as np
@@ -82,11 +82,12 @@ def _resampled(design: _Design, rng: np.random.Generator) -> Sweep:
     return sp.as_sweep(sp.storage_fit * fp, sp.loss_fit * fpp)
 
 
-def _run_resamples(design: _Design, seeds: Sequence[np.random.SeedSequence]) -> list[tuple[Any, ...]]:
+def _run_resamples(design: _Design, seeds: Sequence[np.random.SeedSequence],
+                   progress: Callable[[int], Any] | None = None) -> list[tuple[Any, ...]]:
     """Make and invert one resample per seed; return (H, statistics, λ, cautioned, failure) for each.
 
     BLAS is limited to one thread so that the floating-point result of every
-    resample does not depend on the process it runs in.
+    resample does not depend on the process it runs in.  ``progress(1)`` is called after each resample.
     """
     from threadpoolctl import threadpool_limits
 
@@ -102,9 +103,12 @@ def _run_resamples(design: _Design, seeds: Sequence[np.random.SeedSequence]) -> 
                     stats = _evaluate(design.stats, sweep, sp)
                 except TauspecError as exc:
                     out.append((None, {}, math.nan, False, exc.reason))
-                    continue
-            cautioned = any(issubclass(w.category, WeakResultWarning) for w in caught)
-            out.append((sp.H, stats, sp.strength, cautioned, None))
+                    sp = None
+            if sp is not None:
+                cautioned = any(issubclass(w.category, WeakResultWarning) for w in caught)
+                out.append((sp.H, stats, sp.strength, cautioned, None))
+            if progress is not None:
+                progress(1)
     return out
 
 

@@ -1,4 +1,4 @@
-"""The comparison figure: every spectrum in its own supported window, as measured and shifted onto the reference."""
+"""Figures of a comparison: every spectrum in its own supported window, as measured and shifted; series scaling."""
 
 from __future__ import annotations
 
@@ -9,10 +9,22 @@ from typing import Any
 import numpy as np
 
 from ...analysis.comparison.compare import Comparison
-from .spectrum import COLUMN_WIDTH, STYLE, _save, new_axes
-from .text import plain_text
+from ...data.units import parse_quantity
+from .style import (
+    DOUBLE_COLUMN,
+    NEUTRAL,
+    finish_axes,
+    legend,
+    log_axes,
+    new_axes,
+    new_grid,
+    plain,
+    save_figure,
+    set_title,
+    styled,
+)
 
-__all__ = ["plot_overlay", "overlay_figure", "save_overlay"]
+__all__ = ["plot_overlay", "overlay_figure", "plot_series", "series_figure", "comparison_figures", "save_overlay"]
 
 
 def _shift_to_first(comparison: Comparison) -> list[tuple[float, float]]:
@@ -38,36 +50,107 @@ def plot_overlay(comparison: Comparison, ax: Any = None, *, shifted: bool = Fals
     if ax is None:
         _, ax = new_axes()
     shifts = _shift_to_first(comparison)
-    for k, (s, sp) in enumerate(zip(comparison.samples, comparison.spectra)):
-        m = sp.in_window & (np.asarray(sp.H) > 0)
-        a, b = shifts[k] if shifted else (1.0, 1.0)
-        if not (math.isfinite(a) and math.isfinite(b)):
-            continue
-        ax.loglog(np.asarray(sp.tau)[m] / a, np.asarray(sp.H)[m] / b, "-", color=f"C{k % 10}",
-                  label=plain_text(s["label"]))
-    ref = comparison.reference or comparison.samples[0]["label"]
-    ax.set_xlabel("τ / a [s]" if shifted else "relaxation time τ [s]")
-    ax.set_ylabel("H(τ) / b [Pa]" if shifted else "H(τ) [Pa]")
-    ax.set_title(f"shifted onto {plain_text(ref)}" if shifted else "as measured (each in its window)", fontsize=8)
-    ax.legend(frameon=False)
+    xs, ys = [], []
+    with styled():
+        for k, (s, sp) in enumerate(zip(comparison.samples, comparison.spectra)):
+            m = sp.in_window & (np.asarray(sp.H) > 0)
+            a, b = shifts[k] if shifted else (1.0, 1.0)
+            if not (math.isfinite(a) and math.isfinite(b)) or not m.any():
+                continue
+            x, y = np.asarray(sp.tau)[m] / a, np.asarray(sp.H)[m] / b
+            keep = y >= 1e-4 * y.max()
+            ax.plot(np.where(keep, x, np.nan), np.where(keep, y, np.nan), "-", color=f"C{k % 8}",
+                    label=plain(s["label"]))
+            xs.append(x[keep])
+            ys.append(y[keep])
+        log_axes(ax, xs, ys)
+        ref = comparison.reference or comparison.samples[0]["label"]
+        ax.set_xlabel("shifted relaxation time τ/a [s]" if shifted else "relaxation time τ [s]")
+        ax.set_ylabel("shifted spectrum H(τ)/b [Pa]" if shifted else "H(τ) [Pa]")
+        set_title(ax, f"shifted onto {ref}" if shifted else "as measured, each in its supported window")
+        legend(ax, loc="lower left", names=True)
+        finish_axes(ax)
     return ax
 
 
 def overlay_figure(comparison: Comparison) -> Any:
-    """Return a figure with the raw overlay (left) beside the shifted one (right)."""
-    import matplotlib as mpl
-    from matplotlib.figure import Figure
-
-    with mpl.rc_context(STYLE):
-        fig = Figure(figsize=(2 * COLUMN_WIDTH, 2.6), layout="constrained")
-        ax1, ax2 = fig.subplots(1, 2)
-        plot_overlay(comparison, ax1)
-        plot_overlay(comparison, ax2, shifted=True)
+    """A double-column figure: the raw overlay (left) beside the shifted one (right)."""
+    fig, grid = new_grid(1, 2, width=DOUBLE_COLUMN, height=2.7)
+    ax1, ax2 = grid[0]
+    plot_overlay(comparison, ax1)
+    plot_overlay(comparison, ax2, shifted=True)
     return fig
 
 
+def _m_unit(comparison: Comparison) -> str:
+    """The unit of the molecular weight as the sweep files give it (``kg/mol``), or ``as given``."""
+    for sp in comparison.spectra:
+        text = (sp.meta or {}).get("molecular_weight")
+        if text:
+            try:
+                return parse_quantity(text)[1].strip() or "as given"
+            except ValueError:
+                continue
+    return "as given"
+
+
+def plot_series(comparison: Comparison, ax: Any = None) -> Any | None:
+    """The characteristic time of each sample against its molecular weight M, with the fitted power law.
+
+    The time is τ_R of the Rouse diagnosis when the series fit used it, else the weight-average time τ_w of
+    each spectrum (``Comparison.series["time"].measure`` says which).  Returns None (nothing drawn) when the
+    comparison has no series fit of the time against M.
+    """
+    fit = comparison.series.get("time")
+    if fit is None or "M" not in fit.exponents:
+        return None
+    use_rouse = fit.measure.startswith("tau_R")
+    pts = [(s["M"], s["tau_R"] if use_rouse else s["tau_w"], s["label"]) for s in comparison.samples]
+    pts = [(m, t, lab) for m, t, lab in pts if m is not None and t is not None and m > 0 and t > 0
+           and math.isfinite(t)]
+    if len(pts) < 2:
+        return None
+    if ax is None:
+        _, ax = new_axes()
+    M = np.array([p[0] for p in pts], dtype=float)
+    t = np.array([p[1] for p in pts], dtype=float)
+    x = fit.exponents["M"]
+    lo, hi = fit.intervals["M"]
+    with styled():
+        ax.plot(M, t, "o", color="C0", label=r"$\tau_R$ of each sample" if use_rouse else r"$\tau_w$ of each sample")
+        grid = np.geomspace(M.min() / 1.3, M.max() * 1.3, 50)
+        line = fit.prefactor * grid**x
+        ci = f", 95 % [{lo:.2f}, {hi:.2f}]" if math.isfinite(lo) and math.isfinite(hi) else ""
+        ax.plot(grid, line, "-", color=NEUTRAL, lw=1, label=f"fit: τ ∝ $M^{{{x:.2f}}}${ci}")
+        log_axes(ax, [grid], [t, line])
+        ax.set_xlabel(f"molecular weight M [{_m_unit(comparison)}]")
+        ax.set_ylabel(r"Rouse time $\tau_R$ [s]" if use_rouse else r"weight-average time $\tau_w$ [s]")
+        set_title(ax, "series scaling of the relaxation time")
+        legend(ax, loc="upper left")
+        finish_axes(ax)
+    return ax
+
+
+def series_figure(comparison: Comparison) -> Any | None:
+    """A single-column figure of :func:`plot_series`, or None when the comparison has no series fit."""
+    fig, ax = new_axes()
+    return fig if plot_series(comparison, ax) is not None else None
+
+
+def comparison_figures(comparison: Comparison) -> dict[str, Any]:
+    """The figures of a comparison by file stem: ``overlay`` and, for a series, ``series``."""
+    figs = {"overlay": overlay_figure(comparison)}
+    series = series_figure(comparison)
+    if series is not None:
+        figs["series"] = series
+    return figs
+
+
 def save_overlay(comparison: Comparison, folder: Any, prefix: str = "", formats: tuple[str, ...] = ("png",)) -> list:
-    """Write the overlay figure ``<prefix>overlay.<fmt>`` into ``folder``; return the paths."""
+    """Write the comparison's figures (``<prefix>overlay``, ``<prefix>series``) into ``folder``; return the paths."""
     folder = Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
-    return _save(overlay_figure(comparison), folder / f"{prefix}overlay", formats)
+    paths: list[Path] = []
+    for stem, fig in comparison_figures(comparison).items():
+        paths += save_figure(fig, folder / f"{prefix}{stem}", formats)
+    return paths
+
