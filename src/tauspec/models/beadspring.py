@@ -37,6 +37,7 @@ import numpy as np
 
 from ..data.record import field, record
 from ..spectrum.lsq import levenberg_marquardt, projected_jacobian
+from ..spectrum.threads import limited
 from .chains import A_BOUNDS, N_MAX, NU_GOOD, Frame, chain_columns, get_law, mode_times, tabulated_chains
 
 __all__ = ["MODELS", "BeadSpringFit", "fit_chain", "fit_all"]
@@ -393,6 +394,7 @@ def _tau_estimates(omega, storage, loss, tau_starts: Sequence[float]) -> list[fl
             if t > 0 and math.isfinite(t)]
 
 
+@limited
 def fit_chain(
     omega: np.ndarray,
     storage: np.ndarray,
@@ -432,6 +434,7 @@ def _make_fit(prob: _Problem, model: str, theta: np.ndarray, **extra: Any) -> Be
                          storage_fit=fp, loss_fit=fpp, **extra)
 
 
+@limited
 def fit_all(omega, storage, loss, *, tau_starts: Sequence[float] = (), solvent: bool = True,
             models: Sequence[str] = tuple(MODELS)) -> dict[str, BeadSpringFit]:
     """Fit every model in ``models`` (default: all of :data:`MODELS`); return name -> fit.

@@ -21,6 +21,7 @@ import numpy as np
 from scipy import stats
 
 from ..spectrum.lsq import levenberg_marquardt
+from ..spectrum.threads import limited
 from .beadspring import MODELS, BeadSpringFit, _Problem
 from .chains import N_MAX
 
@@ -66,6 +67,7 @@ def _wald(prob: _Problem, fit: BeadSpringFit) -> tuple[dict[str, float], dict[st
     return dict(zip(names, se)), {k: i for i, k in enumerate(names)}, cov
 
 
+@limited
 def jacobian_intervals(fit: BeadSpringFit, omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, *,
                        solvent: bool = True, level: float = 0.95) -> BeadSpringFit:
     """Return ``fit`` with Wald intervals from the analytic Jacobian (ln τ_1, ln G0 symmetric; a linear).
@@ -178,6 +180,7 @@ def _profile_side(chi2_p, x_hat: float, chi2_min: float, thr: float, first: floa
     raise RuntimeError("the profile crossing was not found")
 
 
+@limited
 def add_intervals(
     fit: BeadSpringFit,
     omega: np.ndarray,

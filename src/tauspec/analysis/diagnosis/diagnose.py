@@ -29,6 +29,7 @@ from ...errors import SettingsError, TauspecError, WeakResultWarning
 from ...models import signatures as sg
 from ...models.beadspring import BeadSpringFit, fit_all
 from ...models.intervals import add_intervals, jacobian_intervals
+from ...spectrum.threads import limited
 from .evidence import A_ZIMM, Evidence, _fmt_value, _g, _gather
 from .options import DiagnoseOptions
 from .verdict import _STATEMENTS, decide
@@ -119,6 +120,7 @@ class Diagnosis:
         return "\n".join(lines)
 
 
+@limited
 def diagnose(sweep: Sweep, options: DiagnoseOptions | None = None, *, spectrum: Any = None,
              **changes: Any) -> Diagnosis:
     """Decide whether the unentangled bead-spring (Rouse) description holds for one sweep.
