@@ -24,8 +24,9 @@ __all__ = ["CROSSOVER", "blas_limit", "one_thread", "limited"]
 
 #: Unknowns (τ grid points plus η_s, G_e) from which the caller's BLAS threading is left alone: below it the
 #: linear algebra runs at one thread.  Measured with benchmarks/bench_threads.py on the 2-core development
-#: machine (docs/benchmarks.md): one thread was faster at every grid the inversion accepts (up to 2000 points),
-#: so the crossover lies beyond the largest problem and every call runs at one thread.
+#: machine (docs/benchmarks.md): one thread was faster at every grid measured (40 to 1000 points, on a busy
+#: machine), so the crossover is put beyond the largest grid the inversion accepts (2000) and every call runs
+#: at one thread; re-measure on an idle machine with more cores before lowering it.
 CROSSOVER = 2500
 
 _state = threading.local()
