@@ -77,100 +77,119 @@ def levenberg_marquardt(
     upper = np.asarray(upper, dtype=float)
     x = np.minimum(np.maximum(np.asarray(x0, dtype=float), lower), upper)
     r, J = fun(x)
-    nfev = 1
+    nfev, nit = 1, 0
     cost = 0.5 * float(r @ r)
     diag = np.zeros(x.size)
-    mu = -1.0
-    nu = 2.0
-    nit = 0
+    mu, nu = -1.0, 2.0
     converged = False
     while nfev < max_nfev:
         nit += 1
         g = r @ J
-        at_lo, at_hi = x <= lower, x >= upper
-        if at_lo.any() or at_hi.any():
-            free = ~((at_lo & (g > 0)) | (at_hi & (g < 0)))
-            if not free.any():
-                converged = True
-                break
-            Jf, gf = J[:, free], g[free]
-        else:
-            free = None
-            Jf, gf = J, g
-        norms = np.sqrt((Jf * Jf).sum(axis=0))
-        if free is None:
-            np.maximum(diag, norms, out=diag)
-            d = diag.copy()
-        else:
-            diag[free] = np.maximum(diag[free], norms)
-            d = diag[free]
-        d[d <= 0] = 1.0
-        gs = gf / d
-        if float(np.abs(gs).max()) <= gtol * max(math.sqrt(2.0 * cost), 1e-300):
+        system = _scaled_system(J, g, x, lower, upper, diag)
+        if system is None or float(np.abs(system[2]).max()) <= gtol * max(math.sqrt(2.0 * cost), 1e-300):
             converged = True
             break
-        Jd = Jf / d
-        A = Jd.T @ Jd
+        free, d, gs, A = system
         if mu < 0:
-            mu = 1e-3 * float(A.diagonal().max()) if A.size else 1.0
-        eye = np.eye(A.shape[0])
+            mu = 1e-3 * float(A.diagonal().max())
         accepted = False
         xnorm = math.sqrt(float(x @ x))
         while nfev < max_nfev:
-            R, info = _potrf(A + mu * eye, lower=0, clean=0, overwrite_a=1)
-            if info != 0:  # not positive definite in floating point: more damping
-                if not np.all(np.isfinite(A)) or mu > 1e300:
-                    break
-                mu = max(mu * nu, 1e-300)
-                nu *= 2.0
-                continue
-            sf = -_potrs(R, gs, lower=0)[0] / d
-            if free is None:
-                step = sf
-            else:
-                step = np.zeros(x.size)
-                step[free] = sf
+            step, mu, nu = _damped_step(A, gs, d, free, x.size, mu, nu)
+            if step is None:
+                break
             x_new = np.minimum(np.maximum(x + step, lower), upper)
             step = x_new - x
             if math.sqrt(float(step @ step)) <= xtol * (xtol + xnorm):
                 converged = True
                 break
-            Js = J @ step
-            slope = float(g @ step)
-            predicted = -(slope + 0.5 * float(Js @ Js))
-            r_new, J_new = fun(x_new)
-            nfev += 1
-            cost_new = 0.5 * float(r_new @ r_new)
-            # the cost along the step is a parabola through c(0), c'(0) = gᵀδ and c(1): when its minimum lies
-            # well inside the step (the Gauss–Newton step overshoots, as on large-residual problems), try it
-            curv = cost_new - cost - slope
-            if curv > 0 and slope < 0:
-                alpha = -slope / (2.0 * curv)
-                if 0.1 <= alpha <= 0.8 and nfev < max_nfev:
-                    x_ls = np.minimum(np.maximum(x + alpha * step, lower), upper)
-                    r_ls, J_ls = fun(x_ls)
-                    nfev += 1
-                    cost_ls = 0.5 * float(r_ls @ r_ls)
-                    if cost_ls < cost_new:
-                        x_new, r_new, J_new, cost_new = x_ls, r_ls, J_ls, cost_ls
-                        step = x_ls - x
-                        Js = J @ step
-                        predicted = -(float(g @ step) + 0.5 * float(Js @ Js))
+            x_new, r_new, J_new, cost_new, predicted, used = _trial(fun, x, step, g, J, cost, lower, upper,
+                                                                    max_nfev - nfev)
+            nfev += used
             if cost_new < cost and predicted > 0:
                 rho = (cost - cost_new) / predicted
                 mu *= max(1.0 / 3.0, 1.0 - (2.0 * rho - 1.0) ** 3)
                 nu = 2.0
-                small = (cost - cost_new) <= ftol * cost and rho > 0.25
+                converged = (cost - cost_new) <= ftol * cost and rho > 0.25
                 x, r, J, cost = x_new, r_new, J_new, cost_new
                 accepted = True
-                if small:
-                    converged = True
                 break
             mu *= nu
             nu *= 2.0
         if converged or not accepted:
             break
     return LMResult(x=x, r=r, jac=J, cost=cost, nit=nit, nfev=nfev, converged=converged)
+
+
+def _scaled_system(J: np.ndarray, g: np.ndarray, x: np.ndarray, lower: np.ndarray, upper: np.ndarray,
+                   diag: np.ndarray) -> tuple[np.ndarray | None, np.ndarray, np.ndarray, np.ndarray] | None:
+    """The scaled Gauss–Newton system on the variables not held at a bound, or None when every one is held.
+
+    Returns (free, or None for all; D; D⁻¹g; D⁻¹JᵀJD⁻¹).  ``diag``, the largest column norms so far, is updated.
+    """
+    at_lo, at_hi = x <= lower, x >= upper
+    if at_lo.any() or at_hi.any():  # a variable at a bound whose gradient points outward is held
+        free = ~((at_lo & (g > 0)) | (at_hi & (g < 0)))
+        if not free.any():
+            return None
+        Jf, gf = J[:, free], g[free]
+        diag[free] = np.maximum(diag[free], np.sqrt((Jf * Jf).sum(axis=0)))
+        d = diag[free]
+    else:
+        free, Jf, gf = None, J, g
+        np.maximum(diag, np.sqrt((J * J).sum(axis=0)), out=diag)
+        d = diag.copy()
+    d[d <= 0] = 1.0
+    Jd = Jf / d
+    return free, d, gf / d, Jd.T @ Jd
+
+
+def _damped_step(A: np.ndarray, gs: np.ndarray, d: np.ndarray, free: np.ndarray | None, n: int, mu: float,
+                 nu: float) -> tuple[np.ndarray | None, float, float]:
+    """The step −D⁻¹(A + μI)⁻¹D⁻¹g in all n variables (0 for held ones), with μ raised until A + μI factors."""
+    eye = np.eye(A.shape[0])
+    while True:
+        R, info = _potrf(A + mu * eye, lower=0, clean=0, overwrite_a=1)
+        if info == 0:
+            break
+        if not np.all(np.isfinite(A)) or mu > 1e300:  # not positive definite in floating point: more damping
+            return None, mu, nu
+        mu, nu = max(mu * nu, 1e-300), nu * 2.0
+    sf = -_potrs(R, gs, lower=0)[0] / d
+    if free is None:
+        return sf, mu, nu
+    step = np.zeros(n)
+    step[free] = sf
+    return step, mu, nu
+
+
+def _trial(fun: Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]], x: np.ndarray, step: np.ndarray,
+           g: np.ndarray, J: np.ndarray, cost: float, lower: np.ndarray, upper: np.ndarray,
+           budget: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, float, float, int]:
+    """Evaluate x + δ: (x, r, J, ½‖r‖², the decrease the linear model predicts, evaluations used).
+
+    The cost along the step is a parabola through c(0), c'(0) = gᵀδ and c(1): when its minimum lies well
+    inside the step (the Gauss–Newton step overshoots, as on large-residual problems) that point is tried too.
+    """
+    Js = J @ step
+    slope = float(g @ step)
+    predicted = -(slope + 0.5 * float(Js @ Js))
+    x_new = x + step
+    r_new, J_new = fun(x_new)
+    cost_new = 0.5 * float(r_new @ r_new)
+    curv = cost_new - cost - slope
+    if curv > 0 and slope < 0 and budget > 1:
+        alpha = -slope / (2.0 * curv)
+        if 0.1 <= alpha <= 0.8:
+            x_ls = np.minimum(np.maximum(x + alpha * step, lower), upper)
+            r_ls, J_ls = fun(x_ls)
+            cost_ls = 0.5 * float(r_ls @ r_ls)
+            if cost_ls < cost_new:
+                s_ls = x_ls - x
+                Js = J @ s_ls
+                return x_ls, r_ls, J_ls, cost_ls, -(float(g @ s_ls) + 0.5 * float(Js @ Js)), 2
+            return x_new, r_new, J_new, cost_new, predicted, 2
+    return x_new, r_new, J_new, cost_new, predicted, 1
 
 
 def _gram_factor(Bf: np.ndarray) -> np.ndarray | None:

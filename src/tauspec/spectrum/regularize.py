@@ -294,9 +294,9 @@ def _bpp(
 
 
 def _well_conditioned(R: np.ndarray) -> bool:
-    """The reciprocal condition number of RᵀR, estimated from the diagonal of R, is above _RCOND_MIN."""
-    d = np.abs(R.diagonal())
-    return not d.size or (float(d.min()) / float(d.max())) ** 2 >= _RCOND_MIN
+    """The reciprocal condition number of RᵀR, estimated from the (positive) diagonal of R, is above _RCOND_MIN."""
+    d = R.diagonal()
+    return not d.size or (d.min() / d.max()) ** 2 >= _RCOND_MIN
 
 
 def _cholesky(M: np.ndarray, order: np.ndarray) -> np.ndarray | None:
