@@ -31,7 +31,7 @@ BENCHMARKS = {
     "modes": "bench_modes",
     "pipeline": "bench_pipeline",
 }
-OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty"}
+OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty", "threads": "bench_threads"}
 
 
 def machine() -> dict:

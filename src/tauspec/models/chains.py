@@ -106,7 +106,7 @@ def get_law(form: str) -> ModeTimeLaw:
         raise ValueError(f"unknown form {form!r} (use one of {tuple(LAWS)})") from None
 
 
-@functools.lru_cache(maxsize=2048)
+@functools.lru_cache(maxsize=1024)
 def mode_positions(n: int) -> tuple[np.ndarray, np.ndarray]:
     """Mode indices p (possibly fractional) and multiplicities for summing over p = 1 … n.
 
@@ -130,7 +130,7 @@ def mode_positions(n: int) -> tuple[np.ndarray, np.ndarray]:
     return p, m
 
 
-@functools.lru_cache(maxsize=4096)
+@functools.lru_cache(maxsize=1024)
 def _log_base(law: ModeTimeLaw, n: int) -> np.ndarray:
     lnb = np.log(law.ratio(n, mode_positions(n)[0]))
     lnb.setflags(write=False)
@@ -163,7 +163,7 @@ class Frame:
         self.q1 = np.concatenate([zeros, self.omega])
 
 
-@functools.lru_cache(maxsize=4096)
+@functools.lru_cache(maxsize=512)
 def _ratio_power(law: ModeTimeLaw, n: int, a: float) -> np.ndarray:
     """ρ_p^a of the n-mode chain at its mode positions (cached: the fixed-exponent models reuse it)."""
     out = law.ratio(n, mode_positions(n)[0]) ** a
@@ -171,7 +171,7 @@ def _ratio_power(law: ModeTimeLaw, n: int, a: float) -> np.ndarray:
     return out
 
 
-@functools.lru_cache(maxsize=4096)
+@functools.lru_cache(maxsize=512)
 def _pair_layout(law: ModeTimeLaw, n: int) -> tuple[np.ndarray, np.ndarray]:
     """The logarithms ln ρ (a = 1) of the modes of the chains n and n + 1, and their weights (a column each).
 
@@ -286,7 +286,7 @@ _TABLE_STEP = 0.05
 _TABLE_LO = -8.0
 
 
-@functools.lru_cache(maxsize=64)
+@functools.lru_cache(maxsize=16)
 def _grid_table(law: ModeTimeLaw, a: float, ns: tuple[int, ...]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """S'(u), S''(u) of the unit chains of ``ns`` modes on a common grid of u = ln(ωτ_1) (rows: chains).
 
