@@ -308,9 +308,9 @@ def test_inputs_layout_manifest_and_name_clashes(tmp_path):
 def test_demo_runs_the_batch_and_resumes(tmp_path, capsys):
     """The demo runs the whole pipeline (read, invert, diagnosis) on its invented archive.
 
-    Slow by design (about 25–40 s on the 2-core development machine): the demo's whole pipeline — read, invert,
-    modes, diagnosis with its profile intervals — on its nine sweeps with two workers, then the resume; the
-    end-to-end check of the command that no smaller test replaces.
+    Slow by design (about 25–40 s alone on the 2-core development machine, more beside other tests): the
+    demo's whole pipeline — read, invert, modes, diagnosis with its profile intervals — on its nine sweeps with
+    two workers, then the resume; the end-to-end check of the command that no smaller test replaces.
     """
     from tauspec.cli.demo_archive import demo_samples
 
