@@ -30,6 +30,8 @@ BENCHMARKS = {
     "scaling": "bench_scaling",
     "modes": "bench_modes",
     "pipeline": "bench_pipeline",
+    "reader": "bench_reader",
+    "dialect": "bench_dialect",
 }
 OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty", "threads": "bench_threads"}
 

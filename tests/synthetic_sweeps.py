@@ -109,3 +109,51 @@ def lognormal_sweep(seed: int):
     w = np.geomspace(10 ** rng.uniform(-2.5, -1.5) / tm, 10 ** rng.uniform(2, 3) / tm, 40)
     gp, gpp = spectrum_moduli(w, tau, H)
     return _noisy(w, gp, gpp, rng.uniform(0.01, 0.02), rng, f"lognormal-{seed}"), {"sigma": sigma}
+
+
+# --------------------------------------------------------------------------- issue 16: forms, melts, nonsense
+def chain_form_sweep(seed: int, a: float, form: str, N: int, reach: bool, *, noise: float = 0.01,
+                     tau1: float = 1.0, G0: float = 1e3, share: float = 0.1):
+    """A chain in one form (``"sine"``: discrete chain, ``"power"``: continuum law τ_p = τ_1 p^(−a)), equal mode
+    strengths G0 (Rouse 1953; Zimm 1956), from ωτ_1 = 0.01 to ω_max τ_N = 30 (``reach``: the window reaches the
+    shortest modes) or 0.03 (it does not), 8 points per decade, solvent ``share`` of G'' at ω_max."""
+    from tauspec.models.chains import mode_times
+
+    tN = mode_times(tau1, N, a, form)[-1]
+    wmax = (30.0 if reach else 0.03) / tN
+    wmin = 1e-2 / tau1
+    w = np.geomspace(wmin, wmax, int(8 * math.log10(wmax / wmin)))
+    gp, gpp = chain_moduli(w, G0, tau1, N, a=a, form=form)
+    eta = _solvent(gpp[-1], wmax, share) if share else 0.0
+    rng = np.random.default_rng(seed)
+    return _noisy(w, gp, gpp + eta * w, noise, rng, f"{form}-{a:g}-{N}-{'reach' if reach else 'short'}"), \
+        {"tau1": tau1, "G0": G0, "N": N}
+
+
+def bsw_melt_sweep(seed: int, *, G_N: float = 1e6, tau_max: float = 1.0, tc_ratio: float = 1e7, wmin: float = 1e-2,
+                   wmax: float = 1e3, per_decade: int = 8, noise: float | None = None):
+    """BSW melt H = G_N [n_e (τ/τ_max)^n_e + n_g (τ/τ_c)^(−n_g)], τ ≤ τ_max, n_e = 0.23, n_g = 0.67
+    (Baumgaertel, Schausberger & Winter 1990; form from memory), τ_c = τ_max/``tc_ratio``; moduli by the trapezoid
+    rule on 3000 points in ln τ from min(τ_c/1000, 10⁻⁹/ω_max) (the transition part converges slowly at short τ:
+    its G'' share below τ_l is ≈ (ωτ_l)^(1−n_g)).  Noise 1–3 % by seed unless given."""
+    tc = tau_max / tc_ratio
+    tau = log_grid(min(tc / 1e3, 1e-9 / wmax), tau_max, 3000)
+    H = G_N * (0.23 * (tau / tau_max) ** 0.23 + 0.67 * (tau / tc) ** (-0.67))
+    w = np.geomspace(wmin, wmax, int(per_decade * math.log10(wmax / wmin)))
+    gp, gpp = spectrum_moduli(w, tau, H)
+    rng = np.random.default_rng(seed)
+    return _noisy(w, gp, gpp, 0.01 + 0.01 * (seed % 3) if noise is None else noise, rng, f"bsw-melt-{seed}"), \
+        {"G_N": G_N, "tau_max": tau_max}
+
+
+#: A branched LDPE melt at 150 °C as 8 Maxwell modes (Laun 1978, Rheol. Acta 17:1, "melt I"; values from memory,
+#: not re-read: used only as a realistic broad, branched-melt spectrum, no published number of it is asserted).
+LDPE_G = (1.29e5, 9.48e4, 5.86e4, 2.67e4, 9.80e3, 1.89e3, 1.80e2, 1.00e0)
+LDPE_TAU = (1e-4, 1e-3, 1e-2, 1e-1, 1.0, 10.0, 100.0, 1000.0)
+
+
+def ldpe_sweep(seed: int, wmin: float = 1e-2, wmax: float = 1e2, noise: float = 0.01):
+    """The LDPE modes above over [wmin, wmax], 8 points per decade."""
+    w = np.geomspace(wmin, wmax, int(8 * math.log10(wmax / wmin)))
+    gp, gpp = modes_moduli(w, LDPE_G, LDPE_TAU)
+    return _noisy(w, gp, gpp, noise, np.random.default_rng(seed), f"ldpe-{seed}"), {}

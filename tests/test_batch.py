@@ -164,11 +164,11 @@ def test_broken_file_is_an_error_row_and_exit_1(tmp_path, capsys):
     assert json.loads((out / "run.json").read_text())["counts"]["skipped"] == 6
 
 
-def dying_step(text, settings, *, source=None, input_sha256=None):
+def dying_step(text, settings, **kwargs):
     """The pipeline step, except that a sweep marked 'kill-me' kills its worker process (as the OOM killer would)."""
     if "kill-me" in text:
         os.kill(os.getpid(), signal.SIGKILL)
-    return process(text, settings, source=source, input_sha256=input_sha256)
+    return process(text, settings, **kwargs)
 
 
 def test_a_dead_worker_costs_only_its_file(tmp_path):

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import json
 
+import pytest
+
 from synthetic_sweeps import gel_sweep, rouse_sweep
 from tauspec.cli.main import main
 
@@ -53,3 +55,38 @@ def test_diagnose_bad_file_is_one_line_and_exit_1(tmp_path, capsys):
     assert len(err) == 1 and err[0].startswith("tauspec: error:") and "bad.csv" in err[0]
     assert main(["diagnose", str(tmp_path / "missing.csv")]) == 1
     assert "no such file" in capsys.readouterr().err
+
+
+def _write_meta(path, sweep, meta):
+    rows = "\n".join(f"{w:.17g},{a:.17g},{b:.17g}" for w, a, b in zip(sweep.omega, sweep.storage, sweep.loss))
+    head = "".join(f"# {k}: {v}\n" for k, v in meta.items())
+    path.write_text(f"# sample: {sweep.name}\n{head}omega [rad/s],G' [Pa],G'' [Pa]\n{rows}\n")
+    return path
+
+
+def test_diagnose_text_shows_the_entangled_melt_numbers(tmp_path, capsys):
+    # A BSW melt (Baumgaertel, Schausberger & Winter 1990) with density, temperature and M in the metadata: the
+    # text shows G_N0, tau_d, M_e = rho R T/G_N0 (Ferry 1980 ch. 13) and Z, and the JSON carries the new keys.
+    from synthetic_sweeps import bsw_melt_sweep
+
+    sw, truth = bsw_melt_sweep(1, tc_ratio=1e7, wmax=10**3.5)
+    a = _write_meta(tmp_path / "melt.csv", sw, {"density": "0.78 g/cm3", "temperature": "150 C",
+                                                "molecular_weight": "100 kg/mol"})
+    assert main(["diagnose", str(a), "--no-spectrum"]) == 0
+    text = capsys.readouterr().out
+    assert "ENTANGLED" in text
+    for word in ("G_N0", "tau_d", "M_e", "Z = M/M_e", "bsw_fit"):
+        assert word in text, word
+    assert main(["diagnose", str(a), "--no-spectrum", "--json"]) == 0
+    obj = json.loads(capsys.readouterr().out)
+    assert abs(obj["GN0"] / truth["G_N"] - 1) < 0.15
+    assert obj["Me"] > 0 and obj["Z"] == pytest.approx(1e5 / obj["Me"])
+
+
+def test_diagnose_bad_density_is_one_line(tmp_path, capsys):
+    from synthetic_sweeps import bsw_melt_sweep
+
+    a = _write_meta(tmp_path / "melt.csv", bsw_melt_sweep(2, tc_ratio=1e7, wmax=10**3.5)[0], {"density": "42 furlongs"})
+    assert main(["diagnose", str(a), "--no-spectrum"]) == 1
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "melt.csv" in err[0] and "density" in err[0]

@@ -137,7 +137,8 @@ def test_reference_mode_ranking_and_determinism():
 def test_overlay_figure_draws_each_spectrum_in_its_window():
     A, B = shifted_pair(2)
     c = compare([A, B], replicates=0)
-    assert c.pairs[0].same_shape is None  # no replicates: no test
+    # no replicates: no spectral test (p is NaN), but the shifted moduli are still tested against their noise
+    assert math.isnan(c.pairs[0].p_value) and c.pairs[0].same_shape is True
     from tauspec.output.figures.overlay import overlay_figure, plot_overlay
 
     fig = overlay_figure(c)
@@ -392,3 +393,64 @@ def test_cli_bad_inputs_give_one_line(tmp_path, capsys, args, message):
     assert main(["compare", str(fa)] + [sub[a] for a in args] + ["--replicates", "0"]) == 1
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and message in err[0]
+
+
+# ------------------------------------------------------------------------------------------------ issue 16
+W40 = np.geomspace(1e-2, 1e2, 40)
+
+
+def test_rouse_solution_against_a_broad_entangled_melt_is_not_the_same_shape():
+    # Issue 16: a Rouse solution (τ_R = 0.1 s; Rouse 1953) against a BSW melt with its terminal mode at 10 s
+    # (Baumgaertel, Schausberger & Winter 1990) was called "same shape" with a = 0.096.  Not "same" any more:
+    # either "different" or "cannot tell" with the overlap in the notes.
+    gp, gpp = rouse_moduli(W40, 1e3, 0.1, 30)
+    tg = log_grid(1e-9, 10.0, 3000)
+    bp, bpp = spectrum_moduli(W40, tg, bsw_H(tg, G_N=1e5, tau_max=10.0, tau_c=1e-4))
+    for seed in (1, 2):
+        c = compare([noisy_sweep(W40, gp, gpp, 0.01, seed, name="rouse"),
+                     noisy_sweep(W40, bp, bpp, 0.01, seed + 100, name="melt")])
+        p = c.pairs[0]
+        assert p.same_shape is not True
+        if p.same_shape is None:
+            assert any(n.startswith("cannot tell: overlap") for n in p.notes)
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_a_sample_against_itself_shifted_by_seven_stays_the_same_shape(seed):
+    # H_B(τ) = b H_A(τ/a) → G*_B(ω) = b G*_A(aω) (Ferry 1980 ch. 11), a = 7, b = 0.4, same frequencies.
+    gp, gpp = rouse_moduli(W40, 1e3, 1.0, 30)
+    gp2, gpp2 = rouse_moduli(W40 * 7.0, 1e3, 1.0, 30)
+    c = compare([noisy_sweep(W40, gp, gpp, 0.01, seed, name="A"),
+                 noisy_sweep(W40, 0.4 * gp2, 0.4 * gpp2, 0.01, seed + 100, name="B")])
+    p = c.pairs[0]
+    assert p.same_shape is True, p.notes
+    assert p.time_shift == pytest.approx(7.0, rel=0.05)
+    assert p.modulus_shift == pytest.approx(0.4, rel=0.05)
+    assert p.moduli["overlap"]["decades"] >= 1.5
+
+
+@pytest.mark.parametrize("seed", [1, 2])
+def test_two_rouse_samples_of_different_molecular_weight_are_the_same_shape_with_rouse_shifts(seed):
+    # Rouse scaling at fixed concentration (Ferry 1980 ch. 9): N ∝ M, τ_R ∝ M², G0 = cRT/M ∝ 1/M; M ratio 2 gives
+    # a = 4, b = 1/2 (the fastest modes, where N matters, lie far beyond the window).
+    gp, gpp = rouse_moduli(W40, 1e3, 0.5, 100)
+    gp2, gpp2 = rouse_moduli(W40, 5e2, 2.0, 200)
+    c = compare([noisy_sweep(W40, gp, gpp, 0.01, seed, name="M"), noisy_sweep(W40, gp2, gpp2, 0.01, seed + 100,
+                                                                              name="2M")])
+    p = c.pairs[0]
+    assert p.same_shape is True, p.notes
+    assert p.time_shift == pytest.approx(4.0, rel=0.05)
+    assert p.modulus_shift == pytest.approx(0.5, rel=0.05)
+
+
+def test_too_little_overlap_is_cannot_tell():
+    # The same log-normal spectrum measured over two windows that share only a decade after the shift: the overlap
+    # rule (1.5 decades of G' and G'') gives same_shape = None with the reason in the notes.
+    gp, gpp = lognormal_moduli(np.geomspace(1e-2, 1e1, 24), 1e4, 1.0, 1.2)
+    gp2, gpp2 = lognormal_moduli(np.geomspace(1e0, 1e3, 24), 1e4, 1.0, 1.2)
+    c = compare([noisy_sweep(np.geomspace(1e-2, 1e1, 24), gp, gpp, 0.01, 1, name="low"),
+                 noisy_sweep(np.geomspace(1e0, 1e3, 24), gp2, gpp2, 0.01, 2, name="high")], replicates=4)
+    p = c.pairs[0]
+    assert p.same_shape is None
+    assert any(n.startswith("cannot tell") for n in p.notes)
+    assert json.loads(json.dumps(p.to_dict(), allow_nan=True))["same_shape"] is None

@@ -172,7 +172,9 @@ def test_json_has_the_documented_fields(rouse_results):
         assert key in obj
     assert obj["schema"] == "tauspec.diagnosis/1"
     assert obj["verdict"] in VERDICTS
-    assert set(obj["fits"]) == {"rouse", "zimm_theta", "zimm_good", "general_sine", "general_power"}
+    # every model in both forms: discrete chain (sine spacing) and continuum law (Rouse 1953; Zimm 1956)
+    assert set(obj["fits"]) == {"rouse", "zimm_theta", "zimm_good", "general_sine", "general_power",
+                                "rouse_continuum", "zimm_theta_discrete", "zimm_good_discrete"}
     for fit in obj["fits"].values():
         assert {"reduced_chi2", "aic", "bic"} <= set(fit)
     for item in obj["evidence"]:

@@ -9,7 +9,7 @@ from hypothesis import strategies as st
 
 from tauspec.data.read import parse_sweep_text, read_sweep
 from tauspec.data.sweep import Sweep
-from tauspec.errors import DroppedPointsWarning, SweepError
+from tauspec.errors import DroppedPointsWarning, EncodingGuessWarning, SweepError
 
 W = [0.1, 0.3, 1.0, 3.0, 10.0, 30.0, 100.0]
 GP = [1.0, 8.0, 60.0, 300.0, 900.0, 1800.0, 2600.0]
@@ -76,6 +76,15 @@ def test_metadata_and_sorting(tmp_path):
     assert read_sweep(tmp_path / "b7.csv").source.endswith("b7.csv")
 
 
+def test_missing_cells_dropped_with_one_warning():
+    # A NaN, empty, "-" or "--" modulus drops its row (the issue "never a silently wrong number": a missing value is
+    # not data; it was refused as "not finite" before).
+    rows = [f"{w:g},{a:g},{b:g}" for w, a, b in zip(W, GP, GPP)] + ["500,nan,3", "600,,3", "700,4,-", "800,--,2"]
+    with pytest.warns(DroppedPointsWarning, match="a missing value at lines 9-12"):
+        s = parse_sweep_text("omega,G',G''\n" + "\n".join(rows), source="x.csv")
+    assert len(s) == 7 and s.meta["dropped_lines"] == "9-12"
+
+
 def test_nonpositive_points_dropped_with_warning():
     rows = list(zip(W, GP, GPP)) + [(300.0, -2.0, 1000.0), (1000.0, 3000.0, 0.0)]
     with pytest.warns(DroppedPointsWarning, match="lines 9-10"):
@@ -96,7 +105,6 @@ BAD = [
     ("omega,G' [psi],G''\n1,2,3\n", "not a modulus unit"),
     (table("omega,G',G''") + "5,6\n", "row has 2 values"),
     (table("omega,G',G''") + "500,abc,3\n", "column G': value 'abc' is not a number"),
-    (table("omega,G',G''") + "500,nan,3\n", "is not finite"),
     (table("omega,G',G''") + "500,inf,3\n", "is not finite"),
     (table("omega,G',G''") + "0,5,3\n", "frequency must be positive"),
     (table("omega,G',G''") + "-1,5,3\n", "frequency must be positive"),
@@ -124,8 +132,9 @@ def test_file_level_refusals(tmp_path):
     (tmp_path / "bin.csv").write_bytes(b"\x89PNG\r\n\x1a\n\x00\x00\x00")
     with pytest.raises(SweepError, match="binary data"):
         read_sweep(tmp_path / "bin.csv")
+    # Not UTF-8 is now read as cp1252 with a warning naming it (it was refused); this file then has no data rows.
     (tmp_path / "latin.csv").write_bytes("omega,G',G''\n# Temperatur: 25 \xb0C\n".encode("latin-1"))
-    with pytest.raises(SweepError, match="not UTF-8"):
+    with pytest.warns(EncodingGuessWarning, match="read as cp1252"), pytest.raises(SweepError, match="no data rows"):
         read_sweep(tmp_path / "latin.csv")
     big = tmp_path / "big.csv"
     big.write_text("x" * 2000)

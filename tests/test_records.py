@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 
 from synthetic import lognormal_sweep, maxwell_sweep
+from synthetic_sweeps import bsw_melt_sweep
 from tauspec.analysis.comparison.compare import compare
 from tauspec.analysis.comparison.options import CompareOptions
 from tauspec.analysis.diagnosis.diagnose import diagnose
@@ -23,6 +24,7 @@ from tauspec.analysis.uncertainty.options import BandOptions
 from tauspec.batch.run import BatchReport
 from tauspec.batch.settings import BatchSettings
 from tauspec.data.manifest import read_manifest
+from tauspec.data.read import ReadOptions
 from tauspec.data.record import is_record
 from tauspec.data.sweep import Sweep
 from tauspec.data.write import dumps_json
@@ -80,6 +82,9 @@ def results():
         gp, gpp = rouse_moduli(w, 1e3, 1.0, 30)
         rouse = Sweep(omega=w, storage=gp, loss=gpp, name="rouse")
         diagnosis = diagnose(rouse, intervals=False)
+        melt, _ = bsw_melt_sweep(1, tc_ratio=1e7, wmax=10**3.5)  # an entangled melt (issue 16)
+        entangled = diagnose(melt.replace(meta={"density": "0.78 g/cm3", "temperature": "150 C"}), intervals=False,
+                             use_spectrum=False)
         bands = confidence_bands(spectrum, resamples=10, statistics=("eta_s",))
         comparison = compare([sweep, maxwell_sweep(4)], replicates=3, invert_options=InvertOptions(grid=40))
         T = np.asarray(TEMPS_WLF, dtype=float)
@@ -93,7 +98,9 @@ def results():
         "chain_fit": fit_chain(rouse.omega, rouse.storage, rouse.loss, "rouse"),
         "wlf": fit_wlf(T, shifts, np.full(len(shifts), 0.01), T_ref=T_REF_WLF),
         "arrhenius": fit_arrhenius(T, shifts, np.full(len(shifts), 0.01), T_ref=T_REF_WLF),
-        "diagnosis": diagnosis, "evidence": diagnosis.evidence[0], "bands": bands, "noise": bands.noise,
+        "diagnosis": diagnosis, "evidence": diagnosis.evidence[0], "entangled": entangled,
+        "entanglement": entangled.entanglement, "estimate": entangled.entanglement.estimates[0],
+        "bsw_fit": entangled.entanglement.bsw, "bands": bands, "noise": bands.noise,
         "interval": next(iter(bands.intervals.values())), "comparison": comparison, "pair": comparison.pairs[0],
         "master": master, "pair_shift": master.pairs[0], "check": master.check,
         "report": BatchReport(out="out", inputs=3, ok=2, failed=1, computed=3, skipped=0, worker_deaths=0,
@@ -104,14 +111,16 @@ def results():
         "band_options": BandOptions(resamples=20, noise=0.02, level=0.9),
         "compare_options": CompareOptions(replicates=4, significance=0.1, reselect=False),
         "batch_settings": BatchSettings(invert=InvertOptions(grid=30, solvent=False), run_diagnose=False),
+        "read_options": ReadOptions(temperature_tolerance=0.5, max_rows=1000),
     }
 
 
 @pytest.mark.parametrize("name", [
     "sweep", "spectrum", "lcurve", "modes", "candidate", "derived", "curve", "retardation", "chain_fit", "wlf",
-    "arrhenius", "diagnosis", "evidence", "bands", "noise", "interval", "comparison", "pair", "master",
+    "arrhenius", "diagnosis", "evidence", "entangled", "entanglement", "estimate", "bsw_fit",
+    "bands", "noise", "interval", "comparison", "pair", "master",
     "pair_shift", "check", "report", "invert_options", "modes_options", "diagnose_options", "band_options",
-    "compare_options", "batch_settings",
+    "compare_options", "batch_settings", "read_options",
 ])
 def test_round_trip(results, name):
     x = results[name]

@@ -13,6 +13,7 @@ __all__ = [
     "TauspecWarning",
     "WeakResultWarning",
     "DroppedPointsWarning",
+    "EncodingGuessWarning",
 ]
 
 
@@ -59,7 +60,11 @@ class TauspecWarning(UserWarning):
 
 
 class DroppedPointsWarning(TauspecWarning):
-    """Points were removed from a sweep (non-positive moduli)."""
+    """Points were removed from a sweep (a missing value or a non-positive modulus)."""
+
+
+class EncodingGuessWarning(TauspecWarning):
+    """A file that is not UTF-8 (nor marked UTF-16) was decoded with a single-byte encoding; the warning names it."""
 
 
 class WeakResultWarning(TauspecWarning):

@@ -23,11 +23,21 @@ SWEEP_SUFFIXES = (".csv", ".tsv", ".txt", ".dat")
 
 @dataclasses.dataclass(frozen=True)
 class Input:
-    """One input file: where to read it, its name in the summary and its result folder under ``--out``."""
+    """One input: where to read it, its name in the summary and its result folder under ``--out``.
+
+    ``block`` is set for one block of a file holding several (``file`` and ``key`` then end in ``#<block>``).
+    """
 
     path: Path
     file: str
     key: str
+    block: int | None = None
+
+    def blocks(self, count: int) -> list[Input]:
+        """The input itself, or one input per block when the file holds ``count`` > 1 blocks."""
+        if count <= 1:
+            return [self]
+        return [Input(self.path, f"{self.file}#{k}", f"{self.key}#{k}", k) for k in range(1, count + 1)]
 
 
 def _walk(folder: Path, exclude: Path) -> Iterator[Path]:

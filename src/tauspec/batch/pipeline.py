@@ -6,14 +6,14 @@ import os
 import tempfile
 import time
 import warnings
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
-from ..data.read import parse_sweep_text
+from ..data.read import parse_sweep_text, parse_sweeps_text
 from ..data.sweep import Sweep
 from ..data.write import dumps_json
-from ..errors import TauspecError
+from ..errors import SweepError, TauspecError
 from ..spectrum.threads import one_thread
 from .settings import BatchSettings
 from .store import _header, _sha256
@@ -77,8 +77,22 @@ def _figures(state: Mapping[str, Any]) -> dict[str, bytes]:
         return {p.name: p.read_bytes() for p in paths}
 
 
+def _read(text: str, source: str, block: int | None) -> Sweep:
+    """The sweep of a file's text, or of one block of it (``source`` ends in ``#<block>``)."""
+    if block is None:
+        return parse_sweep_text(text, source=source, default_name=os.path.splitext(os.path.basename(source))[0])
+    file = source.removesuffix(f"#{block}")
+    sweeps = parse_sweeps_text(text, source=file, default_name=os.path.splitext(os.path.basename(file))[0],
+                               block=block)
+    if len(sweeps) > 1:
+        temps = ", ".join(s.meta["temperature"] for s in sweeps)
+        raise SweepError(f"block {block} holds sweeps at {len(sweeps)} temperatures ({temps}); give each its own "
+                         "block, or superpose them with 'tauspec master'", file)
+    return sweeps[0]
+
+
 def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str | None = None,
-            input_sha256: str | None = None) -> dict[str, Any]:
+            input_sha256: str | None = None, block: int | None = None, notes: Sequence[str] = ()) -> dict[str, Any]:
     """Run the pipeline on one sweep: read, invert (then modes and diagnosis as they become available).
 
     The one function sent to the workers: top level, picklable, no global
@@ -89,12 +103,16 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
     Parameters
     ----------
     sweep_or_text : Sweep or str
-        A sweep, or the text of a sweep file (see :func:`tauspec.io.parse_sweep_text`).
+        A sweep, or the text of a sweep file (see :func:`tauspec.data.read.parse_sweep_text`).
     settings : BatchSettings
     source : str, optional
         The name of the file, used in messages and results.
     input_sha256 : str, optional
         The sha256 of the file's bytes, recorded in the result (the resume key).
+    block : int, optional
+        Process only this block (1-based) of a file holding several; ``source`` then ends in ``#<block>``.
+    notes : sequence of str
+        Notes from reading the file (an encoding guessed), put first in the result's notes.
 
     Returns
     -------
@@ -115,11 +133,7 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
     try:
         with one_thread(), warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
-            if isinstance(sweep_or_text, Sweep):
-                sweep = sweep_or_text
-            else:
-                sweep = parse_sweep_text(sweep_or_text, source=source,
-                                         default_name=os.path.splitext(os.path.basename(source))[0])
+            sweep = sweep_or_text if isinstance(sweep_or_text, Sweep) else _read(sweep_or_text, source, block)
             result["sample"] = sweep.name
             seconds["read"] = time.perf_counter() - t
             state: dict[str, Any] = {}
@@ -141,8 +155,7 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
         result.update(status="error", error=exc.one_line())
     except Exception as exc:  # a bug: recorded for this file, retried on the next run
         result.update(status="error", error=f"{source}: internal error: {type(exc).__name__}: {exc}", retry=True)
-    notes = list(dict.fromkeys(f"{w.category.__name__}: {w.message}" for w in caught))
-    result["notes"] = notes
+    result["notes"] = list(dict.fromkeys([*notes, *(f"{w.category.__name__}: {w.message}" for w in caught)]))
     t = time.perf_counter()
     result["tables"] = {name: _sha256(text.encode("utf-8")) for name, text in sorted(files.items())
                         if name.endswith(".csv")}

@@ -18,14 +18,17 @@ import os
 import platform
 import sys
 import time
+import warnings
 from collections import Counter
 from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
 from typing import Any
 
 from .._version import __version__
-from ..data.read import decode_text, read_capped_bytes
+from ..data.encodings import decode
+from ..data.read import count_blocks
 from ..data.record import record
+from ..data.source import read_bytes
 from ..data.write import atomic_write_text, dumps_json
 from ..errors import SettingsError, SweepError, TauspecError
 from .inputs import Input, find_inputs
@@ -76,6 +79,14 @@ class _Task:
     inp: Input
     text: str
     input_sha: str
+    notes: tuple[str, ...] = ()
+
+    def run(self, step: Callable[..., dict[str, Any]], settings: BatchSettings) -> Any:
+        """The delayed call of the pipeline step on this task."""
+        from joblib import delayed
+
+        return delayed(step)(self.text, settings, source=self.inp.file, input_sha256=self.input_sha,
+                             block=self.inp.block, notes=self.notes)
 
 
 def _versions(backend: str) -> dict[str, str]:
@@ -137,16 +148,32 @@ def _parallel(backend: str, jobs: int, scheduler: str | None) -> Iterator[dict[s
             cluster.close()
 
 
-def _read_input(inp: Input) -> tuple[bytes | None, str | None, str | None]:
-    """Return (bytes, text, error) for one input; the client reads every file itself, with the reader's caps."""
+def _read_input(inp: Input) -> tuple[bytes | None, str | None, str | None, tuple[str, ...]]:
+    """Return (bytes, text, error, notes) for one input; the client reads every file itself, with the reader's caps.
+
+    ``notes`` are the reader's warnings (an encoding guessed), recorded in the file's results by the worker.
+    """
     try:
-        raw = read_capped_bytes(inp.path, inp.file)
+        raw = read_bytes(inp.path, inp.file)
     except SweepError as exc:
-        return None, None, exc.one_line()
+        return None, None, exc.one_line(), ()
     try:
-        return raw, decode_text(raw, inp.file), None
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            text = decode(raw, inp.file)
     except SweepError as exc:
-        return raw, None, exc.one_line()
+        return raw, None, exc.one_line(), ()
+    return raw, text, None, tuple(f"{w.category.__name__}: {w.message}" for w in caught)
+
+
+def _block_inputs(inp: Input, text: str | None) -> list[Input]:
+    """One input per block of a file holding several; a file the reader cannot lay out stays one (its error)."""
+    if text is None:
+        return [inp]
+    try:
+        return inp.blocks(count_blocks(text, source=inp.file))
+    except SweepError:
+        return [inp]
 
 
 def run_batch(
@@ -219,20 +246,27 @@ def run_batch(
         if bar is not None:
             bar.update(1)
 
+    samples: list[Input] = []  # the inputs, a file of several blocks as one input per block
+
     def tasks() -> Iterator[_Task]:
-        for inp in inputs:
-            raw, text, error = _read_input(inp)
+        for file_input in inputs:
+            raw, text, error, notes = _read_input(file_input)
             sha = None if raw is None else _sha256(raw)
-            if sha is not None and not force and _is_current(out / inp.key, sha, settings_sha, settings.plots):
-                counts["skipped"] += 1
-                if bar is not None:
-                    bar.update(1)
-                continue
-            if error is not None or text is None:
-                _store(out, inp, _error_files(inp, error or "", sha, settings, sha is None))
-                done()
-                continue
-            yield _Task(inp, text, sha)
+            parts = _block_inputs(file_input, text)
+            samples.extend(parts)
+            if bar is not None and len(parts) > 1:
+                bar.total += len(parts) - 1
+            for inp in parts:
+                if sha is not None and not force and _is_current(out / inp.key, sha, settings_sha, settings.plots):
+                    counts["skipped"] += 1
+                    if bar is not None:
+                        bar.update(1)
+                    continue
+                if error is not None or text is None:
+                    _store(out, inp, _error_files(inp, error or "", sha, settings, sha is None))
+                    done()
+                    continue
+                yield _Task(inp, text, sha, notes)
 
     def finish(task: _Task, res: dict[str, Any]) -> None:
         step_seconds.update(res.get("seconds", {}))
@@ -242,7 +276,7 @@ def run_batch(
     deaths = _worker_death_errors(backend)
     try:
         with _parallel(backend, jobs, scheduler) as kw:
-            from joblib import Parallel, delayed
+            from joblib import Parallel
 
             queue = tasks()
             pending: dict[str, _Task] = {}
@@ -250,7 +284,7 @@ def run_batch(
             def feed() -> Iterator[Any]:
                 for task in queue:
                     pending[task.inp.file] = task
-                    yield delayed(step)(task.text, settings, source=task.inp.file, input_sha256=task.input_sha)
+                    yield task.run(step, settings)
 
             while True:
                 try:
@@ -263,28 +297,27 @@ def run_batch(
                     suspects = [pending.pop(f) for f in sorted(pending)]
                     for task in suspects:
                         try:
-                            res = Parallel(**kw)([delayed(step)(task.text, settings, source=task.inp.file,
-                                                                input_sha256=task.input_sha)])[0]
+                            res = Parallel(**kw)([task.run(step, settings)])[0]
                         except deaths:
                             message = f"{task.inp.file}: {WORKER_DIED}"
                             res = {"files": _error_files(task.inp, message, task.input_sha, settings, True)}
                         finish(task, res)
     except OSError as exc:  # disk full, read-only folder ...: the finished results are whole (atomic writes)
-        raise _not_written(exc, out, counts["computed"] + counts["skipped"], len(inputs)) from exc
+        raise _not_written(exc, out, counts["computed"] + counts["skipped"], max(len(samples), len(inputs))) from exc
     finally:
         if bar is not None:
             bar.close()
 
     try:
-        summary = write_summary(out, inputs)
+        summary = write_summary(out, samples)
     except OSError as exc:
-        raise _not_written(exc, out, len(inputs), len(inputs)) from exc
+        raise _not_written(exc, out, len(samples), len(samples)) from exc
     ok = failed = 0
     with open(summary, encoding="utf-8", newline="") as fh:
         for row in csv.DictReader(fh):
             ok += row["status"] == "ok"
             failed += row["status"] != "ok"
-    report = BatchReport(out=out, inputs=len(inputs), ok=ok, failed=failed, computed=counts["computed"],
+    report = BatchReport(out=out, inputs=len(samples), ok=ok, failed=failed, computed=counts["computed"],
                          skipped=counts["skipped"], worker_deaths=counts["worker_deaths"],
                          seconds=time.perf_counter() - t0)
     run = {
@@ -310,7 +343,7 @@ def run_batch(
     try:
         atomic_write_text(out / "run.json", dumps_json(run, indent=1) + "\n")
     except OSError as exc:
-        raise _not_written(exc, out, len(inputs), len(inputs)) from exc
+        raise _not_written(exc, out, len(samples), len(samples)) from exc
     return report
 
 

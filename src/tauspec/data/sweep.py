@@ -53,7 +53,8 @@ class Sweep:
     name : str
         Sample name (from ``# sample:`` metadata or the file name).
     meta : mapping of str to str
-        Metadata from ``# key: value`` lines, keys lower case with underscores.
+        Metadata from the file (``Key: value`` and ``# key: value`` lines above the table, a block's title,
+        the temperature column's mean and spread, ignored columns), keys lower case with underscores.
     source : str
         Where the sweep came from (a path), used in error messages.
     """

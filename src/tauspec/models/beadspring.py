@@ -5,10 +5,14 @@ Every model is a set of N Maxwell modes of equal modulus G0 plus a Newtonian sol
     G'(ω)  = G0 Σ_p (ωτ_p)²/(1 + (ωτ_p)²)
     G''(ω) = η_s ω + G0 Σ_p ωτ_p/(1 + (ωτ_p)²),        p = 1 … N,
 
-with the mode times given by a mode-time law of :mod:`tauspec.models.chains` ("sine": the finite chain,
-τ_p = τ_1 [sin(π/(2(N+1)))/sin(pπ/(2(N+1)))]^a; "power": τ_p = τ_1 p^(−a)).  a = 2 in the sine form is the
-exact discrete Rouse chain; a = 3ν in the power form is the Zimm chain (ν = 1/2 θ solvent, ν ≈ 0.588 good
-solvent).
+with the mode times given by a mode-time law of :mod:`tauspec.models.chains`, in two forms,
+
+    "sine"  (discrete chain):   τ_p = τ_1 [sin(π/(2(N+1))) / sin(pπ/(2(N+1)))]^a
+    "power" (continuum law):    τ_p = τ_1 p^(−a).
+
+a = 2 in the sine form is the exact discrete Rouse chain, a = 2 in the power form the continuum Rouse law
+τ_p = τ_R/p²; a = 3ν in the power form is the Zimm chain (ν = 1/2 θ solvent, ν ≈ 0.588 good solvent), in the
+sine form its discrete-chain counterpart (models/chains.py).  Every law is fitted in both forms.
 
 Fits minimise the sum of squared relative residuals (G'_fit/G'_data − 1, G''_fit/G''_data − 1).  G0 and η_s
 enter linearly: they are solved by nonnegative least squares inside each evaluation and the outer problem in
@@ -38,9 +42,10 @@ import numpy as np
 from ..data.record import field, record
 from ..spectrum.lsq import levenberg_marquardt, projected_jacobian
 from ..spectrum.threads import limited
+from .bounds import checked_interval
 from .chains import A_BOUNDS, N_MAX, NU_GOOD, Frame, chain_columns, get_law, mode_times, tabulated_chains
 
-__all__ = ["MODELS", "BeadSpringFit", "fit_chain", "fit_all"]
+__all__ = ["MODELS", "ROUSE_MODELS", "ZIMM_MODELS", "BeadSpringFit", "fit_chain", "fit_all"]
 
 
 #: model name -> (form, fixed exponent a, or None when a is fitted); a form is a mode-time law of
@@ -51,7 +56,14 @@ MODELS: dict[str, tuple[str, float | None]] = {
     "zimm_good": ("power", 3 * NU_GOOD),
     "general_sine": ("sine", None),
     "general_power": ("power", None),
+    "rouse_continuum": ("power", 2.0),
+    "zimm_theta_discrete": ("sine", 1.5),
+    "zimm_good_discrete": ("sine", 3 * NU_GOOD),
 }
+
+#: The models of each chain family, in both forms (discrete chain and continuum law; models/chains.py).
+ROUSE_MODELS = ("rouse", "rouse_continuum")
+ZIMM_MODELS = ("zimm_theta", "zimm_good", "zimm_theta_discrete", "zimm_good_discrete")
 
 
 # --------------------------------------------------------------------------------------------- fitting
@@ -91,9 +103,34 @@ class BeadSpringFit:
     loss_fit: np.ndarray = field(transient=True, default=None)
 
     def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
+        # no zero-width interval is written (issue 16): a fixed exponent has none, a degenerate one is withheld,
+        # and a parameter at a search bound is listed in ``at_bound`` with its interval withheld
+        bounds = self.at_bound()
+        for key, value in (("G0", self.G0), ("tau1", self.tau1), ("a", self.a)):
+            d[f"{key}_ci"] = list(checked_interval(key, value, d[f"{key}_ci"], bounds.get(key, ""))[0])
         if not self.a_free:  # a held at its model value
-            d["a_ci"] = [self.a, self.a]
+            d["a_ci"] = [math.nan, math.nan]
+        d["at_bound"] = sorted(bounds)
         return d
+
+    def at_bound(self, omega: np.ndarray | None = None) -> dict[str, str]:
+        """Parameters at a search bound, each with its bound.
+
+        N at 1 or N_MAX, a at A_BOUNDS, τ_1 at the limits 10⁻³/ω_max and 10³/ω_min of the fit (when ``omega``
+        is given).
+        """
+        out = {}
+        if self.N >= N_MAX * (1 - 1e-6):
+            out["N"] = f"N_MAX = {N_MAX:g}"
+        elif self.N <= 1 + 1e-6:
+            out["N"] = "N = 1"
+        if self.a_free and min(self.a - A_BOUNDS[0], A_BOUNDS[1] - self.a) < 1e-6:
+            out["a"] = f"a in [{A_BOUNDS[0]:g}, {A_BOUNDS[1]:g}]"
+        if omega is not None:
+            lo, hi = 1e-3 / float(np.max(omega)), 1e3 / float(np.min(omega))
+            if abs(math.log(self.tau1 / lo)) < 1e-6 or abs(math.log(self.tau1 / hi)) < 1e-6:
+                out["tau1"] = f"tau_1 in [{lo:.3g}, {hi:.3g}] s"
+        return out
 
     @classmethod
     def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:

@@ -3,12 +3,16 @@
 A chain is N Maxwell modes of equal modulus G0 at times τ_p = τ_1 ρ_p(N, a), p = 1 … N, plus a Newtonian
 solvent.  A *mode-time law* gives ρ_p (at a = 1; the times are τ_1 ρ_p^a); the fits
 (:mod:`tauspec.models.beadspring`) know nothing else about it, so a new form is one :class:`ModeTimeLaw`
-added with :func:`register_law`.  The built-in forms:
+added with :func:`register_law`.  Two forms of each law are built in: the discrete chain (``"sine"``: the
+finite-N Rouse eigenvalue spacing raised to a/2; a = 2 is Rouse 1953 exactly) and the continuum law
+(``"power"``: τ_p = τ_1 p^(−a); τ_R/p² is the Rouse law handbooks write for N ≫ 1, Ferry 1980 ch. 9, Doi &
+Edwards 1986 ch. 4; τ_1 p^(−3ν) the Zimm law, Zimm 1956),
 
-    "sine"  (finite chain):     τ_p = τ_1 [sin(π/(2(N+1))) / sin(pπ/(2(N+1)))]^a
-    "power" (truncated law):    τ_p = τ_1 p^(−a).
+    "sine"  (discrete chain):   τ_p = τ_1 [sin(π/(2(N+1))) / sin(pπ/(2(N+1)))]^a
+    "power" (continuum law):    τ_p = τ_1 p^(−a).
 
-a = 2 in the sine form is the exact discrete Rouse chain; a = 3ν in the power form is the Zimm chain.
+The exact Zimm eigenvalues of a finite chain need a numerical diagonalisation (Lodge & Wu 1971, from memory);
+the discrete Zimm form here is the sine spacing with a = 3ν.  The forms differ only near the shortest modes.
 
 The unit-modulus moduli S'(ω) = Σ_p K'(ωτ_p), S''(ω) = Σ_p K''(ωτ_p) with K' = x²/(1+x²), K'' = x/(1+x²),
 x = ωτ (Ferry 1980, ch. 3 and 9), have closed-form derivatives
@@ -37,10 +41,13 @@ import numpy as np
 from ..spectrum.kernels import kernel_block
 
 __all__ = [
-    "FORMS", "NU_GOOD", "N_MAX", "A_BOUNDS", "TAIL_EPS", "EXACT_MODES", "BIN_RATIO", "ModeTimeLaw", "LAWS",
-    "register_law", "get_law", "mode_positions", "Frame", "ChainTerms", "chain_columns", "unit_chain",
-    "tabulated_chains", "mode_times", "chain_moduli", "rouse_moduli", "zimm_moduli",
+    "FORMS", "FORM_NAMES", "NU_GOOD", "N_MAX", "A_BOUNDS", "TAIL_EPS", "EXACT_MODES", "BIN_RATIO", "ModeTimeLaw",
+    "LAWS", "register_law", "get_law", "mode_positions", "Frame", "ChainTerms", "chain_columns", "unit_chain",
+    "tabulated_chains", "mode_times", "chain_moduli", "rouse_moduli", "zimm_moduli", "power_tail",
 ]
+
+#: The plain name of each form: "discrete" chain (sine spacing) or "continuum" law (pure power of p).
+FORM_NAMES = {"sine": "discrete", "power": "continuum"}
 
 #: Flory exponent of a chain in good solvent (renormalization-group value; Rubinstein & Colby 2003, ch. 8).
 NU_GOOD = 0.588
@@ -356,6 +363,28 @@ def mode_times(tau1: float, n: int, a: float = 2.0, form: str = "sine") -> np.nd
     if n < 1:
         raise ValueError("a chain needs at least one mode")
     return get_law(form).times(tau1, n, np.arange(1, n + 1, dtype=float), a)
+
+
+def power_tail(omega: np.ndarray, tau1: float, N: float, a: float) -> tuple[np.ndarray, np.ndarray]:
+    """Unit-G0 moduli of the modes p > N of the infinite power law τ_p = τ_1 p^(−a) (a > 1).
+
+    These are the modes a truncated (continuum-form) chain lacks against the N → ∞ law whose asymptotes
+    (tan δ = tan(π/(2a)), G'' = (π/(2√2)) G0 (ωτ_1)^(1/2) for a = 2; Ferry 1980, ch. 9) the intermediate
+    tests use.  Modes N < p ≤ 10⁶ are summed (binned as in :func:`chain_moduli`); beyond, in their
+    low-frequency limit, Σ_{p>M} ωτ_p = ωτ_1 ζ(a, M+1) and Σ (ωτ_p)² = (ωτ_1)² ζ(2a, M+1) (Hurwitz ζ).
+    """
+    from scipy.special import zeta
+
+    omega = np.asarray(omega, dtype=float)
+    n = max(1, int(round(N)))
+    big = max(10**6, 100 * n)
+    frame, law, m = Frame(omega), get_law("power"), omega.size
+    v_big = _chains(frame, tau1, big, a, law, False, False)[0][:, 0]  # whole chains: not clipped to N_MAX
+    v_n = _chains(frame, tau1, n, a, law, False, False)[0][:, 0]
+    sp_big, spp_big, sp_n, spp_n = v_big[:m], v_big[m:], v_n[:m], v_n[m:]
+    x = omega * tau1
+    return (sp_big - sp_n + x**2 * float(zeta(2 * a, big + 1)),
+            spp_big - spp_n + x * float(zeta(a, big + 1)))
 
 
 def chain_moduli(

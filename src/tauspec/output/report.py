@@ -228,7 +228,8 @@ def _evidence_html(result: Mapping[str, Any]) -> str:
         lo, hi = (spec.get("window") or [math.nan, math.nan])[:2]
         facts.append(f"supported window τ ∈ [{_fmt(lo)}, {_fmt(hi)}] s")
         facts.append(f"λ = {_fmt(spec.get('lambda'))} ({html.escape(str(spec.get('select', '')))})")
-        facts.append(f"η_s = {_fmt(spec.get('eta_s'))} Pa·s")
+        facts.append(f"η_s = {_fmt(spec.get('eta_s'))} Pa·s (Newtonian high-frequency contribution: solvent + "
+                     "modes faster than the window; the solvent itself: see the diagnosis)")
         facts.append(f"fit rms {_fmt(100 * float(spec.get('residual_rms', math.nan)), 2)} %")
     derived = result.get("derived") or {}
     if derived.get("eta0") is not None:

@@ -11,7 +11,12 @@ from ..data.record import field, insert_after, record
 from ..data.sweep import Sweep
 from .options import InvertOptions
 
-__all__ = ["LCurve", "Spectrum"]
+__all__ = ["LCurve", "Spectrum", "ETA_S_LABEL"]
+
+#: What η_s of a spectrum is (issue 16): the data cannot tell the solvent from relaxation modes faster than
+#: 1/ω_max, whose viscosity Σ g τ adds to it (docs/inversion.md); the diagnosis separates them for chains.
+ETA_S_LABEL = ("Newtonian high-frequency contribution (solvent + modes faster than the window); "
+               "the solvent itself: see tauspec diagnose")
 
 
 @record
@@ -143,7 +148,8 @@ class Spectrum:
             f"  strength λ = {self.strength:.3g} ({self.chosen_by}); relative residual rms {self.residual_rms:.3%}",
             f"  supported window τ ∈ [{lo:.3g}, {hi:.3g}] s" if not self.window_empty else
             "  supported window: empty (ω range narrower than e^π)",
-            f"  η_s = {self.eta_s:.4g} Pa·s, G_e = {self.G_e:.4g} Pa, max H = {float(self.H.max()):.4g} Pa",
+            f"  η_s = {self.eta_s:.4g} Pa·s: {ETA_S_LABEL}",
+            f"  G_e = {self.G_e:.4g} Pa, max H = {float(self.H.max()):.4g} Pa",
         ]
         lines += [f"  caution: {w}" for w in self.warnings]
         return "\n".join(lines)

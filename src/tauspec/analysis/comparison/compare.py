@@ -75,7 +75,7 @@ class Comparison:
                         for i in self.ranking]
         o = self.options
         d["settings"] = {"replicates": o.replicates, "significance": o.significance, "seed": o.seed,
-                         "min_overlap": o.min_overlap,
+                         "min_overlap": o.min_overlap, "min_decades": o.min_decades, "min_weight": o.min_weight,
                          "strength": _RESELECT_WORDS[o.reselect], "log_floor": LOG_FLOOR, "ci_level": CI_LEVEL,
                          "mode": "reference" if self.reference is not None else "all pairs"}
         return d
@@ -87,6 +87,7 @@ class Comparison:
         s = dict(d.get("settings") or {})
         d["settings"] = {"replicates": s.get("replicates", 12), "significance": s.get("significance", s.get("level")),
                          "seed": s.get("seed", 0), "min_overlap": s.get("min_overlap", 0.5),
+                         "min_decades": s.get("min_decades", 1.5), "min_weight": s.get("min_weight", 0.5),
                          "reselect": s.get("strength") != _RESELECT_WORDS[False]}
         return d
 
@@ -207,7 +208,8 @@ def compare(
     pairs = []
     for i, j in index_pairs:
         pc = _compare_pair(names[i], names[j], unc[i], unc[j], np.concatenate([nulls[i], nulls[j]]),
-                           opts.significance, opts.min_overlap)
+                           opts.significance, opts.min_overlap, (spectra[i], spectra[j]),
+                           (opts.min_decades, opts.min_weight))
         if diagnoses is not None:
             pc = dataclasses.replace(pc, rouse=rouse_ratios(diagnoses[i], diagnoses[j]))
         pairs.append(pc)

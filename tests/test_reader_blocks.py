@@ -1,0 +1,82 @@
+"""A file of several blocks through the layers above the reader: each block a sample in the batch, one master
+curve in ``tauspec master``.  The fixture tests/data/three_blocks.txt holds three temperature steps of the invented
+Maxwell model of tests/data/make_fixtures.py (Ferry 1980, ch. 3; docs/references.md).
+"""
+
+import json
+import shutil
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from tauspec.batch.run import run_batch
+from tauspec.batch.settings import BatchSettings
+from tauspec.batch.summary import read_summary
+from tauspec.cli.main import main
+from tauspec.data.read import read_sweeps
+from tauspec.errors import TauspecWarning
+from tauspec.spectrum.invert import invert
+from tauspec.spectrum.options import InvertOptions
+
+DATA = Path(__file__).resolve().parent / "data"
+SMALL = BatchSettings(invert=InvertOptions(grid=24), run_modes=False, run_diagnose=False)
+
+
+@pytest.fixture
+def archive(tmp_path):
+    work = tmp_path / "arch"
+    work.mkdir()
+    shutil.copy(DATA / "three_blocks.txt", work)
+    shutil.copy(DATA / "quoted_kpa.csv", work)
+    shutil.copy(DATA / "cp1252_units.csv", work)
+    return work
+
+
+def test_batch_makes_each_block_a_sample(archive, tmp_path):
+    out = tmp_path / "out"
+    report = run_batch([archive], out, settings=SMALL, jobs=1)
+    rows = {r["file"]: r for r in read_summary(out)}
+    assert list(rows) == ["cp1252_units.csv", "quoted_kpa.csv", "three_blocks.txt#1", "three_blocks.txt#2",
+                          "three_blocks.txt#3"]
+    assert all(r["status"] == "ok" for r in rows.values()) and report.status == 0 and report.inputs == 5
+    assert [rows[f"three_blocks.txt#{k}"]["sample"] for k in (1, 2, 3)] == [f"three_blocks#{k}" for k in (1, 2, 3)]
+    # each block's result is the inversion of that block's sweep, as read_sweeps gives it
+    for k, sweep in enumerate(read_sweeps(archive / "three_blocks.txt"), start=1):
+        stored = json.loads((out / f"three_blocks#{k}" / "result.json").read_text(encoding="utf-8"))
+        assert stored["file"] == f"three_blocks.txt#{k}"
+        with warnings.catch_warnings():  # the batch records these as notes
+            warnings.simplefilter("ignore", TauspecWarning)
+            direct = invert(sweep, grid=24).to_dict()
+        np.testing.assert_allclose(stored["spectrum"]["H"], direct["H"], rtol=1e-12)
+    # the encoding the reader guessed is a note of that file's result
+    notes = json.loads((out / "cp1252_units" / "result.json").read_text(encoding="utf-8"))["notes"]
+    assert any("EncodingGuessWarning" in n and "cp1252" in n for n in notes)
+    again = run_batch([archive], out, settings=SMALL, jobs=1)
+    assert (again.computed, again.skipped) == (0, 5)
+
+
+def test_a_bad_block_is_its_own_error_row(archive, tmp_path):
+    text = (archive / "three_blocks.txt").read_text(encoding="utf-8").splitlines()
+    text[text.index("Step 2  150 °C") + 5] = "39.8107\tbroken\t13881.2\t150.0"
+    (archive / "three_blocks.txt").write_text("\n".join(text) + "\n", encoding="utf-8")
+    out = tmp_path / "out"
+    report = run_batch([archive], out, settings=SMALL, jobs=2)
+    rows = {r["file"]: r for r in read_summary(out)}
+    assert [rows[f"three_blocks.txt#{k}"]["status"] for k in (1, 2, 3)] == ["ok", "error", "ok"]
+    assert "value 'broken' is not a number" in rows["three_blocks.txt#2"]["error"]
+    assert report.status == 1
+
+
+def test_master_takes_a_file_of_blocks(tmp_path, capsys):
+    assert main(["master", str(DATA / "three_blocks.txt"), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    np.testing.assert_allclose(sorted(data["temperatures"]), [129.99375, 149.99375, 169.99375], atol=1e-3)
+    assert len(data["aT"]) == 3
+
+
+def test_single_sweep_commands_refuse_a_file_of_blocks(capsys):
+    assert main(["invert", str(DATA / "three_blocks.txt")]) == 1
+    err = capsys.readouterr().err
+    assert "holds 3 sweeps in 3 blocks" in err and "read_sweeps" in err and "'tauspec batch'" in err
