@@ -13,8 +13,14 @@ strengths:
 
 It checks the optimum against (a) at every strength (relative objective) and
 reports the relative L2 error of H inside the window, so a faster path that is
-less accurate shows it.  Set OPENBLAS_NUM_THREADS=1 for figures comparable with
-docs/benchmarks.md.
+less accurate shows it.
+
+Threads: the same comparisons of ``invert`` with (a) and (d) at the default grid
+(12 points per decade) are made twice, with BLAS at one thread and at the
+machine's default (one per core, what a caller who sets nothing gets; emulated
+with threadpoolctl whatever OPENBLAS_NUM_THREADS says), and ``invert`` at the
+default threading is compared with ``invert`` at one thread.  ``invert`` limits
+its own linear algebra (``tauspec.spectrum.threads``); the baselines do not.
 """
 
 from __future__ import annotations
@@ -65,6 +71,33 @@ def cvxpy_rebuilt(A, b, L, lams):
     return np.vstack([solve_cvxpy(A, b, L, [lam]) for lam in lams])
 
 
+def _threads(sweep, repeats: int) -> tuple[dict, dict]:
+    """invert, the nnls loop and the Cholesky floor at the default grid, at one thread and at the default."""
+    import os
+
+    from threadpoolctl import threadpool_limits
+
+    sp = invert(sweep)
+    pb = build_problem(sweep, sp.tau, InvertOptions())
+    A, b, L, lams = pb.A, pb.b, pb.L, sp.lcurve.strength
+    rows, med = {}, {}
+    for label, threads in (("one thread", 1), ("default threads", os.cpu_count() or 1)):
+        with threadpool_limits(limits=threads, user_api="blas"):
+            for what, fn in (("invert", lambda: invert(sweep)), ("nnls loop", lambda: nnls_loop(A, b, L, lams)),
+                             ("Cholesky floor", lambda: cholesky_scan(A, b, L, lams))):
+                m, lo, hi, _ = _best(fn, repeats)
+                rows[f"default grid ({len(sp.tau)} τ), {label}: {what}"] = (m, lo, hi)
+                med[(label, what)] = m
+    ratios = {}
+    for label in ("one thread", "default threads"):
+        ratios[f"default grid, {label}: invert / nnls loop"] = med[(label, "invert")] / med[(label, "nnls loop")]
+        ratios[f"default grid, {label}: invert / Cholesky floor"] = (med[(label, "invert")]
+                                                                     / med[(label, "Cholesky floor")])
+    ratios["default grid: invert at default threads / at one thread"] = (med[("default threads", "invert")]
+                                                                         / med[("one thread", "invert")])
+    return rows, ratios
+
+
 def run(quick: bool = False) -> dict:
     """Run the benchmark; return the figures as a dict."""
     warnings.simplefilter("ignore")
@@ -94,6 +127,8 @@ def run(quick: bool = False) -> dict:
                   for lam, x, xr in zip(lams, path_sol.x, X_nnls))
     worse = max((objective(A, b, L, x, lam) - objective(A, b, L, xr, lam)) / objective(A, b, L, xr, lam)
                 for lam, x, xr in zip(lams, path_sol.x, X_nnls))
+    thread_rows, thread_ratios = _threads(sweep, repeats)
+    rows.update(thread_rows)
     m = sp.in_window
     Ht = lognormal_H(sp.tau, 1e4)
     err = float(np.linalg.norm(sp.H[m] - Ht[m]) / np.linalg.norm(Ht[m]))
@@ -107,6 +142,7 @@ def run(quick: bool = False) -> dict:
             "cvxpy parameter / invert": rows["(c) cvxpy, λ as parameter"][0] / med,
             "invert / Cholesky floor": med / med_d,
             "fast path / Cholesky floor": med_fast / med_d,
+            **thread_ratios,
         },
         "max_rel_objective_vs_nnls": rel_obj,
         "max_rel_objective_excess_vs_nnls": worse,

@@ -2,8 +2,10 @@
 
     python benchmarks/bench_pipeline.py [--quick]
 
-Per stage (read, invert, modes, diagnose) on the demo archive's valid sweeps,
-then the batch (``run_batch``) at --jobs 1 and 2 on a small archive against a
+Per stage (read, invert, modes, diagnose with its default intervals) on the demo
+archive's valid sweeps (24 of them: the demo's invented models with several noise
+seeds), with the ratio of the whole pipeline to ``invert`` per sweep (median; the
+target of issue 18 is ≤ 5), then the batch (``run_batch``) at --jobs 1 and 2 on a small archive against a
 bare loop calling the library in one process, and on a dask LocalCluster
 (2 processes) when distributed is installed.  Ratios: jobs-2/jobs-1 speed-up
 (target ≥ 1.8 on two free cores) and the batch's overhead per task over the
@@ -44,12 +46,13 @@ def _archive(folder: Path, n: int) -> list[Path]:
     return files
 
 
-def _stages(files: list[Path]) -> dict[str, float]:
+def _stages(files: list[Path]) -> tuple[dict[str, float], float]:
     from tauspec.analysis.diagnosis.diagnose import diagnose
     from tauspec.modes.fit import fit_modes
     from tauspec.spectrum.invert import invert
 
     acc: dict[str, list[float]] = {"read": [], "invert": [], "modes": [], "diagnose": []}
+    whole: list[float] = []  # (read + invert + modes + diagnose) / invert, per sweep
     for f in files:
         t = time.perf_counter()
         sw = read_sweep(f)
@@ -63,7 +66,8 @@ def _stages(files: list[Path]) -> dict[str, float]:
         t = time.perf_counter()
         diagnose(sw, spectrum=sp)
         acc["diagnose"].append(time.perf_counter() - t)
-    return {k: statistics.median(v) for k, v in acc.items()}
+        whole.append(sum(v[-1] for v in acc.values()) / acc["invert"][-1])
+    return {k: statistics.median(v) for k, v in acc.items()}, statistics.median(whole)
 
 
 def _bare(files: list[Path]) -> float:
@@ -92,7 +96,8 @@ def run(quick: bool = False) -> dict:
     with tempfile.TemporaryDirectory(prefix="tauspec-bench-") as tmp, threadpool_limits(1):
         root = Path(tmp) / "archive"
         files = _archive(root, n)
-        stages = _stages(files[: (4 if quick else 12)])
+        _stages(files[:2])  # imports and caches outside the timings
+        stages, whole = _stages(files[: (4 if quick else 24)])
         bare = _bare(files)
         j1 = _batch(root, Path(tmp) / "out1", 1)
         j2 = _batch(root, Path(tmp) / "out2", 2)
@@ -112,12 +117,21 @@ def run(quick: bool = False) -> dict:
                 pass
     out["rows"] = {k: {"median_s": v[0], "min_s": v[1], "max_s": v[2]} for k, v in rows.items()}
     out["ratios"] = {
+        "whole pipeline / invert (median per sweep)": whole,
         "speed-up jobs 2 / jobs 1": j1 / j2,
         "batch jobs 1 / bare loop": j1 / bare,
         "overhead per task [ms]": 1e3 * (j1 - bare) / n,
     }
     out["load_average_1min"] = os.getloadavg()[0]
+    out["peak_memory_MiB"] = _peak_memory_mib()
     return out
+
+
+def _peak_memory_mib() -> float:
+    """Peak resident memory of this process (the stages and the bare loop ran in it), MiB."""
+    import resource
+
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
 def main() -> int:
@@ -131,6 +145,7 @@ def main() -> int:
         print(f"  {k:40s} {v['median_s']:8.2f} s")
     for k, v in res["ratios"].items():
         print(f"  {k:40s} {v:8.3f}")
+    print(f"  peak memory of this process {res['peak_memory_MiB']:.1f} MiB")
     return 0
 
 

@@ -33,7 +33,8 @@ BENCHMARKS = {
     "reader": "bench_reader",
     "dialect": "bench_dialect",
 }
-OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty", "report": "bench_report"}
+OPTIONAL = {"batch": "bench_batch", "uncertainty": "bench_uncertainty", "report": "bench_report",
+            "threads": "bench_threads"}
 
 
 def machine() -> dict:

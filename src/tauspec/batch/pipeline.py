@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import functools
 import os
 import time
 import warnings
@@ -13,6 +12,7 @@ from ..data.read import parse_sweep_text, parse_sweeps_text
 from ..data.sweep import Sweep
 from ..data.write import dumps_json
 from ..errors import DroppedPointsWarning, SweepError, TauspecError
+from ..spectrum.threads import one_thread
 from .settings import BatchSettings
 from .store import _header, _sha256
 
@@ -20,13 +20,6 @@ __all__ = ["process"]
 
 
 # --------------------------------------------------------------------------- the pipeline step
-
-
-@functools.lru_cache(maxsize=1)
-def _blas_controller(pid: int) -> Any:  # noqa: ARG001 - one per process (a forked worker gets its own)
-    from threadpoolctl import ThreadpoolController
-
-    return ThreadpoolController()
 
 
 #: (result entries, {file name: CSV text}) of one pipeline step.
@@ -140,7 +133,7 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
     caught: list[warnings.WarningMessage] = []
     t = time.perf_counter()
     try:
-        with _blas_controller(os.getpid()).limit(limits=1), warnings.catch_warnings(record=True) as caught:
+        with one_thread(), warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
             sweep = sweep_or_text if isinstance(sweep_or_text, Sweep) else _read(sweep_or_text, source, block)
             result["sample"] = sweep.name

@@ -55,17 +55,26 @@ def loglog_slope(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
 
 
 def local_slopes(omega: np.ndarray, y: np.ndarray, half_width: float = 0.25) -> np.ndarray:
-    """Local d ln y / d ln ω by a straight-line fit over ±``half_width`` decades around each point (≥ 3 points)."""
+    """Local d ln y / d ln ω by a straight-line fit over ±``half_width`` decades around each point (≥ 3 points).
+
+    All windows at once: slope_i = Σ_j w_ij (x_j − x̄_i)(y_j − ȳ_i) / Σ_j w_ij (x_j − x̄_i)², the least-squares
+    slope over the points j of window i (x = ln ω, y = ln y); NaN where a window spans no frequency range.
+    """
+    omega = np.asarray(omega, dtype=float)
     lw = np.log10(omega)
-    out = np.empty(len(lw))
-    for i, c in enumerate(lw):
-        sel = np.abs(lw - c) <= half_width + 1e-12
-        if np.count_nonzero(sel) < 3:
-            order = np.argsort(np.abs(lw - c))[:3]
-            sel = np.zeros(len(lw), bool)
-            sel[order] = True
-        out[i] = loglog_slope(omega[sel], y[sel])[0]
-    return out
+    dist = np.abs(lw[:, None] - lw[None, :])
+    sel = dist <= half_width + 1e-12
+    for i in np.flatnonzero(np.count_nonzero(sel, axis=1) < 3):
+        sel[i] = False
+        sel[i, np.argsort(dist[i])[:3]] = True
+    w = sel.astype(float)
+    lx, ly = np.log(omega), np.log(np.asarray(y, dtype=float))
+    count = w.sum(axis=1)
+    dx = lx[None, :] - ((w @ lx) / count)[:, None]
+    dy = ly[None, :] - ((w @ ly) / count)[:, None]
+    sxx = np.einsum("ij,ij->i", w, dx * dx)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(sxx > 0, np.einsum("ij,ij->i", w, dx * dy) / sxx, math.nan)
 
 
 def end_slopes(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, decades: float = 0.5) -> tuple[float, float]:

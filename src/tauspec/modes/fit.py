@@ -5,14 +5,18 @@ The model is the generalized Maxwell model (Ferry 1980, ch. 3)
     G'(ω)  = G_e + Σ g_i (ωτ_i)²/(1 + (ωτ_i)²)
     G''(ω) = η_s ω + Σ g_i ωτ_i/(1 + (ωτ_i)²)
 
-with g_i > 0, τ_i > 0, η_s ≥ 0, G_e ≥ 0.  The modes are fitted by nonlinear
-least squares in (ln g_i, ln τ_i) on the relative residuals
-r = (G'_fit − G')/G', (G''_fit − G'')/G''.  Starting values come from the
-continuous spectrum when one is given (lumps of H d ln τ) or else from
-unregularized NNLS on a fine τ grid, whose solution is sparse by itself
-(Jakeš 1995).  The number of modes is the smallest M whose fit is not
+with g_i > 0, τ_i > 0, η_s ≥ 0, G_e ≥ 0, fitted on the relative residuals
+r = (G'_fit − G')/G', (G''_fit − G'')/G''.  For given times the strengths, η_s and
+G_e are a small nonnegative linear least-squares problem, solved inside every
+evaluation, so the nonlinear fit has only the log-times (variable projection,
+Golub & Pereyra 1973; :class:`~tauspec.modes.problem._Projected`).  Starting
+values come from the continuous spectrum when one is given (lumps of H d ln τ)
+or else from unregularized NNLS on a fine τ grid, whose solution is sparse by
+itself (Jakeš 1995).  The number of modes is the smallest M whose fit is not
 significantly worse than the fit with M + 1 modes (nested-model F-test), and
-never more than the data resolve.  See ``docs/modes.md``.
+never more than the data resolve; it is searched along one path of counts, each
+fit started from the last one plus the mode the residual asks for most (see
+:func:`fit_modes`).  See ``docs/modes.md``.
 
 References
 ----------
@@ -21,11 +25,13 @@ Jakeš, J. (1995). Collect. Czech. Chem. Commun. 60, 1815.
 Baumgaertel, M. & Winter, H. H. (1989). Rheol. Acta 28, 511.
 Seber, G. A. F. & Wild, C. J. (1989). *Nonlinear Regression*, Wiley, §5.3
 (F-test for nested models; section from memory).
+Golub, G. H. & Pereyra, V. (1973). SIAM J. Numer. Anal. 10, 413 (variable projection).
 """
 
 from __future__ import annotations
 
 import math
+import warnings
 from typing import Any
 
 import numpy as np
@@ -33,56 +39,106 @@ import numpy as np
 from ..data.record import resolve_options
 from ..errors import DroppedPointsWarning, SettingsError, WeakResultWarning
 from ..spectrum.kernels import loss_kernel, modes_moduli, quadrature_weights, storage_kernel
+from ..spectrum.lsq import levenberg_marquardt
+from ..spectrum.threads import limited
 from ..spectrum.window import outside_mask, supported_window
 from .options import ModesOptions
-from .problem import _NEAR, _NEGLIGIBLE, _TAU_MARGIN, _Fit, _Problem
+from .problem import _NEAR, _NEGLIGIBLE, _TAU_MARGIN, _Fit, _Problem, _Projected
 from .result import ModeCandidate, Modes
-from .starts import _clusters, _grown_starts, _lumps, _nnls_start, _not_duplicate, _peaks
+from .starts import _clusters, _gradient_insert, _grown_starts, _lumps, _nnls_start, _not_duplicate, _peaks
 
 __all__ = ["fit_modes"]
 
 
-def _run_fit(prob: _Problem, g0: np.ndarray, t0: np.ndarray, eta0: float, ge0: float) -> _Fit | None:
-    from scipy.optimize import least_squares
+#: tolerances of the fits that compare starting sets and counts (χ² to about 1e-6 relative: enough to rank
+#: fits and for the F-test), and of the final fit
+_COARSE = {"ftol": 1e-6, "xtol": 1e-7, "gtol": 1e-6}
+_TIGHT = {"ftol": 1e-10, "xtol": 1e-12, "gtol": 1e-8}
 
-    order = np.argsort(t0)
-    g0, t0 = np.asarray(g0, float)[order], np.asarray(t0, float)[order]
-    for _ in range(4):  # drop negligible modes and refit
-        if g0.size == 0:
+
+def _run_fit(prob: _Problem, t0: np.ndarray, tol: dict | None = None) -> _Fit | None:
+    """Fit modes started at the times ``t0`` by variable projection (:data:`_COARSE` unless ``tol``).
+
+    Modes that carry a negligible share of the data, or duplicate another within 1 % in τ, are dropped and
+    the fit repeated (at most four times).  None when no mode is left.
+    """
+    lo, hi = prob.ln_tau_bounds
+    u0 = np.sort(np.log(np.asarray(t0, dtype=float)))
+    for _ in range(4):
+        if u0.size == 0:
             return None
-        x0 = prob.pack(g0, t0, eta0, ge0)
-        lower, upper = prob.bounds(g0.size)
-        x0 = np.clip(x0, lower, upper)
-        res = least_squares(prob.residuals, x0, jac=prob.jacobian, bounds=(lower, upper), method="trf",
-                            x_scale="jac", xtol=1e-8, ftol=1e-10, gtol=1e-8, max_nfev=200 * (x0.size + 1))
-        g, tau, eta_s, G_e = prob.unpack(res.x)
-        # a bound approached from inside (η_s or G_e → 0) is the bound itself
-        eta_s = 0.0 if eta_s < 1e-9 * prob.eta_ref else eta_s
-        G_e = 0.0 if G_e < 1e-9 * prob.G_ref else G_e
-        xt = np.outer(prob.omega, tau)
-        share = np.maximum((storage_kernel(xt) * g / prob.storage[:, None]).max(axis=0),
-                           (loss_kernel(xt) * g / prob.loss[:, None]).max(axis=0))
-        keep = share > _NEGLIGIBLE
-        keep &= _not_duplicate(tau)
-        if keep.all():
-            order = np.argsort(tau)
-            x = prob.pack(g[order], tau[order], eta_s, G_e)
-            return _Fit(g[order], tau[order], float(eta_s), float(G_e), float(np.sum(prob.residuals(x) ** 2)), x)
-        g0, t0, eta0, ge0 = g[keep], tau[keep], eta_s, G_e
+        m = u0.size
+        vp = _Projected(prob)
+        res = levenberg_marquardt(vp, np.clip(u0, lo + 1e-9, hi - 1e-9), np.full(m, lo), np.full(m, hi),
+                                  max_nfev=100 * (m + 1), **(tol or _COARSE))
+        _, c, _ = vp.solve(res.x, False)
+        g, tau = c[:m], np.exp(res.x)
+        k = m
+        eta_s = G_e = 0.0
+        if prob.solvent:
+            eta_s = float(c[k]) * prob.eta_ref
+            k += 1
+        if prob.equilibrium_modulus:
+            G_e = float(c[k]) * prob.G_ref
+        fit, keep = _settle(prob, g, tau, eta_s, G_e)
+        if fit is not None:
+            return fit
+        u0 = np.sort(res.x[keep])
     return None
+
+
+#: evaluations of the short runs that rank starting sets (:func:`_race`), and how many go on to converge from
+#: the starting sets of one count (two) and from the two starts of a path step (one); chosen as the least work
+#: that reaches the optimum of the fit from every start on the cases of tests/test_fit_reference.py
+_RACE_NFEV = 8
+_RACE_KEEP = 2
+_PATH_KEEP = 1
+
+
+def _race(prob: _Problem, starts: list[np.ndarray], keep: int) -> list[_Fit]:
+    """Fits from the ``keep`` most promising ``starts``.
+
+    Each start is run for a few evaluations only, and those ahead after them are run to convergence (the
+    others rarely overtake: checked against the fit from every start in ``tests/test_fit_reference.py``).
+    """
+    lo, hi = prob.ln_tau_bounds
+    scouts = []
+    for t0 in starts:
+        u0 = np.sort(np.log(np.asarray(t0, dtype=float)))
+        if u0.size == 0:
+            continue
+        res = levenberg_marquardt(_Projected(prob), np.clip(u0, lo + 1e-9, hi - 1e-9), np.full(u0.size, lo),
+                                  np.full(u0.size, hi), max_nfev=_RACE_NFEV, **_COARSE)
+        scouts.append((res.cost, np.exp(res.x)))
+    scouts.sort(key=lambda s: s[0])
+    return [f for f in (_run_fit(prob, t) for _, t in scouts[:keep]) if f is not None]
+
+
+def _settle(prob: _Problem, g: np.ndarray, tau: np.ndarray, eta_s: float,
+            G_e: float) -> tuple[_Fit | None, np.ndarray]:
+    """The fit of a converged mode set, or None and the modes to keep when some are negligible or duplicate.
+
+    A mode is negligible when its largest contribution to G' or G'' is below _NEGLIGIBLE of the data, and a
+    duplicate within 1 % in τ of another; η_s or G_e approaching 0 from inside is the bound itself.
+    """
+    eta_s = 0.0 if eta_s < 1e-9 * prob.eta_ref else eta_s
+    G_e = 0.0 if G_e < 1e-9 * prob.G_ref else G_e
+    xt = np.outer(prob.omega, tau)
+    share = np.maximum((storage_kernel(xt) * g / prob.storage[:, None]).max(axis=0),
+                       (loss_kernel(xt) * g / prob.loss[:, None]).max(axis=0))
+    keep = (share > _NEGLIGIBLE) & _not_duplicate(tau)
+    if not keep.all():
+        return None, keep
+    order = np.argsort(tau)
+    x = prob.pack(g[order], tau[order], eta_s, G_e)
+    return _Fit(g[order], tau[order], float(eta_s), float(G_e), float(np.sum(prob.residuals(x) ** 2)), x), keep
 
 
 def _no_modes(prob: _Problem) -> _Fit:
     """The fit with no modes at all: η_s and/or G_e alone by nonnegative linear least squares."""
     from scipy.optimize import nnls
 
-    w = prob.omega
-    cols = []
-    if prob.solvent:
-        cols.append(np.concatenate([np.zeros_like(w), prob.eta_ref * w / prob.loss]))
-    if prob.equilibrium_modulus:
-        cols.append(np.concatenate([prob.G_ref / prob.storage, np.zeros_like(w)]))
-    x, _ = nnls(np.column_stack(cols), prob.target())
+    x, _ = nnls(prob.extra_columns(), prob.target())
     _, _, eta_s, G_e = prob.unpack(x)
     return _Fit(np.array([]), np.array([]), float(eta_s), float(G_e), float(np.sum(prob.residuals(x) ** 2)), x)
 
@@ -118,6 +174,123 @@ def _covariance(prob: _Problem, fit: _Fit) -> np.ndarray:
     return cov
 
 
+class _CountSearch:
+    """The mode-count search of :func:`fit_modes` over one sweep.
+
+    ``grid`` and ``c`` are the starting distribution (H d ln τ of the spectrum, or unregularized NNLS); the
+    resolution limit ``step`` is the least spacing of resolved modes in ln τ; ``significance`` the size of the
+    nested-model F-test.
+    """
+
+    def __init__(self, prob: _Problem, grid: np.ndarray, c: np.ndarray, *, step: float, significance: float):
+        self.prob, self.grid, self.c, self.step, self.significance = prob, grid, c, step, significance
+        self.natural = [_clusters(grid, c), _peaks(grid, c)]
+        self.n_extra = prob.n_extra()
+
+    def f_test(self, fit: _Fit, prev: _Fit) -> tuple[float, float]:
+        """F statistic and p-value of ``fit`` (two more parameters) against ``prev`` (Seber & Wild 1989, §5.3)."""
+        from scipy.stats import f as f_dist
+
+        dof = self.prob.n_data - (2 * fit.n_modes + self.n_extra)
+        drop = max(prev.rss - fit.rss, 0.0)
+        f_stat = (drop / 2.0) / (fit.rss / dof) if fit.rss > 0 else math.inf
+        return float(f_stat), (float(f_dist.sf(f_stat, 2, dof)) if math.isfinite(f_stat) else 0.0)
+
+    def significant(self, fit: _Fit, prev: _Fit) -> bool:
+        """``fit`` improves significantly on ``prev`` by the F-test."""
+        return self.f_test(fit, prev)[1] < self.significance
+
+    def best_fit(self, m: int, prev: _Fit | None, fits: list[_Fit] | None = None,
+                 lumped: bool = False) -> tuple[_Fit | None, bool]:
+        """Best resolved m-mode fit over the starting sets, and whether it is resolved.
+
+        The starting sets: the lumps of the distribution (unless ``lumped``: already among ``fits``), its
+        clusters and peaks of m modes, and ``prev`` with one mode inserted below, above or in the widest gap;
+        then, only when those do not beat ``prev`` significantly (only then can they change the decision),
+        ``prev`` with each mode split in two.
+        """
+        inserts, splits = _grown_starts(self.prob, prev, self.step) if prev is not None and prev.n_modes else ([], [])
+        first = ([] if lumped else [_lumps(self.grid, self.c, m)]) + [s for s in self.natural if s[0].size == m]
+        fits = list(fits or [])
+        best: tuple[_Fit | None, bool] = (None, False)
+        for tier in (first + inserts, splits):
+            starts = [t0 for _, t0 in tier if t0.size]
+            fits += [f for f in _race(self.prob, starts, _RACE_KEEP) if f.n_modes == m]
+            if not fits:
+                continue
+            good = [f for f in fits if _resolved(f, self.step)]
+            best = (min(good, key=lambda f: f.rss), True) if good else (min(fits, key=lambda f: f.rss), False)
+            if prev is None or (best[1] and self.significant(best[0], prev)):
+                break
+        return best
+
+    def next_fit(self, m: int, prev: _Fit | None) -> tuple[_Fit | None, bool, bool]:
+        """The m-mode fit along the path of counts.
+
+        Returns the fit, whether it is resolved, and whether the path step alone found it.  The step fits
+        ``prev`` plus the mode the residual asks for most (:func:`_gradient_insert`), and the lumps of the
+        distribution into m modes; the other starting sets only when neither is resolved and significantly
+        better than ``prev``.
+        """
+        if prev is None or not prev.n_modes:
+            return (*self.best_fit(m, None), False)
+        starts = [_gradient_insert(self.prob, prev, self.grid), _lumps(self.grid, self.c, m)[1]]
+        fits = [f for f in _race(self.prob, starts, _PATH_KEEP) if f.n_modes == m]
+        good = [f for f in fits if _resolved(f, self.step)]
+        if good:
+            fit = min(good, key=lambda f: f.rss)
+            if self.significant(fit, prev):
+                return fit, True, True
+        return (*self.best_fit(m, prev, fits, lumped=True), False)
+
+    def path(self, m_max: int) -> tuple[_Fit | None, list[tuple[_Fit, bool]], bool]:
+        """Counts 0 (with η_s or G_e), 1, 2 … while one more mode is resolved and significant.
+
+        Returns the chosen fit, every count tried (fit, resolved) in order, and whether ``m_max`` was
+        reached.  A count chosen by the path step alone is also fitted from the other starting sets, since
+        the path may have found a poorer optimum there.
+        """
+        tried: list[tuple[_Fit, bool]] = []
+        prev: _Fit | None = None
+        from_path = False
+        if self.n_extra:  # the set with no mode at all (η_s and/or G_e alone) is the first candidate
+            prev = _no_modes(self.prob)
+            tried.append((prev, True))
+        limit = True
+        for m in range(1, m_max + 1):
+            fit, ok, path_step = self.next_fit(m, prev)
+            if fit is None:
+                limit = False
+                break
+            tried.append((fit, ok))
+            if prev is not None and (not ok or not self.significant(fit, prev)):
+                limit = False
+                break
+            prev, from_path = fit, path_step
+            if not ok:  # the first count, unresolved
+                limit = False
+                break
+        if prev is not None and prev.n_modes and from_path:
+            k = next(i for i, (f, _) in enumerate(tried) if f is prev)
+            before = tried[k - 1][0] if k > 0 else None
+            polished, ok = self.best_fit(prev.n_modes, before if before is not None and before.n_modes else None,
+                                         [prev], lumped=True)
+            if polished is not None and ok and polished.rss < prev.rss:
+                tried[k] = (polished, True)
+                prev = polished
+        return prev, tried, limit
+
+    def candidates(self, tried: list[tuple[_Fit, bool]]) -> list[ModeCandidate]:
+        """The record of every count tried, each with its F-test against the one before."""
+        out = []
+        for i, (fit, ok) in enumerate(tried):
+            f_stat, p_value = self.f_test(fit, tried[i - 1][0]) if i > 0 else (math.nan, math.nan)
+            out.append(ModeCandidate(n_modes=fit.n_modes, rss=fit.rss, n_params=2 * fit.n_modes + self.n_extra,
+                                     f_stat=float(f_stat), p_value=p_value, resolved=ok))
+        return out
+
+
+@limited
 def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = None, **changes: Any) -> Modes:
     """Fit nonnegative discrete Maxwell modes to a frequency sweep.
 
@@ -155,17 +328,39 @@ def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = N
     Seber, G. A. F. & Wild, C. J. (1989). *Nonlinear Regression*, Wiley, §5.3 (section from memory).
     Davies, A. R. & Anderssen, R. S. (1997). J. Non-Newtonian Fluid Mech. 73, 163.
     """
-    import warnings
-
-    from scipy.stats import f as f_dist
-
     opts = resolve_options(ModesOptions, options, changes, "fit_modes()")
     dropped = None
     if opts.omega_min is not None or opts.omega_max is not None:
         sweep, dropped = sweep.restrict(opts.omega_min, opts.omega_max)
         if dropped:
             warnings.warn(f"{sweep.source or sweep.name}: {dropped}", DroppedPointsWarning, stacklevel=2)
-    eta_s, per_decade, significance, n_modes = opts.eta_s, opts.per_decade, opts.significance, opts.n_modes
+    prob, m_max, source = _setup(sweep, opts)
+    grid, c, start = _start_distribution(prob, spectrum, source)
+    search = _CountSearch(prob, grid, c, step=math.log(10.0) / opts.per_decade, significance=opts.significance)
+    loud: list[str] = []  # also issued as WeakResultWarning
+    if opts.n_modes is not None:
+        chosen, ok = search.best_fit(opts.n_modes, None)
+        if chosen is None:
+            for m in range(1, opts.n_modes + 1):
+                chosen, ok = search.best_fit(m, chosen)
+        if chosen is None:
+            raise SettingsError(f"no fit with {opts.n_modes} modes converged", source)
+        tried = [(chosen, ok)]
+    else:
+        chosen, tried, limit = search.path(m_max)
+        if chosen is None:
+            raise SettingsError("no Maxwell-mode fit converged for these data", source)
+        loud += _count_notes(prob, chosen, m_max, limit)
+    if chosen.n_modes:  # the chosen set to full precision (the search compares fits to about 1e-6)
+        final = _run_fit(prob, chosen.tau, _TIGHT)
+        if final is not None and final.n_modes == chosen.n_modes and final.rss <= chosen.rss:
+            chosen = final
+    return _result(sweep, prob, chosen, search.candidates(tried), start, opts, loud, [dropped] if dropped else [])
+
+
+def _setup(sweep: Any, opts: ModesOptions) -> tuple[_Problem, int, str]:
+    """The problem of one sweep, the largest mode count the data resolve, and the source for messages."""
+    eta_s = opts.eta_s
     solvent = opts.solvent and eta_s is None  # a known η_s is held, not fitted
     equilibrium = opts.equilibrium_modulus
     omega = np.asarray(sweep.omega, dtype=float)
@@ -176,12 +371,10 @@ def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = N
     n_data = 2 * omega.size
     n_extra = int(solvent) + int(equilibrium)
     # at most per_decade modes per measured decade (plus one), and at least 3 residual degrees of freedom
-    m_max = max(1, min(int(math.floor(per_decade * decades)) + 1, (n_data - n_extra - 3) // 2))
-    if n_modes is not None:
-        if not 1 <= int(n_modes) <= (n_data - n_extra - 1) // 2:
-            raise SettingsError(f"n_modes must be between 1 and {(n_data - n_extra - 1) // 2} for "
-                                f"{omega.size} points (got {n_modes!r})", source)
-        n_modes = int(n_modes)
+    m_max = max(1, min(int(math.floor(opts.per_decade * decades)) + 1, (n_data - n_extra - 3) // 2))
+    if opts.n_modes is not None and not 1 <= opts.n_modes <= (n_data - n_extra - 1) // 2:
+        raise SettingsError(f"n_modes must be between 1 and {(n_data - n_extra - 1) // 2} for "
+                            f"{omega.size} points (got {opts.n_modes!r})", source)
     prob = _Problem(
         omega=omega, storage=storage, loss=loss, solvent=solvent, equilibrium_modulus=equilibrium,
         eta_ref=float(loss[-1] / omega[-1]), G_ref=float(storage[0]),
@@ -194,106 +387,43 @@ def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = N
                      math.log(_TAU_MARGIN * 100.0 * float(max(storage.max(), loss.max())))),
         eta_known=float(eta_s or 0.0),
     )
-    step = math.log(10.0) / per_decade
-    min_spacing = step
+    return prob, m_max, source
 
-    # starting distribution c(τ) on a grid, and starting η_s, G_e
+
+def _start_distribution(prob: _Problem, spectrum: Any, source: str) -> tuple[np.ndarray, np.ndarray, str]:
+    """The starting distribution c(τ) on a grid (H d ln τ of the spectrum, or unregularized NNLS) and its name."""
     if spectrum is not None:
         grid = np.asarray(spectrum.tau, dtype=float)
         c = np.maximum(np.asarray(spectrum.H, dtype=float), 0.0) * quadrature_weights(grid)
-        eta_start = float(getattr(spectrum, "eta_s", 0.0) or 0.0)
-        ge_start = float(getattr(spectrum, "G_e", 0.0) or 0.0)
-        start = "spectrum"
         if not np.any(c > 0):
             raise SettingsError("the continuous spectrum is zero everywhere; nothing to start the modes from", source)
-    else:
-        grid, c, eta_start, ge_start = _nnls_start(prob)
-        start = "nnls"
-        if not np.any(c > 0):  # all explained by η_s / G_e: still try one mode
-            c = np.zeros_like(grid)
-            c[grid.size // 2] = float(np.median(storage))
-    natural = [_clusters(grid, c), _peaks(grid, c)]
+        return grid, c, "spectrum"
+    grid, c, _, _ = _nnls_start(prob)
+    if not np.any(c > 0):  # all explained by η_s / G_e: still try one mode
+        c = np.zeros_like(grid)
+        c[grid.size // 2] = float(np.median(prob.storage))
+    return grid, c, "nnls"
 
-    def f_test(fit: _Fit, prev: _Fit) -> tuple[float, float]:
-        """F statistic and p-value of ``fit`` (two more parameters) against ``prev``."""
-        dof = n_data - (2 * fit.n_modes + n_extra)
-        drop = max(prev.rss - fit.rss, 0.0)
-        f_stat = (drop / 2.0) / (fit.rss / dof) if fit.rss > 0 else math.inf
-        return float(f_stat), (float(f_dist.sf(f_stat, 2, dof)) if math.isfinite(f_stat) else 0.0)
 
-    def best_fit(m: int, prev: _Fit | None) -> tuple[_Fit | None, bool]:
-        """Best resolved m-mode fit over the starting sets.
+def _count_notes(prob: _Problem, chosen: _Fit, m_max: int, limit: bool) -> list[str]:
+    """Warnings about the chosen count: at the resolution limit, or no mode at all."""
+    out = []
+    if limit:
+        decades = math.log10(prob.omega[-1] / prob.omega[0])
+        out.append(f"the mode count reached its resolution limit ({m_max} modes for {decades:.2g} "
+                   f"decades); more modes might still improve the fit")
+    if chosen.n_modes == 0:
+        alone = " and ".join(n for n, on in (("eta_s", prob.solvent), ("G_e", prob.equilibrium_modulus)) if on)
+        out.append(f"no Maxwell mode improves significantly on {alone} alone; the result has no modes")
+    return out
 
-        The splits are tried only when the other starts do not already beat ``prev`` significantly: only
-        then can they change the decision.
-        """
-        inserts, splits = _grown_starts(prob, prev, step) if prev is not None and prev.n_modes else ([], [])
-        tiers = [[_lumps(grid, c, m)] + [s for s in natural if s[0].size == m] + inserts, splits]
-        fits: list[_Fit] = []
-        best: tuple[_Fit | None, bool] = (None, False)
-        for tier in tiers:
-            for g0, t0 in tier:
-                if g0.size == 0:
-                    continue
-                fit = _run_fit(prob, g0, t0, eta_start, ge_start)
-                if fit is not None and fit.n_modes == m:
-                    fits.append(fit)
-            if not fits:
-                continue
-            good = [f for f in fits if _resolved(f, min_spacing)]
-            best = (min(good, key=lambda f: f.rss), True) if good else (min(fits, key=lambda f: f.rss), False)
-            if prev is None or (best[1] and f_test(best[0], prev)[1] < significance):
-                break
-        return best
 
-    candidates: list[ModeCandidate] = []
-    notes: list[str] = []  # recorded in the result
-    loud: list[str] = []  # also issued as WeakResultWarning
-    chosen: _Fit | None = None
-    if n_modes is not None:
-        chosen, ok = best_fit(n_modes, None)
-        if chosen is None:
-            for m in range(1, n_modes + 1):
-                chosen, ok = best_fit(m, chosen)
-        if chosen is None:
-            raise SettingsError(f"no fit with {n_modes} modes converged", source)
-        candidates.append(ModeCandidate(n_modes=chosen.n_modes, rss=chosen.rss,
-                                        n_params=2 * chosen.n_modes + n_extra, f_stat=math.nan,
-                                        p_value=math.nan, resolved=ok))
-    else:
-        prev: _Fit | None = None
-        if n_extra:  # the set with no mode at all (η_s and/or G_e alone) is the first candidate
-            prev = _no_modes(prob)
-            candidates.append(ModeCandidate(n_modes=0, rss=prev.rss, n_params=n_extra, f_stat=math.nan,
-                                            p_value=math.nan, resolved=True))
-        for m in range(1, m_max + 1):
-            fit, ok = best_fit(m, prev if prev is not None and prev.n_modes else None)
-            if fit is None:
-                break
-            p_new = 2 * m + n_extra
-            if prev is None:
-                candidates.append(ModeCandidate(n_modes=m, rss=fit.rss, n_params=p_new, f_stat=math.nan,
-                                                p_value=math.nan, resolved=ok))
-                prev = fit
-                if not ok:
-                    break
-                continue
-            f_stat, p_value = f_test(fit, prev)
-            candidates.append(ModeCandidate(n_modes=m, rss=fit.rss, n_params=p_new, f_stat=float(f_stat),
-                                            p_value=p_value, resolved=ok))
-            if not ok or p_value >= significance:
-                break
-            prev = fit
-        else:
-            loud.append(f"the mode count reached its resolution limit ({m_max} modes for {decades:.2g} "
-                        f"decades); more modes might still improve the fit")
-        chosen = prev
-        if chosen is None:
-            raise SettingsError("no Maxwell-mode fit converged for these data", source)
-        if chosen.n_modes == 0:
-            alone = " and ".join(n for n, on in (("eta_s", solvent), ("G_e", equilibrium)) if on)
-            loud.append(f"no Maxwell mode improves significantly on {alone} alone; the result has no modes")
+def _result(sweep: Any, prob: _Problem, chosen: _Fit, candidates: list[ModeCandidate], start: str,
+            opts: ModesOptions, loud: list[str], said: list[str] | None = None) -> Modes:
+    """The :class:`Modes` of the chosen fit: standard errors, window flags and warnings.
 
+    ``loud`` are issued as warnings and recorded; ``said`` (issued already) are recorded first.
+    """
     cov = _covariance(prob, chosen)
     m = chosen.n_modes
     se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
@@ -302,15 +432,18 @@ def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = N
     tau_se = chosen.tau * se[m:2 * m]
     k = 2 * m
     eta_se = ge_se = 0.0
-    if solvent:
+    if prob.solvent:
         eta_se = float(se[k] * prob.eta_ref)
         k += 1
-    if equilibrium:
+    if prob.equilibrium_modulus:
         ge_se = float(se[k] * prob.G_ref)
+    omega = prob.omega
     window = supported_window(omega)
     outside = outside_mask(chosen.tau, window)
     gp, gpp = modes_moduli(omega, chosen.g, chosen.tau, eta_s=chosen.eta_s, G_e=chosen.G_e)
-    rms = float(math.sqrt(chosen.rss / n_data))
+    rms = float(math.sqrt(chosen.rss / prob.n_data))
+    notes: list[str] = []  # recorded in the result
+    loud = list(loud)
     if rms > 0.1:
         loud.append(f"the modes fit the data poorly (relative rms residual {100 * rms:.0f} %)")
     if outside.any():
@@ -318,13 +451,14 @@ def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = N
                      f"{window[0]:.3g}–{window[1]:.3g} s; the data do not determine them")
     if not window[0] < window[1]:
         loud.append("the sweep spans less than e^π in frequency, so no relaxation time is supported")
+    source = str(getattr(sweep, "source", "") or getattr(sweep, "name", ""))
     for note in loud:
-        warnings.warn(f"{source}: {note}" if source else note, WeakResultWarning, stacklevel=2)
+        warnings.warn(f"{source}: {note}" if source else note, WeakResultWarning, stacklevel=3)
     return Modes(
         g=chosen.g, tau=chosen.tau, g_se=g_se, tau_se=tau_se, eta_s=chosen.eta_s + prob.eta_known, eta_s_se=eta_se,
         G_e=chosen.G_e, G_e_se=ge_se, window=window, outside_window=outside, residual_rms=rms,
-        omega=omega, storage=storage, loss=loss, storage_fit=gp, loss_fit=gpp, candidates=tuple(candidates),
-        start=start, options=opts,
+        omega=omega, storage=prob.storage, loss=prob.loss, storage_fit=gp, loss_fit=gpp,
+        candidates=tuple(candidates), start=start, options=opts,
         sample=str(getattr(sweep, "name", "")), source=str(getattr(sweep, "source", "")),
-        warnings=tuple(([dropped] if dropped else []) + loud + notes),
+        warnings=tuple((said or []) + loud + notes),
     )

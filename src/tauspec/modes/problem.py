@@ -1,4 +1,16 @@
-"""The nonlinear least-squares problem of discrete Maxwell modes: parameters, residuals, Jacobian, bounds."""
+"""The nonlinear least-squares problem of discrete Maxwell modes: parameters, residuals, Jacobian, bounds.
+
+For given relaxation times τ_i the mode strengths g_i ≥ 0, η_s ≥ 0 and G_e ≥ 0 enter the relative residuals
+linearly: r = B(τ) c − y with the columns [K'(ωτ_i)/G'; K''(ωτ_i)/G''] of the Maxwell kernels, [0; ω/G'']
+and [1/G'; 0].  :class:`_Projected` solves them by nonnegative least squares inside every evaluation, so the
+outer problem has only the log-times (variable projection, Golub & Pereyra 1973, 2003), and differentiates
+the projected residual with the closed-form kernel derivatives (:func:`~tauspec.spectrum.kernels.kernel_block`).
+
+References
+----------
+Golub, G. H. & Pereyra, V. (1973). SIAM J. Numer. Anal. 10, 413–432.
+Golub, G. H. & Pereyra, V. (2003). Inverse Problems 19, R1–R26.
+"""
 
 from __future__ import annotations
 
@@ -6,7 +18,8 @@ import dataclasses
 
 import numpy as np
 
-from ..spectrum.kernels import loss_kernel, modes_moduli, storage_kernel
+from ..spectrum.kernels import kernel_block, loss_kernel, modes_moduli, storage_kernel
+from ..spectrum.lsq import nnls_small, projected_jacobian
 
 __all__ = []
 
@@ -103,6 +116,16 @@ class _Problem:
             parts.append([max(G_e, 0.0) / self.G_ref])
         return np.concatenate([np.asarray(p, dtype=float) for p in parts])
 
+    def extra_columns(self) -> np.ndarray:
+        """The columns of η_s/η_ref and G_e/G_ref in the relative residuals."""
+        n = self.omega.size
+        cols = []
+        if self.solvent:
+            cols.append(np.concatenate([np.zeros(n), self.eta_ref * self.omega / self.loss]))
+        if self.equilibrium_modulus:
+            cols.append(np.concatenate([self.G_ref / self.storage, np.zeros(n)]))
+        return np.column_stack(cols) if cols else np.zeros((2 * n, 0))
+
     def bounds(self, m: int) -> tuple[np.ndarray, np.ndarray]:
         lo, hi = self.ln_tau_bounds
         glo, ghi = self.ln_g_bounds
@@ -123,3 +146,41 @@ class _Fit:
     @property
     def n_modes(self) -> int:
         return int(self.g.size)
+
+
+class _Projected:
+    """r(ln τ) with (g, η_s, G_e) ≥ 0 projected out, and its Jacobian (eq. (1) of :mod:`tauspec.spectrum.lsq`).
+
+    Calling it returns (r, ∂r/∂ln τ) for :func:`~tauspec.spectrum.lsq.levenberg_marquardt`; ``c`` holds the
+    linear coefficients of the last evaluation (g, η_s/η_ref, G_e/G_ref), whose positive set starts the next
+    nonnegative solve.
+    """
+
+    def __init__(self, prob: _Problem):
+        self.prob = prob
+        self.extra = prob.extra_columns()
+        self.y = prob.target()
+        self.inv = np.concatenate([1.0 / prob.storage, 1.0 / prob.loss])[:, None]
+        self.n = prob.omega.size
+        self.free: np.ndarray | None = None
+        self.c = np.zeros(0)
+
+    def solve(self, ln_tau: np.ndarray, deriv: bool) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+        """Residual, linear coefficients and (with ``deriv``) the Jacobian at the log-times ``ln_tau``."""
+        m, n = ln_tau.size, self.n
+        K = kernel_block(self.prob.omega, np.exp(ln_tau), deriv)
+        B = np.hstack([K[:2 * n] * self.inv, self.extra])
+        free = self.free if self.free is not None and self.free.size == B.shape[1] else None
+        c, free, factor = nnls_small(B, self.y, free)
+        self.free, self.c = free, c
+        r = B @ c - self.y
+        if not deriv:
+            return r, c, None
+        D = K[2 * n:] * self.inv  # ∂(mode column)/∂ln τ: each column depends on its own τ only
+        dBt_r = np.zeros((B.shape[1], m))
+        dBt_r[np.arange(m), np.arange(m)] = r @ D
+        return r, c, projected_jacobian(B, c, free, r, D * c[:m], dBt_r, factor)
+
+    def __call__(self, ln_tau: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        r, _, J = self.solve(ln_tau, True)
+        return r, J

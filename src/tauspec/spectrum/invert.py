@@ -33,6 +33,7 @@ from .problem import Problem, build_problem, strength_path
 from .regularize import PathSolution, TikhonovPath, objective, solve_cvxpy
 from .result import LCurve, Spectrum
 from .rules import RULES
+from .threads import blas_limit
 from .window import default_grid, supported_window
 
 __all__ = ["invert", "runs_test"]
@@ -110,7 +111,8 @@ def invert(sweep: Sweep, options: InvertOptions | None = None, **changes: Any) -
     else:
         tau = np.asarray(opts.grid, dtype=float)
     problem = build_problem(sweep, tau, opts)
-    strengths, X, res, sol, dof = _path(problem, opts)
+    with blas_limit(problem.A.shape[1]):  # one BLAS thread for a problem this small (spectrum.threads)
+        strengths, X, res, sol, dof = _path(problem, opts)
     m = len(problem.b)
     choices = {name: rule(strengths, res, sol, dof, m) for name, rule in RULES.items()}
     notes: list[str] = []
@@ -124,7 +126,8 @@ def invert(sweep: Sweep, options: InvertOptions | None = None, **changes: Any) -
             notes.append(note)
     else:
         strength = float(opts.strength)
-        x = _solve_at(problem, opts, strength)
+        with blas_limit(problem.A.shape[1]):
+            x = _solve_at(problem, opts, strength)
         idx = int(np.argmin(np.abs(np.log(strengths / strength))))
         chosen_by, note = "fixed", "strength fixed by the user"
     H, eta_fit, G_e = _unpack(problem, opts, x)

@@ -23,6 +23,7 @@ __all__ = [
     "spectrum_matrix",
     "spectrum_moduli",
     "modes_moduli",
+    "kernel_block",
 ]
 
 
@@ -118,3 +119,31 @@ def modes_moduli(
     x = np.outer(omega, np.asarray(tau, dtype=float))
     g = np.asarray(g, dtype=float)
     return _safe_storage(x) @ g + G_e, loss_kernel(x) @ g + eta_s * omega
+
+
+def kernel_block(omega: np.ndarray, tau: np.ndarray, deriv: bool = False) -> np.ndarray:
+    """Return the stacked Maxwell kernels [K'; K''] at x = ω τ (rows ω, columns τ), with ``deriv`` more.
+
+    With ``deriv`` their derivatives in ln τ follow below them: [K'; K''; ∂K'/∂ln τ; ∂K''/∂ln τ].
+
+    K' = x²/(1 + x²), K'' = x/(1 + x²) (Ferry 1980, ch. 3); differentiating in ln τ (x ∂/∂x) gives the
+    closed forms ∂K'/∂ln τ = 2K'(1 − K') and ∂K''/∂ln τ = K''(1 − 2K'), which the variable-projection fits of
+    modes and chains use as their analytic Jacobians.  For x beyond about 1e150 (far outside any sweep) x²
+    overflows; the fits keep ωτ within 1e30.
+    """
+    x = np.multiply.outer(np.asarray(omega, dtype=float), np.asarray(tau, dtype=float))
+    m = x.shape[0]
+    x2 = x * x
+    d = x2 + 1.0
+    np.reciprocal(d, out=d)  # 1/(1 + x²) = 1 − K'
+    out = np.empty((4 * m if deriv else 2 * m, x.shape[1]))
+    kp, kpp = out[:m], out[m:2 * m]
+    np.multiply(x2, d, out=kp)
+    np.multiply(x, d, out=kpp)
+    if deriv:
+        dp, dpp = out[2 * m:3 * m], out[3 * m:]
+        np.multiply(kp, d, out=dp)
+        dp *= 2.0
+        np.subtract(d, kp, out=dpp)  # 1 − 2K'
+        dpp *= kpp
+    return out

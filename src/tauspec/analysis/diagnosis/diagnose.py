@@ -34,6 +34,7 @@ from ...models.beadspring import ROUSE_MODELS, ZIMM_MODELS, BeadSpringFit, fit_a
 from ...models.bounds import checked_interval
 from ...models.chains import FORM_NAMES
 from ...models.intervals import add_intervals, jacobian_intervals
+from ...spectrum.threads import limited
 from .describe import describability_evidence
 from .entanglement import Entanglement, analyse_entanglement, bsw_estimate
 from .evidence import Evidence, _fmt_value, _g, _gather, best_model, entanglement_evidence
@@ -202,6 +203,7 @@ def rouse_form_preference(fits: Mapping[str, BeadSpringFit]) -> tuple[str, float
     return FORM_NAMES[best.form], float(other.bic - best.bic)
 
 
+@limited
 def diagnose(sweep: Sweep, options: DiagnoseOptions | None = None, *, spectrum: Any = None,
              **changes: Any) -> Diagnosis:
     """Decide whether the unentangled bead-spring (Rouse) description holds for one sweep.

@@ -16,6 +16,7 @@ from ...errors import SettingsError, TauspecError, WeakResultWarning
 from ...spectrum.invert import invert
 from ...spectrum.options import InvertOptions
 from ...spectrum.result import Spectrum
+from ...spectrum.threads import one_thread
 from .noise import MAX_NOISE, Noise, _given_noise, estimate_noise
 from .options import METHODS
 from .statistics import Statistic, _evaluate
@@ -89,10 +90,8 @@ def _run_resamples(design: _Design, seeds: Sequence[np.random.SeedSequence],
     BLAS is limited to one thread so that the floating-point result of every
     resample does not depend on the process it runs in.  ``progress(1)`` is called after each resample.
     """
-    from threadpoolctl import threadpool_limits
-
     out: list[tuple[Any, ...]] = []
-    with threadpool_limits(limits=1):
+    with one_thread():
         for ss in seeds:
             rng = np.random.default_rng(ss)
             with warnings.catch_warnings(record=True) as caught:

@@ -1,0 +1,117 @@
+"""The variable-projection fits reach the optimum of the fits they replaced, on the cases of the test suite.
+
+The reference implementations (``benchmarks/reference/``: least squares in all parameters with
+finite-difference Jacobians, several starts) are today's fits before variable projection.  On every case below
+the new fit's misfit (sum of squared relative residuals) must not exceed the reference's by more than 1e-6 of
+it (plus 1e-24 per point: exact data, where both are at rounding level), and the discrete-mode fit must choose
+the same number of modes.  A lower misfit is allowed: the new search over whole-number segments of N finds
+better optima of the chain models where the reference stopped in a neighbouring segment.
+"""
+
+from __future__ import annotations
+
+import sys
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import synthetic as sy
+import synthetic_sweeps as ss
+from tauspec.data.sweep import Sweep
+from tauspec.models.beadspring import MODELS, fit_all
+from tauspec.models.chains import rouse_moduli, zimm_moduli
+from tauspec.modes.fit import fit_modes
+from tauspec.spectrum.invert import invert
+from tauspec.spectrum.kernels import modes_moduli
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks" / "reference"))
+import chain_fits as chain_reference  # noqa: E402
+import modes_fit as modes_reference  # noqa: E402
+
+
+def _same_optimum(new: float, ref: float, n: int) -> bool:
+    return new <= ref * (1 + 1e-6) + 1e-24 * n
+
+
+def _rouse(N, eta=0.0, noise=0.0, seed=0):
+    w = np.geomspace(0.01, 1000.0, 40)
+    gp, gpp = rouse_moduli(w, 1.0, 1.0, N, eta_s=eta)
+    rng = np.random.default_rng(seed)
+    return w, gp * (1 + noise * rng.standard_normal(40)), gpp * (1 + noise * rng.standard_normal(40))
+
+
+def _chain_cases():
+    # the sweeps of test_beadspring.py and test_diagnosis.py (exact and noisy Rouse, Zimm, BSW, gels, one Maxwell
+    # mode, log-normal spectra)
+    w = np.geomspace(0.01, 1000, 40)
+    cases = {"rouse-30": _rouse(30, 0.002), "rouse-37": _rouse(37, 0.002), "rouse-25-noisy": _rouse(25, 0.01, 0.01),
+             "zimm-100": (w, *zimm_moduli(w, 1.0, 1.0, 100, nu=0.588))}
+    sweeps = [ss.rouse_sweep(s)[0] for s in (1, 2, 5, 8, 13, 21)] + [ss.rouse_sweep(99, N=15)[0]]
+    sweeps += [ss.zimm_sweep(s, nu)[0] for s, nu in ((31, 0.5), (32, 0.5), (41, 0.588), (42, 0.588))]
+    sweeps += [ss.bsw_sweep(s)[0] for s in (51, 52, 53)] + [ss.gel_sweep(61, n)[0] for n in (0.35, 0.5)]
+    sweeps += [ss.maxwell_sweep(71)[0], ss.lognormal_sweep(81)[0]]
+    cases.update({sw.name or f"sweep-{i}": (sw.omega, sw.storage, sw.loss) for i, sw in enumerate(sweeps)})
+    return cases
+
+
+CHAIN_CASES = _chain_cases()
+
+
+@pytest.mark.parametrize("name", sorted(CHAIN_CASES))
+def test_chain_fits_reach_the_reference_optimum(name):
+    w, gp, gpp = CHAIN_CASES[name]
+    new = fit_all(w, gp, gpp)
+    ref = chain_reference.fit_all(w, gp, gpp)
+    for model in MODELS:
+        assert _same_optimum(new[model].chi2, ref[model].chi2, 2 * w.size), (model, new[model].chi2, ref[model].chi2)
+
+
+def _three(seed, omega=None):
+    omega = np.geomspace(1e-3, 1e3, 61) if omega is None else omega
+    gp, gpp = modes_moduli(omega, [1e5, 1e4, 1e3], [0.01, 1.0, 100.0])
+    return sy.noisy_sweep(omega, gp, gpp, 0.01, seed)
+
+
+def _modes_cases():
+    # the sweeps of test_modes.py and test_derived.py, with their options and starting spectra
+    w = np.geomspace(1e-2, 1e2, 41)
+    one = modes_moduli(w, [1e3], [1.0], eta_s=0.5)
+    solid = modes_moduli(w, [1e4], [1.0], G_e=500.0)
+    w3 = np.geomspace(1e-2, 1e2, 31)
+    wn = np.geomspace(1.0, 10.0, 12)
+    narrow = modes_moduli(wn, [1e3], [0.3])
+    cases = {f"maxwell-{s}": (sy.noisy_sweep(w, *one, 0.01, s), None, {}) for s in range(3)}
+    cases.update({f"three-{s}": (_three(s), None, {}) for s in range(5)})
+    cases.update({f"three-{s}-fixed": (_three(s), None, {"n_modes": 3}) for s in (0, 5, 9)})
+    cases["three-7-two"] = (_three(7), None, {"n_modes": 2})
+    cases["window"] = (_three(3, np.geomspace(1e-2, 1e3, 51)), None, {})
+    cases["known-eta"] = (sy.noisy_sweep(w, *one, 0.01, 6), None, {"eta_s": 0.5})
+    cases["solid"] = (sy.noisy_sweep(w, *solid, 0.01, 2), None, {"equilibrium_modulus": True, "solvent": False})
+    cases["kelvin-voigt"] = (sy.noisy_sweep(w3, np.full(31, 500.0), 2.0 * w3, 0.01, 4), None,
+                             {"equilibrium_modulus": True})
+    cases["narrow"] = (Sweep(omega=wn, storage=narrow[0], loss=narrow[1]), None, {})
+    for s in range(3):
+        cases[f"rouse-{s}"] = (sy.rouse_sweep(s, G0=1e3, tau_1=10.0, N=200, eta_s=3000.0), None, {})
+        cases[f"lognormal-{s}"] = (sy.lognormal_sweep(s), None, {})
+    for s in (0, 2, 3):
+        sw = sy.lognormal_sweep(s)
+        cases[f"lognormal-{s}-spectrum"] = (sw, "invert", {})
+    return cases
+
+
+MODES_CASES = _modes_cases()
+
+
+@pytest.mark.parametrize("name", sorted(MODES_CASES))
+def test_modes_reach_the_reference_optimum(name):
+    sweep, spectrum, kw = MODES_CASES[name]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        spec = invert(sweep) if spectrum == "invert" else None
+        new = fit_modes(sweep, spec, **kw)
+        ref = modes_reference.fit_modes(sweep, spec, **kw)
+    assert new.n_modes == ref.n_modes
+    n = 2 * len(sweep)
+    assert _same_optimum(n * new.residual_rms**2, n * ref.residual_rms**2, n), (new.residual_rms, ref.residual_rms)
