@@ -15,8 +15,9 @@ from collections.abc import Sequence
 import numpy as np
 from scipy import optimize, stats
 
-from tauspec.models.beadspring import MODELS, BeadSpringFit, _make_fit, _terminal_tau_estimate
+from tauspec.models.beadspring import MODELS, _make_fit, _terminal_tau_estimate
 from tauspec.models.beadspring import _Problem as _NewProblem
+from tauspec.models.chainfit import BeadSpringFit
 from tauspec.models.chains import N_MAX, TAIL_EPS, mode_positions
 from tauspec.models.intervals import _finish, _log_interval, _threshold
 from tauspec.spectrum.kernels import modes_moduli

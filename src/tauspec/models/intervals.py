@@ -22,7 +22,8 @@ from scipy import stats
 
 from ..spectrum.lsq import levenberg_marquardt
 from ..spectrum.threads import limited
-from .beadspring import MODELS, BeadSpringFit, _Problem
+from .beadspring import MODELS, _Problem
+from .chainfit import BeadSpringFit
 from .chains import N_MAX
 
 __all__ = ["jacobian_intervals", "add_intervals"]

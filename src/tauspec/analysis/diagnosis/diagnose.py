@@ -30,8 +30,9 @@ from ...data.sweep import Sweep
 from ...data.units import density_kg_m3, molar_mass_g_mol
 from ...errors import DroppedPointsWarning, SettingsError, SweepError, TauspecError, WeakResultWarning
 from ...models import signatures as sg
-from ...models.beadspring import ROUSE_MODELS, ZIMM_MODELS, BeadSpringFit, fit_all
+from ...models.beadspring import ROUSE_MODELS, ZIMM_MODELS, fit_all
 from ...models.bounds import checked_interval
+from ...models.chainfit import BeadSpringFit
 from ...models.chains import FORM_NAMES
 from ...models.intervals import add_intervals, jacobian_intervals
 from ...spectrum.threads import limited

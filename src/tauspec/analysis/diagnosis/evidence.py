@@ -12,7 +12,8 @@ from scipy import stats
 from ...data.record import record
 from ...data.sweep import Sweep
 from ...models import signatures as sg
-from ...models.beadspring import ROUSE_MODELS, ZIMM_MODELS, BeadSpringFit
+from ...models.beadspring import ROUSE_MODELS, ZIMM_MODELS
+from ...models.chainfit import BeadSpringFit
 from ...models.chains import FORM_NAMES, NU_GOOD, power_tail
 from ...spectrum.kernels import quadrature_weights
 from .entanglement import describes
@@ -144,6 +145,36 @@ def _gather(sweep: Sweep, fits: Mapping[str, BeadSpringFit], general: BeadSpring
             free: sg.SparseModes, spectrum: Any, spectrum_note: str) -> list[Evidence]:
     T = THRESHOLDS
     w, gp, gpp = sweep.omega, sweep.storage, sweep.loss
+    ev = _data_evidence(sweep, free)
+    rouse = fits[best_model(fits, ROUSE_MODELS)]
+    ev += _chain_evidence(w, fits, general, free)
+    # tests on the recovered spectrum
+    if spectrum is None:
+        ev.append(Evidence(test="spectrum_slope", value=None, expected="-0.5 (Rouse)", passed=None,
+                           note=spectrum_note))
+        ev.append(Evidence(test="spectrum_slope_zimm", value=None, expected="-0.667 (theta) or -0.567 (good)",
+                           passed=None, note=spectrum_note))
+    else:
+        best = min(fits.values(), key=lambda f: f.bic)
+        slope, note = _spectrum_slope(spectrum, best)
+        has = math.isfinite(slope)
+        ev.append(Evidence(test="spectrum_slope", value=_num(slope), expected="-0.5 (Rouse)",
+                           passed=(abs(slope + 0.5) <= T["slope_tol"]) if has else None, note=note))
+        ev.append(Evidence(test="spectrum_slope_zimm", value=_num(slope), expected="-0.667 (theta) or -0.567 (good)",
+                           passed=(min(abs(slope + 2 / 3), abs(slope + 1 / 1.764)) <= T["slope_tol"]) if has
+                           else None, note=note))
+
+    # terminal mode ratios from the sparse discrete spectrum
+    ev.extend(_mode_ratio_evidence(free, rouse, w))
+
+    ev.extend(_asymptote_evidence(w, gp, gpp, min(fits.values(), key=lambda f: f.bic), rouse))
+    return ev
+
+
+def _data_evidence(sweep: Sweep, free: sg.SparseModes) -> list[Evidence]:
+    """The data-level signatures: window, terminal slopes, plateau, critical gel, solid plateau, single mode."""
+    T = THRESHOLDS
+    w, gp, gpp = sweep.omega, sweep.storage, sweep.loss
     ev: list[Evidence] = []
     dec = sweep.decades
     ev.append(Evidence(test="window_decades", value=dec, expected=f">= {T['min_decades']:g} decades",
@@ -188,6 +219,14 @@ def _gather(sweep: Sweep, fits: Mapping[str, BeadSpringFit], general: BeadSpring
                        note=f"{len(g_in)} discrete modes with 1/omega_max <= tau <= 1/omega_min "
                             "(unregularized NNLS, Jakes 1995)"))
 
+    return ev
+
+
+def _chain_evidence(w: np.ndarray, fits: Mapping[str, BeadSpringFit], general: BeadSpringFit,
+                    free: sg.SparseModes) -> list[Evidence]:
+    """The chain fits: the bead-spring region, adequacy against the free spectrum, Rouse against Zimm, exponent."""
+    T = THRESHOLDS
+    ev: list[Evidence] = []
     rouse = fits[best_model(fits, ROUSE_MODELS)]
     inter = w[-1] * rouse.tau1
     ev.append(Evidence(test="intermediate_region", value=inter,
@@ -211,26 +250,6 @@ def _gather(sweep: Sweep, fits: Mapping[str, BeadSpringFit], general: BeadSpring
     ev.append(Evidence(test="mode_exponent_zimm", value=general.a, expected="1.5 (theta) or 1.764 (good solvent)",
                        passed=any(_exponent_ok(general, a, T["exponent_tol"]) for a in A_ZIMM.values()), note=ci))
 
-    # tests on the recovered spectrum
-    if spectrum is None:
-        ev.append(Evidence(test="spectrum_slope", value=None, expected="-0.5 (Rouse)", passed=None,
-                           note=spectrum_note))
-        ev.append(Evidence(test="spectrum_slope_zimm", value=None, expected="-0.667 (theta) or -0.567 (good)",
-                           passed=None, note=spectrum_note))
-    else:
-        best = min(fits.values(), key=lambda f: f.bic)
-        slope, note = _spectrum_slope(spectrum, best)
-        has = math.isfinite(slope)
-        ev.append(Evidence(test="spectrum_slope", value=_num(slope), expected="-0.5 (Rouse)",
-                           passed=(abs(slope + 0.5) <= T["slope_tol"]) if has else None, note=note))
-        ev.append(Evidence(test="spectrum_slope_zimm", value=_num(slope), expected="-0.667 (theta) or -0.567 (good)",
-                           passed=(min(abs(slope + 2 / 3), abs(slope + 1 / 1.764)) <= T["slope_tol"]) if has
-                           else None, note=note))
-
-    # terminal mode ratios from the sparse discrete spectrum
-    ev.extend(_mode_ratio_evidence(free, rouse, w))
-
-    ev.extend(_asymptote_evidence(w, gp, gpp, min(fits.values(), key=lambda f: f.bic), rouse))
     return ev
 
 

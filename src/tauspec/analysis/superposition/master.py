@@ -23,16 +23,16 @@ Craven, P. & Wahba, G. (1979). Smoothing noisy data with spline functions. *Nume
 from __future__ import annotations
 
 import math
-import warnings
 from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
 
-from ...data.record import field, insert_after, record
+from ...data.record import field, record
 from ...data.sweep import Sweep
-from ...errors import SettingsError, TauspecError, WeakResultWarning
+from ...errors import SettingsError, TauspecError
 from ...models.shift_laws import Z95, ArrheniusFit, WLFFit, compare_fits, fit_arrhenius, fit_wlf
+from .check import SuperpositionCheck, superposition_check
 from .pairs import PairShift, _celsius, _chain, _Pair, _prepare, _shift_pair
 
 __all__ = ["MISFIT_THRESHOLD", "SuperpositionCheck", "MasterCurve", "sweep_temperatures", "superpose"]
@@ -46,32 +46,6 @@ MISFIT_THRESHOLD = 1.5
 
 
 # --------------------------------------------------------------------------- result
-
-
-@record
-class SuperpositionCheck:
-    """Whether the overlaps agree to within the noise (thermorheological simplicity).
-
-    ``misfit`` is sqrt(χ²/dof) pooled over all overlaps: the ln G' and ln G''
-    residuals about one smooth curve through both sweeps of a pair, in units
-    of each sweep's own noise; about 1 when superposition holds.  ``simple`` is
-    ``misfit <= threshold``.  ``worst`` names the pair with the largest misfit.
-    """
-
-    misfit: float
-    threshold: float
-    simple: bool
-    worst: tuple[float, float] = field(key="worst_pair_K")
-    statement: str
-
-    def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
-        """The worst pair in °C (and in K, which is read back)."""
-        return insert_after(d, "simple", "worst_pair", [self.worst[0] - 273.15, self.worst[1] - 273.15])
-
-    @classmethod
-    def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
-        d.pop("worst_pair", None)
-        return d
 
 
 @record(schema="tauspec.master/1")
@@ -401,7 +375,7 @@ def superpose(
     aT_ci = np.column_stack([10.0 ** (log_aT - half), 10.0 ** (log_aT + half)])
     bT = np.exp(log_b_sorted)[inv]
     log_bT_se = np.sqrt(var_b)[inv]
-    check = _superposition_check(pairs, threshold)
+    check = superposition_check(pairs, threshold)
 
     sources = tuple(s.source or s.name for s in sweeps)
     master = _master_sweep(sweeps, T, T_ref, log_aT, bT, sources, wlf, arr, check, vertical)
@@ -450,24 +424,6 @@ def _reference_fraction(Ts: np.ndarray, T_ref: float, wlf: WLFFit | None, arr: A
     elif lo == n - 1:
         lo, f = n - 2, 1.0
     return lo, f, exact
-
-
-def _superposition_check(pairs: Sequence[PairShift], threshold: float) -> SuperpositionCheck:
-    """The pooled overlap misfit in units of the noise, and the verdict on superposition (a warning when it fails)."""
-    misfit = float(math.sqrt(sum(p.misfit**2 * p.dof for p in pairs) / sum(p.dof for p in pairs)))
-    worst = max(pairs, key=lambda p: p.misfit)
-    simple = misfit <= threshold
-    if simple:
-        statement = (f"superposition holds: the overlaps agree to within the noise "
-                     f"(misfit {misfit:.2f} × noise, threshold {threshold:g})")
-    else:
-        statement = (f"superposition fails: the overlaps differ by {misfit:.2f} × the noise (threshold "
-                     f"{threshold:g}; worst between {_celsius(worst.T_low)} and {_celsius(worst.T_high)}); "
-                     "the material looks thermorheologically complex (a blend, near T_g, a gel?) and the master "
-                     "curve should not be trusted — compare the van Gurp–Palmen plot")
-        warnings.warn(statement, WeakResultWarning, stacklevel=3)
-    return SuperpositionCheck(misfit=misfit, threshold=float(threshold), simple=simple,
-                              worst=(worst.T_low, worst.T_high), statement=statement)
 
 
 def _master_sweep(sweeps, T, T_ref, log_aT, bT, sources, wlf, arr, check, vertical) -> Sweep:
