@@ -49,6 +49,21 @@ def test_layouts(name, text, wf, gf):
     np.testing.assert_allclose(s.loss, np.array(GPP) * gf, rtol=1e-12)
 
 
+@pytest.mark.parametrize("name,text,wf,gf", [x for x in LAYOUTS if x[0] in ("comma, SI", "descriptive names",
+                                                                          "semicolon, decimal comma")],
+                         ids=["comma", "descriptive", "semicolon"])
+def test_separator_named_by_the_header_alone_needs_no_detector(monkeypatch, name, text, wf, gf):
+    """When only one separator splits a line into a header, the statistical detector is not consulted."""
+    import tauspec.data.read as read_module
+
+    def refuse(lines):
+        raise AssertionError("the detector ran although the header names the separator")
+
+    monkeypatch.setattr(read_module, "detect_delimiter", refuse)
+    s = parse_sweep_text(text, source="t.csv")
+    np.testing.assert_allclose(s.storage, np.array(GP) * gf, rtol=1e-12)
+
+
 def test_polar_form():
     # |G*| and phase angle δ: G' = |G*| cos δ, G'' = |G*| sin δ (definition of the complex modulus, Ferry 1980 ch. 1)
     rows = [(w, math.hypot(a, b), math.degrees(math.atan2(b, a))) for w, a, b in zip(W, GP, GPP)]

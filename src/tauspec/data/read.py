@@ -141,18 +141,20 @@ def _names_columns(line: str, delimiter: str) -> bool:
 
 
 def _delimiter(text: str, source: str, opts: ReadOptions) -> str:
-    """The detected separator, unless only another one splits a line into a header row.
+    """The separator that splits a line into a header row; the detector decides when several or none do.
 
-    The detector sees the first :data:`~tauspec.data.dialect.SAMPLE_LINES` lines; the header is looked for in the
-    first :data:`HEADER_SEARCH_LINES` (a long preamble), with the detected separator first.
+    The header is looked for in the first :data:`HEADER_SEARCH_LINES` lines (a long preamble) with every
+    candidate.  When exactly one candidate gives a header it is the answer whatever the detector says (the
+    detector's choice only orders the candidates), so the detector runs only when several or none do; it sees
+    the first :data:`~tauspec.data.dialect.SAMPLE_LINES` lines.
     """
     lines = sample_lines(text, HEADER_SEARCH_LINES, source=source, max_line_chars=opts.max_line_chars)
+    naming = [d for d in CANDIDATES if any((d == " " or d in line) and _names_columns(line, d) for line in lines)]
+    if len(naming) == 1:  # the only separator that gives a header: the detector's choice could not change it
+        return naming[0]
     detected = detect_delimiter(lines[:SAMPLE_LINES])
-    order = ([detected] if detected else []) + [d for d in CANDIDATES if d != detected]
-    for delim in order:
-        for line in lines:
-            if (delim == " " or delim in line) and _names_columns(line, delim):
-                return delim
+    if naming:
+        return detected if detected in naming else naming[0]
     if detected:
         return detected
     first = lines[0] if lines else ""
