@@ -18,7 +18,7 @@ from synthetic_sweeps import bsw_melt_sweep, ldpe_sweep
 from tauspec import diagnose
 from tauspec.analysis.diagnosis.entanglement import GAS_CONSTANT, entanglement_mass, tan_delta_minimum
 from tauspec.data.write import dumps_json
-from tauspec.models.bsw import bsw_moduli, cutoff_power_moduli, fit_bsw
+from tauspec.models.bsw import bsw_moduli, cutoff_power_derivatives, cutoff_power_moduli, fit_bsw
 
 
 def test_bsw_closed_form_matches_the_published_check_values_and_quadrature():
@@ -35,6 +35,34 @@ def test_bsw_closed_form_matches_the_published_check_values_and_quadrature():
         qb = integrate.quad(lambda u, w=w: math.exp(-0.67 * u) * w * math.exp(u) / (1 + (w * math.exp(u)) ** 2),
                             -60, 0, limit=400)[0]
         assert a[0] == pytest.approx(qa, rel=1e-6) and b[0] == pytest.approx(qb, rel=1e-6)
+
+
+def _mp_cutoff(m, W, storage):
+    """The unit cut-off power-law modulus in mpmath (the ₂F₁ closed form of models/bsw.py, 30 digits)."""
+    import mpmath as mp
+
+    if storage:
+        return W**2 / (m + 2) * mp.hyp2f1(1, (m + 2) / 2, (m + 4) / 2, -(W**2))
+    return W / (m + 1) * mp.hyp2f1(1, (m + 1) / 2, (m + 3) / 2, -(W**2))
+
+
+@pytest.mark.parametrize("m", [0.02, 0.23, 0.8, -0.2, -0.67, -0.95])
+def test_cutoff_power_derivatives_against_mpmath(m):
+    # Ω dG'/dΩ = −m G' + Ω²/(1+Ω²), Ω dG''/dΩ = −m G'' + Ω/(1+Ω²) (derived in models/bsw.py) and the central
+    # difference in m, against mpmath.diff of the ₂F₁ closed form at 30 digits (mpmath, Johansson et al.).
+    import mpmath as mp
+
+    mp.mp.dps = 30
+    w = np.geomspace(1e-3, 1e6, 10)
+    gp, gpp = cutoff_power_moduli(w, 1.0, m)
+    got = cutoff_power_derivatives(w, 1.0, m, gp, gpp)
+    for i, W in enumerate(w):
+        Wm, mm = mp.mpf(float(W)), mp.mpf(m)
+        for k, storage in ((0, True), (1, False)):
+            dlt = float(mp.diff(lambda lt, s=storage, q=mm: _mp_cutoff(q, mp.e**lt, s), mp.log(Wm)))
+            dm = float(mp.diff(lambda q, s=storage, x=Wm: _mp_cutoff(q, x, s), mm))
+            assert got[k][i] == pytest.approx(dlt, rel=1e-9, abs=1e-13), (W, storage)
+            assert got[2 + k][i] == pytest.approx(dm, rel=1e-7), (W, storage)
 
 
 def test_bsw_terminal_sums():

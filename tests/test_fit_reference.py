@@ -1,7 +1,8 @@
 """The variable-projection fits reach the optimum of the fits they replaced, on the cases of the test suite.
 
 The reference implementations (``benchmarks/reference/``: least squares in all parameters with
-finite-difference Jacobians, several starts) are today's fits before variable projection.  On every case below
+finite-difference Jacobians, several starts; for the BSW form, the amplitudes by NNLS inside a trust-region fit
+with a finite-difference Jacobian) are today's fits before variable projection.  On every case below
 the new fit's misfit (sum of squared relative residuals) must not exceed the reference's by more than 1e-6 of
 it (plus 1e-24 per point: exact data, where both are at rounding level), and the discrete-mode fit must choose
 the same number of modes.  A lower misfit is allowed: the new search over whole-number segments of N finds
@@ -19,14 +20,17 @@ import pytest
 
 import synthetic as sy
 import synthetic_sweeps as ss
+from tauspec.cli.demo_archive import demo_samples
 from tauspec.data.sweep import Sweep
 from tauspec.models.beadspring import MODELS, fit_all
+from tauspec.models.bsw import fit_bsw
 from tauspec.models.chains import rouse_moduli, zimm_moduli
 from tauspec.modes.fit import fit_modes
 from tauspec.spectrum.invert import invert
 from tauspec.spectrum.kernels import modes_moduli
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks" / "reference"))
+import bsw_fit as bsw_reference  # noqa: E402
 import chain_fits as chain_reference  # noqa: E402
 import modes_fit as modes_reference  # noqa: E402
 
@@ -115,3 +119,36 @@ def test_modes_reach_the_reference_optimum(name):
     assert new.n_modes == ref.n_modes
     n = 2 * len(sweep)
     assert _same_optimum(n * new.residual_rms**2, n * ref.residual_rms**2, n), (new.residual_rms, ref.residual_rms)
+
+
+def _bsw_cases():
+    # BSW melts (Baumgaertel, Schausberger & Winter 1990) with 1.3–3 decades of plateau limited by the window or by
+    # the transition zone (the families of test_entanglement.py), 0–3 % noise; the three BSW sweeps of
+    # test_diagnosis.py; and every sweep of the demo archive that is not corrupted (Rouse and Zimm solutions, the
+    # entangled controls, a gel), each fitted with and without the transition term and the solvent
+    melts = {"window-1.3": ({"tc_ratio": 1e7, "wmax": 10**2.5}, None),
+             "window-2.3": ({"tc_ratio": 1e7, "wmax": 10**3.5}, 0.0),
+             "window-3.0": ({"tc_ratio": 1e7, "wmax": 10**4.2}, 0.03),
+             "transition-1.3": ({"tc_ratio": 10**3.25, "wmax": 10**5.25}, 0.01),
+             "transition-2.0": ({"tc_ratio": 10**3.9, "wmax": 10**5.9}, None),
+             "transition-3.0": ({"tc_ratio": 10**4.6, "wmax": 10**6.6}, 0.02)}
+    sweeps = {f"melt-{k}": ss.bsw_melt_sweep(i + 1, noise=noise, **kw)[0]
+              for i, (k, (kw, noise)) in enumerate(melts.items())}
+    sweeps.update({f"bsw-{s}": ss.bsw_sweep(s)[0] for s in (51, 52, 53)})
+    sweeps.update({f"demo-{s.name}": s for s in demo_samples() if s.kind != "corrupted"})
+    return {f"{name} glassy={g} solvent={v}": (sw.omega, sw.storage, sw.loss, g, v)
+            for name, sw in sweeps.items() for g in (True, False) for v in (True, False)}
+
+
+BSW_CASES = _bsw_cases()
+
+
+@pytest.mark.parametrize("name", sorted(BSW_CASES))
+def test_bsw_fit_reaches_the_reference_optimum(name):
+    w, gp, gpp, glassy, solvent = BSW_CASES[name]
+    new = fit_bsw(w, gp, gpp, glassy=glassy, solvent=solvent)
+    ref = bsw_reference.fit_bsw(w, gp, gpp, glassy=glassy, solvent=solvent)
+    assert _same_optimum(new.chi2, ref.chi2, 2 * w.size), (new.chi2, ref.chi2)
+    if new.G_N > 0 and ref.G_N > 0 and not (new.at_bound or ref.at_bound):  # an interior optimum: the same fit
+        assert new.G_N == pytest.approx(ref.G_N, rel=1e-3) and new.tau_max == pytest.approx(ref.tau_max, rel=1e-3)
+        assert new.G_N_ci == pytest.approx(ref.G_N_ci, rel=1e-3)
