@@ -34,18 +34,16 @@ import numpy as np
 from scipy.linalg import lapack
 from scipy.optimize import nnls
 
+from .pivoting import AugmentedSubproblem, NormalSubproblem, active_set, block_pivoting, bordered, cholesky_on
+
 __all__ = ["TikhonovPath", "PathSolution", "second_difference", "solve_cvxpy", "objective"]
 
 
-# Reciprocal condition number (of M_FF, estimated from its Cholesky factor)
-# below which the normal equations are not trusted and NNLS is used instead.
-_RCOND_MIN = 1e-11
-
 _dpotrf = lapack.dpotrf
-_dpotrs = lapack.dpotrs
-_dtrtrs = lapack.dtrtrs
 _dpotri = lapack.dpotri
-BORDER = True
+# the factor helpers under their former names (tests of the bordered factor import them from here)
+_cholesky = cholesky_on
+_bordered = bordered
 
 
 def second_difference(n: int, spacing: float = 1.0) -> np.ndarray:
@@ -118,6 +116,8 @@ class TikhonovPath:
         self.LtL = self.L.T @ self.L
         self.Atb = self.A.T @ self.b
         self.n = self.A.shape[1]
+        self._stacked: np.ndarray | None = None  # [Aᵀ Lᵀ], for the augmented subproblems (built on first use)
+        self._rhs = np.zeros(0)
 
     # ------------------------------------------------------------------ one strength
     def solve(self, strength: float, passive: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, bool]:
@@ -137,25 +137,41 @@ class TikhonovPath:
         passive : ndarray of bool
             The set where x > 0.
         fallback : bool
-            True when NNLS on the augmented system was used.
+            True when the augmented system [A; λL] was solved (by QR, or by NNLS) instead of the normal equations.
         """
         x, free, _, fallback = self._solve(strength, passive)
         return x, free, fallback
 
     def _solve(
-        self, strength: float, passive: np.ndarray | None
+        self, strength: float, passive: np.ndarray | None, augmented: bool = False
     ) -> tuple[np.ndarray, np.ndarray, tuple[np.ndarray, np.ndarray] | None, bool]:
-        """Return x, its free set, the factor (R, order) of M on the free set or None, and the fallback flag."""
+        """Return x, its free set, the factor (R, order) of M on the free set or None, and the fallback flag.
+
+        Block principal pivoting on the normal equations first (unless ``augmented``), then the same pivoting
+        with the subproblems solved by QR on the augmented columns [A_F; λ L_F], then Lawson–Hanson NNLS on the
+        augmented system: the first that ends at a point satisfying the optimality conditions is taken.
+        """
         M = self.AtA + (strength * strength) * self.LtL
         q = self.Atb
-        out = _bpp(M, q, passive)
+        if not augmented:
+            out = _bpp(M, q, passive, NormalSubproblem(M, q))
+            if out is not None and self._kkt_ok(q, out[0], out[1]):
+                return self._found(out, False)
+        if self._stacked is None:
+            self._stacked = np.ascontiguousarray(np.hstack([self.A.T, self.L.T]))
+            self._rhs = np.concatenate([self.b, np.zeros(self.L.shape[0])])
+        out = active_set(q, passive, AugmentedSubproblem(self._stacked, self._rhs, self.A.shape[0], strength))
         if out is not None and self._kkt_ok(q, out[0], out[1]):
-            x, _, R, order = out
-            free = np.zeros(self.n, dtype=bool)
-            free[order] = True
-            return x, free, (R, order), False
+            return self._found(out, True)
         x = self._nnls(strength)
         return x, x > 0, None, True
+
+    def _found(self, out: tuple[np.ndarray, ...], fallback: bool
+               ) -> tuple[np.ndarray, np.ndarray, tuple[np.ndarray, np.ndarray], bool]:
+        x, _, R, order = out
+        free = np.zeros(self.n, dtype=bool)
+        free[order] = True
+        return x, free, (R, order), fallback
 
     @staticmethod
     def _kkt_ok(q: np.ndarray, x: np.ndarray, grad: np.ndarray) -> bool:
@@ -210,21 +226,23 @@ class TikhonovPath:
         strengths = np.asarray(strengths, dtype=float)
         k = len(strengths)
         X = np.zeros((k, self.n))
-        res = np.zeros(k)
-        sol = np.zeros(k)
         dof = np.zeros(k)
         fb = np.zeros(k, dtype=bool)
+        below = -math.inf  # the largest strength at which the normal equations failed: below it, go augmented
         for i, strength in enumerate(strengths):
             guess = passive
-            if i >= 2:  # the free set drifts smoothly along the path: extrapolate x linearly in ln λ
-                guess = (2 * X[i - 1] - X[i - 2]) > 0
-            x, passive, factor, fb[i] = self._solve(strength, guess)
+            if i >= 2:
+                guess = _extrapolated(X[i - 1], X[i - 2], passive)
+            x, passive, factor, fb[i] = self._solve(strength, guess, augmented=strength <= below)
+            if fb[i]:
+                below = max(below, strength)
             X[i] = x
-            r = self.A @ x - self.b
-            lx = self.L @ x
-            res[i] = math.sqrt(float(r @ r))
-            sol[i] = math.sqrt(float(lx @ lx))
             dof[i] = self.dof(strength, passive, factor)
+        r = X @ self.A.T
+        r -= self.b
+        lx = X @ self.L.T
+        res = np.sqrt(np.einsum("ij,ij->i", r, r))
+        sol = np.sqrt(np.einsum("ij,ij->i", lx, lx))
         return PathSolution(strength=strengths, x=X, residual_norm=res, solution_norm=sol, dof=dof, fallback=fb)
 
     @staticmethod
@@ -234,92 +252,29 @@ class TikhonovPath:
                               for f in dataclasses.fields(PathSolution)))
 
 
-def _bpp(
-    M: np.ndarray, q: np.ndarray, passive: np.ndarray | None, max_iter: int | None = None
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None:
-    """Block principal pivoting for min ½xᵀMx − qᵀx, x ≥ 0 (Kim & Park 2011, Algorithm 2 for one column).
+def _extrapolated(x1: np.ndarray, x2: np.ndarray, passive: np.ndarray, most: int = 2) -> np.ndarray:
+    """The free set expected at the next strength, from the last one and the trend of x.
 
-    Returns the solution, its gradient M x − q, the upper Cholesky factor of M on the free set and the order
-    of the free indices in that factor (reused for the influence matrix), or ``None`` when a subproblem is too
-    ill-conditioned for a Cholesky solve, so that the caller falls back to NNLS.
+    The last free set without the (at most ``most``) indices whose x, extrapolated linearly from the last two
+    strengths (equally spaced in ln λ), falls to zero first.
 
-    When an exchange only adds indices to the free set (the common case along a path of strengths, where the
-    support of x grows by a few grid points), the factor is bordered instead of recomputed: with R the factor
-    on F and the new indices N, R₁₂ = R⁻ᵀ M_FN and R₂₂ = chol(M_NN − R₁₂ᵀR₁₂), |F|²|N| flops instead of
-    (|F| + |N|)³/3 (Golub & Van Loan 2013, §4.2, from memory).  Any other exchange refactors.
+    The free set drifts by a few grid points per step along the path; removing every index the extrapolation
+    drives to zero overshoots where x falls steeply (many indices come back in the first exchange), so only
+    the ``most`` indices with the most negative extrapolation relative to their last value are removed.
     """
-    n = len(q)
-    F = np.zeros(n, dtype=bool) if passive is None else passive.copy()
-    alpha, beta = 3, n + 1
-    max_iter = max_iter or 5 * n + 20
-    tol_y = 1e-12 * max(float(np.abs(q).max()), 1e-300)
-    order = np.flatnonzero(F)
-    R = _cholesky(M, order)
-    if R is None:
-        return None
-    for _ in range(max_iter):
-        x = np.zeros(n)
-        if order.size:
-            xf = _dpotrs(R, q.take(order), lower=0)[0]
-            x[order] = xf
-            tol_x = 1e-12 * max(float(np.abs(xf).max()), 1e-300)
-        else:
-            tol_x = 1e-300
-        grad = M @ x - q
-        V = np.where(F, x < -tol_x, grad < -tol_y)
-        nv = int(np.count_nonzero(V))
-        if nv == 0:
-            x[x < 0] = 0.0
-            return x, grad, R, order
-        if nv < beta:
-            beta, alpha = nv, 3
-        elif alpha >= 1:
-            alpha -= 1
-        else:
-            j = int(np.flatnonzero(V)[-1])
-            V = np.zeros(n, dtype=bool)
-            V[j] = True
-        added = V & ~F
-        F = F ^ V
-        if (V & ~added).any() or R.size == 0 or not BORDER:
-            order = np.flatnonzero(F)
-            R = _cholesky(M, order)
-        else:
-            new = np.flatnonzero(added)
-            R = _bordered(M, R, order, new)
-            order = np.concatenate([order, new])
-        if R is None:
-            return None
-    return None
+    e = 2.0 * x1 - x2
+    drop = np.flatnonzero(passive & (e <= 0))
+    guess = passive.copy()
+    if drop.size > most:
+        drop = drop[np.argsort(e[drop] / np.maximum(x1[drop], 1e-300))[:most]]
+    guess[drop] = False
+    return guess
 
 
-def _well_conditioned(R: np.ndarray) -> bool:
-    """The reciprocal condition number of RᵀR, estimated from the (positive) diagonal of R, is above _RCOND_MIN."""
-    d = R.diagonal()
-    return not d.size or (d.min() / d.max()) ** 2 >= _RCOND_MIN
-
-
-def _cholesky(M: np.ndarray, order: np.ndarray) -> np.ndarray | None:
-    """Upper Cholesky factor of M on the indices ``order``; None when it fails or is too ill-conditioned."""
-    if order.size == 0:
-        return np.zeros((0, 0))
-    R, info = _dpotrf(M.take(order, 0).take(order, 1), lower=0, clean=1, overwrite_a=1)
-    return R if info == 0 and _well_conditioned(R) else None
-
-
-def _bordered(M: np.ndarray, R: np.ndarray, order: np.ndarray, new: np.ndarray) -> np.ndarray | None:
-    """The factor on ``order`` + ``new`` from the factor R on ``order``: [[R, R₁₂], [0, R₂₂]]."""
-    Mn = M.take(new, 1)
-    R12 = _dtrtrs(R, Mn.take(order, 0), lower=0, trans=1)[0]
-    R22, info = _dpotrf(Mn.take(new, 0) - R12.T @ R12, lower=0, clean=1, overwrite_a=1)
-    if info != 0:
-        return _cholesky(M, np.concatenate([order, new]))
-    k = order.size
-    out = np.zeros((k + new.size, k + new.size))
-    out[:k, :k] = R
-    out[:k, k:] = R12
-    out[k:, k:] = R22
-    return out if _well_conditioned(out) else None
+def _bpp(M: np.ndarray, q: np.ndarray, passive: np.ndarray | None,
+         sub: NormalSubproblem | AugmentedSubproblem) -> tuple[np.ndarray, ...] | None:
+    """Block principal pivoting for one strength (:func:`~tauspec.spectrum.pivoting.block_pivoting`)."""
+    return block_pivoting(M, q, passive, sub)
 
 
 def solve_cvxpy(
