@@ -34,7 +34,7 @@ Golub, G. H. & Pereyra, V. (2003). Inverse Problems 19, R1 (variable projection,
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
@@ -42,7 +42,7 @@ import numpy as np
 from ..spectrum.lsq import levenberg_marquardt, projected_jacobian
 from ..spectrum.threads import limited
 from .chainfit import BeadSpringFit
-from .chains import A_BOUNDS, N_MAX, NU_GOOD, Frame, chain_columns, get_law, tabulated_chains
+from .chains import A_BOUNDS, N_MAX, NU_GOOD, Frame, chain_columns, chain_columns_lazy, get_law, tabulated_chains
 
 __all__ = ["MODELS", "ROUSE_MODELS", "ZIMM_MODELS", "BeadSpringFit", "fit_chain", "fit_all"]
 
@@ -154,21 +154,31 @@ class _Problem:
     def residuals(self, theta, G0: float | None = None) -> np.ndarray:
         return self.evaluate(theta, G0)[0]
 
-    def fun(self, theta: np.ndarray, G0: float | None = None) -> tuple[np.ndarray, np.ndarray]:
-        """Residual and its variable-projection Jacobian in θ (Golub & Pereyra 1973; :mod:`tauspec.spectrum.lsq`)."""
-        u, du = self.columns(theta, True)
+    def fun(self, theta: np.ndarray, G0: float | None = None) -> tuple[np.ndarray, Callable[[], np.ndarray]]:
+        """Residual, and the function giving its variable-projection Jacobian in θ.
+
+        Golub & Pereyra (1973); :mod:`tauspec.spectrum.lsq` calls the function only at the points it accepts.
+        """
+        tau1, N, a = self.unpack(np.asarray(theta, dtype=float))
+        v, dv = chain_columns_lazy(self.frame, tau1, N, a, self.law)
+        u = v * self.inv
         g0, eta = self.linear(u, G0)
         r = g0 * u + eta * self.s - 1.0
-        dBc = g0 * du
-        if G0 is not None:  # G0 held: only η_s is projected out
-            if self.solvent and eta > 0:
-                return r, dBc - np.outer(self.s, self.s @ dBc) / self.ss
-            return r, dBc
-        B = np.column_stack([u, self.s]) if self.solvent else u[:, None]
-        c = np.array([g0, eta])[: B.shape[1]]
-        dBt_r = np.zeros((B.shape[1], du.shape[1]))
-        dBt_r[0] = du.T @ r
-        return r, projected_jacobian(B, c, c > 0, r, dBc, dBt_r)
+
+        def jacobian() -> np.ndarray:
+            du = dv()[:, : self.n_theta] * self.inv[:, None]
+            dBc = g0 * du
+            if G0 is not None:  # G0 held: only η_s is projected out
+                if self.solvent and eta > 0:
+                    return dBc - np.outer(self.s, self.s @ dBc) / self.ss
+                return dBc
+            B = np.column_stack([u, self.s]) if self.solvent else u[:, None]
+            c = np.array([g0, eta])[: B.shape[1]]
+            dBt_r = np.zeros((B.shape[1], du.shape[1]))
+            dBt_r[0] = du.T @ r
+            return projected_jacobian(B, c, c > 0, r, dBc, dBt_r)
+
+        return r, jacobian
 
 
 def _terminal_tau_estimate(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray) -> list[float]:
@@ -258,10 +268,10 @@ def _held(prob: _Problem, x: np.ndarray, hold: int, tol: dict) -> tuple[float, n
     free = [i for i in range(len(x)) if i != hold]
     theta = np.array(x, dtype=float)
 
-    def fun(xf: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def fun(xf: np.ndarray) -> tuple[np.ndarray, Callable[[], np.ndarray]]:
         theta[free] = xf
-        r, J = prob.fun(theta)
-        return r, J[:, free]
+        r, jacobian = prob.fun(theta)
+        return r, lambda: jacobian()[:, free]
 
     start = np.clip(theta[free], np.array(lo)[free] + 1e-9, np.array(hi)[free] - 1e-9)
     res = levenberg_marquardt(fun, start, np.array(lo)[free], np.array(hi)[free], **tol)

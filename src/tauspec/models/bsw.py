@@ -51,7 +51,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 
 import numpy as np
 from scipy import special, stats
@@ -191,30 +191,36 @@ class _Problem:
     def residuals(self, theta: np.ndarray) -> np.ndarray:
         return self.solve(theta)[0]
 
-    def fun(self, theta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Residual and its variable-projection Jacobian in θ (Golub & Pereyra 1973; eq. (1) of spectrum/lsq.py).
+    def fun(self, theta: np.ndarray) -> tuple[np.ndarray, Callable[[], np.ndarray]]:
+        """Residual and the function giving its variable-projection Jacobian in θ (eq. (1) of spectrum/lsq.py).
 
         ∂B/∂θ: the entanglement column depends on ln τ_max and n_e, the transition column on ln τ_max and
         n_g (m = −n_g, so ∂/∂n_g = −∂/∂m), the solvent column on neither (:func:`cutoff_power_derivatives`).
+        The Jacobian is computed only when the solver asks for it, at the points it accepts (Golub & Pereyra
+        1973).
         """
         tmax = math.exp(theta[0])
         terms = self._terms(theta)
         cols = [np.concatenate(g) * self.inv for _, g in terms]
         B = np.column_stack(cols + ([self.s] if self.solvent else []))
         scale, cs, free, r, R = self._linear(B)
-        c = cs / scale
-        dBc = np.zeros((r.size, 3))
-        dBt_r = np.zeros((B.shape[1], 3))
-        for j, (m, (gp, gpp)) in enumerate(terms):
-            dt_p, dt_pp, dm_p, dm_pp = cutoff_power_derivatives(self.w, tmax, m, gp, gpp)
-            dt = np.concatenate([dt_p, dt_pp]) * self.inv
-            dm = np.concatenate([dm_p, dm_pp]) * self.inv * (1.0 if j == 0 else -1.0)
-            k = 1 + j  # n_e for the entanglement term, n_g for the transition term
-            dBc[:, 0] += c[j] * dt
-            dBc[:, k] = c[j] * dm
-            dBt_r[j, 0] = float(dt @ r) / scale[j]
-            dBt_r[j, k] = float(dm @ r) / scale[j]
-        return r, projected_jacobian(B / scale, cs, free, r, dBc, dBt_r, R)
+
+        def jacobian() -> np.ndarray:
+            c = cs / scale
+            dBc = np.zeros((r.size, 3))
+            dBt_r = np.zeros((B.shape[1], 3))
+            for j, (m, (gp, gpp)) in enumerate(terms):
+                dt_p, dt_pp, dm_p, dm_pp = cutoff_power_derivatives(self.w, tmax, m, gp, gpp)
+                dt = np.concatenate([dt_p, dt_pp]) * self.inv
+                dm = np.concatenate([dm_p, dm_pp]) * self.inv * (1.0 if j == 0 else -1.0)
+                k = 1 + j  # n_e for the entanglement term, n_g for the transition term
+                dBc[:, 0] += c[j] * dt
+                dBc[:, k] = c[j] * dm
+                dBt_r[j, 0] = float(dt @ r) / scale[j]
+                dBt_r[j, k] = float(dm @ r) / scale[j]
+            return projected_jacobian(B / scale, cs, free, r, dBc, dBt_r, R)
+
+        return r, jacobian
 
 
 def _starts(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, tau_starts: Sequence[float]) -> list[float]:

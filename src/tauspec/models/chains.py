@@ -38,12 +38,12 @@ from collections.abc import Callable
 
 import numpy as np
 
-from ..spectrum.kernels import kernel_block
+from ..spectrum.kernels import kernel_slopes, kernel_values
 
 __all__ = [
     "FORMS", "FORM_NAMES", "NU_GOOD", "N_MAX", "A_BOUNDS", "TAIL_EPS", "EXACT_MODES", "BIN_RATIO", "ModeTimeLaw",
-    "LAWS", "register_law", "get_law", "mode_positions", "Frame", "ChainTerms", "chain_columns", "unit_chain",
-    "tabulated_chains", "mode_times", "chain_moduli", "rouse_moduli", "zimm_moduli", "power_tail",
+    "LAWS", "register_law", "get_law", "mode_positions", "Frame", "ChainTerms", "chain_columns", "chain_columns_lazy",
+    "unit_chain", "tabulated_chains", "mode_times", "chain_moduli", "rouse_moduli", "zimm_moduli", "power_tail",
 ]
 
 #: The plain name of each form: "discrete" chain (sine spacing) or "continuum" law (pure power of p).
@@ -211,13 +211,14 @@ def _ratios(law: ModeTimeLaw, n: int, a: float, pair: bool) -> tuple[np.ndarray,
     return np.concatenate([_ratio_power(law, n, a), _ratio_power(law, n + 1, a)]), lnb, w
 
 
-def _chains(frame: Frame, tau1: float, n: int, a: float, law: ModeTimeLaw, pair: bool,
-            deriv: bool) -> tuple[np.ndarray, ...]:
-    """Unit-G0 moduli [S'; S''] of the n-mode chain (and the n + 1 one with ``pair``), one column per chain.
+def _chain_terms(frame: Frame, tau1: float, n: int, a: float, law: ModeTimeLaw,
+                 pair: bool) -> tuple[np.ndarray, Callable[[], tuple[np.ndarray, np.ndarray]]]:
+    """Unit-G0 moduli [S'; S''] of the n-mode chain (and the n + 1 one with ``pair``), and their derivatives.
 
-    With ``deriv`` also ∂/∂ln τ_1 and ∂/∂a in the same layout.  Modes with ω_max τ_p < TAIL_EPS enter in
-    their low-frequency limit (ωτ_p)², ωτ_p.  One kernel block [K'; K''; ∂K'/∂ln τ; ∂K''/∂ln τ]
-    (:func:`~tauspec.spectrum.kernels.kernel_block`) and one matrix product serve every column.
+    One column per chain; the function returned gives ∂/∂ln τ_1 and ∂/∂a in the same layout.  The
+    derivatives are computed only when it is called (the fits need them only at the points they accept), from
+    the kernels already at hand (:func:`~tauspec.spectrum.kernels.kernel_slopes`).  Modes with
+    ω_max τ_p < TAIL_EPS enter in their low-frequency limit (ωτ_p)², ωτ_p.
     """
     rho, lnb, w = _ratios(law, n, a, pair)
     tau = tau1 * rho
@@ -226,25 +227,30 @@ def _chains(frame: Frame, tau1: float, n: int, a: float, law: ModeTimeLaw, pair:
     if tail:
         wf = w * fast[:, None]
         w = w * (~fast)[:, None]
-    m = frame.m
-    B = kernel_block(frame.omega, tau, deriv)
-    c = w.shape[1]
-    if deriv:
-        R = B @ np.concatenate([w, w * lnb[:, None]], axis=1)
-        vals, dtau, da = R[: 2 * m, :c], R[2 * m:, :c], R[2 * m:, c:]
-    else:
-        vals = B @ w
+        t1, t2 = tau @ wf, (tau * tau) @ wf
+    K, d = kernel_values(frame.omega, tau)
+    vals = K @ w
     if tail:
-        t1 = tau @ wf
-        t2 = (tau * tau) @ wf
         vals = vals + np.multiply.outer(frame.q2, t2) + np.multiply.outer(frame.q1, t1)
-        if deriv:
+
+    def slopes() -> tuple[np.ndarray, np.ndarray]:
+        c = w.shape[1]
+        R = kernel_slopes(K, d) @ np.concatenate([w, w * lnb[:, None]], axis=1)
+        dtau, da = R[:, :c], R[:, c:]
+        if tail:
             dtau = dtau + np.multiply.outer(2.0 * frame.q2, t2) + np.multiply.outer(frame.q1, t1)
             da = (da + np.multiply.outer(2.0 * frame.q2, (tau * tau * lnb) @ wf)
                   + np.multiply.outer(frame.q1, (tau * lnb) @ wf))
-    if not deriv:
-        return (vals,)
-    return vals, dtau, da
+        return dtau, da
+
+    return vals, slopes
+
+
+def _chains(frame: Frame, tau1: float, n: int, a: float, law: ModeTimeLaw, pair: bool,
+            deriv: bool) -> tuple[np.ndarray, ...]:
+    """(vals,) or, with ``deriv``, (vals, ∂/∂ln τ_1, ∂/∂a) of :func:`_chain_terms`."""
+    vals, slopes = _chain_terms(frame, tau1, n, a, law, pair)
+    return (vals, *slopes()) if deriv else (vals,)
 
 
 def chain_columns(frame: Frame, tau1: float, N: float, a: float, law: ModeTimeLaw,
@@ -253,23 +259,41 @@ def chain_columns(frame: Frame, tau1: float, N: float, a: float, law: ModeTimeLa
 
     With ``deriv`` also the derivatives in (ln τ_1, ln N, a), one column each; else None.
     """
+    if deriv:
+        vals, slopes = chain_columns_lazy(frame, tau1, N, a, law)
+        return vals, slopes()
     N = min(max(float(N), 1.0), N_MAX)
     n = math.floor(N)
     f = N - n
     mixed = f > 1e-12
-    if not deriv:
-        (vals,) = _chains(frame, tau1, n, a, law, mixed, False)
-        return ((1 - f) * vals[:, 0] + f * vals[:, 1]) if mixed else vals[:, 0], None
+    (vals,) = _chains(frame, tau1, n, a, law, mixed, False)
+    return ((1 - f) * vals[:, 0] + f * vals[:, 1]) if mixed else vals[:, 0], None
+
+
+def chain_columns_lazy(frame: Frame, tau1: float, N: float, a: float,
+                       law: ModeTimeLaw) -> tuple[np.ndarray, Callable[[], np.ndarray]]:
+    """[S'; S''] as :func:`chain_columns`, and a function giving the derivatives in (ln τ_1, ln N, a).
+
+    The chain of N is the mixture (1 − f)·chain(n) + f·chain(n + 1) with n = ⌊N⌋, f = N − n, so
+    ∂/∂ln N = N (chain(n + 1) − chain(n)); at N_MAX the left derivative is used.
+    """
+    N = min(max(float(N), 1.0), N_MAX)
+    n = math.floor(N)
+    f = N - n
     top = n + 1 > N_MAX  # at N_MAX: the left derivative in N
-    vals, dtau, da = _chains(frame, tau1, n - 1 if top else n, a, law, True, True)
-    dn = N * (vals[:, 1] - vals[:, 0])
+    vals, slopes = _chain_terms(frame, tau1, n - 1 if top else n, a, law, True)
     if top:
         mix = np.array([0.0, 1.0])
-    elif mixed:
+    elif f > 1e-12:
         mix = np.array([1 - f, f])
     else:
         mix = np.array([1.0, 0.0])
-    return vals @ mix, np.column_stack([dtau @ mix, dn, da @ mix])
+
+    def derivatives() -> np.ndarray:
+        dtau, da = slopes()
+        return np.column_stack([dtau @ mix, N * (vals[:, 1] - vals[:, 0]), da @ mix])
+
+    return vals @ mix, derivatives
 
 
 def unit_chain(omega: np.ndarray, tau1: float, N: float, a: float, law: ModeTimeLaw,

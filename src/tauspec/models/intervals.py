@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 
 import numpy as np
 from scipy import stats
@@ -128,10 +128,10 @@ class _Profile:
         else:
             G0 = math.exp(psi)
 
-        def fun(xf: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        def fun(xf: np.ndarray) -> tuple[np.ndarray, Callable[[], np.ndarray]]:
             theta[self.free] = xf
-            r, J = self.prob.fun(theta, G0)
-            return r, J[:, self.free]
+            r, jacobian = self.prob.fun(theta, G0)
+            return r, lambda: jacobian()[:, self.free]
 
         res = levenberg_marquardt(fun, start, self.lo, self.hi, ftol=1e-10, xtol=1e-9, gtol=1e-9, max_nfev=100)
         if not np.all(np.isfinite(res.x)):

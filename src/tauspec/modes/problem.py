@@ -4,7 +4,7 @@ For given relaxation times τ_i the mode strengths g_i ≥ 0, η_s ≥ 0 and G_e
 linearly: r = B(τ) c − y with the columns [K'(ωτ_i)/G'; K''(ωτ_i)/G''] of the Maxwell kernels, [0; ω/G'']
 and [1/G'; 0].  :class:`_Projected` solves them by nonnegative least squares inside every evaluation, so the
 outer problem has only the log-times (variable projection, Golub & Pereyra 1973, 2003), and differentiates
-the projected residual with the closed-form kernel derivatives (:func:`~tauspec.spectrum.kernels.kernel_block`).
+the projected residual with the closed-form kernel derivatives (:func:`~tauspec.spectrum.kernels.kernel_slopes`).
 
 References
 ----------
@@ -15,10 +15,11 @@ Golub, G. H. & Pereyra, V. (2003). Inverse Problems 19, R1–R26.
 from __future__ import annotations
 
 import dataclasses
+from collections.abc import Callable
 
 import numpy as np
 
-from ..spectrum.kernels import kernel_block, loss_kernel, modes_moduli, storage_kernel
+from ..spectrum.kernels import kernel_slopes, kernel_values, loss_kernel, modes_moduli, storage_kernel
 from ..spectrum.lsq import nnls_small, projected_jacobian
 
 __all__ = []
@@ -151,9 +152,9 @@ class _Fit:
 class _Projected:
     """r(ln τ) with (g, η_s, G_e) ≥ 0 projected out, and its Jacobian (eq. (1) of :mod:`tauspec.spectrum.lsq`).
 
-    Calling it returns (r, ∂r/∂ln τ) for :func:`~tauspec.spectrum.lsq.levenberg_marquardt`; ``c`` holds the
-    linear coefficients of the last evaluation (g, η_s/η_ref, G_e/G_ref), whose positive set starts the next
-    nonnegative solve.
+    Calling it returns r and the function giving ∂r/∂ln τ (a lazy Jacobian) for
+    :func:`~tauspec.spectrum.lsq.levenberg_marquardt`; ``c`` holds the linear coefficients of the last
+    evaluation (g, η_s/η_ref, G_e/G_ref), whose positive set starts the next nonnegative solve.
     """
 
     def __init__(self, prob: _Problem):
@@ -167,20 +168,27 @@ class _Projected:
 
     def solve(self, ln_tau: np.ndarray, deriv: bool) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
         """Residual, linear coefficients and (with ``deriv``) the Jacobian at the log-times ``ln_tau``."""
-        m, n = ln_tau.size, self.n
-        K = kernel_block(self.prob.omega, np.exp(ln_tau), deriv)
-        B = np.hstack([K[:2 * n] * self.inv, self.extra])
+        r, c, jacobian = self._evaluate(ln_tau)
+        return r, c, (jacobian() if deriv else None)
+
+    def _evaluate(self, ln_tau: np.ndarray) -> tuple[np.ndarray, np.ndarray, Callable[[], np.ndarray]]:
+        """Residual, linear coefficients and the function giving the Jacobian at the log-times ``ln_tau``."""
+        m = ln_tau.size
+        K, d = kernel_values(self.prob.omega, np.exp(ln_tau))
+        B = np.hstack([K * self.inv, self.extra])
         free = self.free if self.free is not None and self.free.size == B.shape[1] else None
         c, free, factor = nnls_small(B, self.y, free)
         self.free, self.c = free, c
         r = B @ c - self.y
-        if not deriv:
-            return r, c, None
-        D = K[2 * n:] * self.inv  # ∂(mode column)/∂ln τ: each column depends on its own τ only
-        dBt_r = np.zeros((B.shape[1], m))
-        dBt_r[np.arange(m), np.arange(m)] = r @ D
-        return r, c, projected_jacobian(B, c, free, r, D * c[:m], dBt_r, factor)
 
-    def __call__(self, ln_tau: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        r, _, J = self.solve(ln_tau, True)
-        return r, J
+        def jacobian() -> np.ndarray:
+            D = kernel_slopes(K, d) * self.inv  # ∂(mode column)/∂ln τ: each column depends on its own τ only
+            dBt_r = np.zeros((B.shape[1], m))
+            dBt_r[np.arange(m), np.arange(m)] = r @ D
+            return projected_jacobian(B, c, free, r, D * c[:m], dBt_r, factor)
+
+        return r, c, jacobian
+
+    def __call__(self, ln_tau: np.ndarray) -> tuple[np.ndarray, Callable[[], np.ndarray]]:
+        r, _, jacobian = self._evaluate(ln_tau)
+        return r, jacobian
