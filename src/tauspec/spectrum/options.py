@@ -57,8 +57,8 @@ class InvertOptions:
                          help="rule that chooses λ for --strength auto: the L-curve corner or the GCV minimum")
     grid: int | np.ndarray | None = option(None, metavar="N", help="number of τ grid points (default 12 per decade)")
     solvent: bool = option(True, negate="--no-solvent",
-                           help="fit η_s, the Newtonian high-frequency contribution (solvent + modes faster "
-                                "than the window)")
+                           help="fit η_s, the Newtonian high-frequency contribution: solvent + modes faster "
+                                "than the window (--no-solvent: none)")
     equilibrium_modulus: bool = option(False, help="fit an equilibrium modulus G_e (gels, solids)")
     eta_s: float | None = option(None, metavar="PA_S",
                                  help="known solvent viscosity in Pa·s (subtracted instead of fitted)")
