@@ -242,6 +242,8 @@ def test_local_dask_cluster_equals_local_run(archive, reference, tmp_path):
         ("[inverse]\ngrid = 40\n", r"unknown section or key 'inverse'"),
         ("[invert]\nselect = \"best\"\n", r"\[invert\] select must be one of 'gcv', 'lcurve', not 'best'"),
         ("[invert]\ngrid = 4\n", r"\[invert\] grid must be a whole number of τ points from 10 to 2000"),
+        ("[invert]\ngrid = \"fine\"\n", r"\[invert\] grid must be a number of τ points or at least 10 times"),
+        ("[invert]\ngrid = [1, \"a\"]\n", r"\[invert\] grid must be a number of τ points or at least 10 times"),
         ("[invert]\nstrength = -1\n", r"\[invert\] strength must be 'auto' or a positive number"),
         ("[invert]\nplateau = true\n", r"unknown key 'plateau' in \[invert\]; known keys: .*equilibrium_modulus"),
         ("[modes]\nn_modes = 0\n", r"\[modes\] n_modes must be a whole number of modes from 1 to 50"),

@@ -89,6 +89,19 @@ def test_import_is_light():
     assert r.stdout.split() == ["False", "False"]
 
 
+def test_every_public_name_resolves_from_its_defining_module():
+    # The lazy exports of tauspec/__init__.py name the module that defines each object (not one that imports it).
+    import importlib
+
+    import tauspec
+
+    for name, module in tauspec._EXPORTS.items():
+        obj = getattr(tauspec, name)
+        assert getattr(obj, "__module__", None) == f"tauspec.{module}", name
+        assert obj is getattr(importlib.import_module(f"tauspec.{module}"), name)
+    assert set(dir(tauspec)) == set(tauspec._EXPORTS) | {"__version__"}
+
+
 def test_equilibrium_modulus_switch_and_no_plateau_option(tmp_path, capsys):
     # A Maxwell mode plus an equilibrium modulus (Ferry 1980, ch. 3: G' = G_e + g ω²τ²/(1 + ω²τ²)): the switch
     # that fits G_e is --equilibrium-modulus on every command that inverts; "plateau" is offered nowhere.

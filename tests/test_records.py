@@ -144,9 +144,9 @@ def test_arrays_compare_by_value_and_nan_equals_nan(results):
     assert dataclasses.replace(sp, H=sp.H.copy()) == sp
     assert dataclasses.replace(sp, H=sp.H * (1 + 1e-12)) != sp
     d = results["derived"]
-    assert math.isnan(d.Je0) or True  # a solid has NaN J_e⁰; equality below uses NaN == NaN either way
-    nan = dataclasses.replace(d, Je0=math.nan)
+    nan = dataclasses.replace(d, Je0=math.nan)  # a solid has NaN J_e⁰
     assert nan == dataclasses.replace(d, Je0=math.nan)
+    assert math.isfinite(d.Je0) and nan != d  # the log-normal liquid has a finite J_e⁰: NaN differs from a number
 
 
 def test_schema_of_another_kind_is_refused(results):

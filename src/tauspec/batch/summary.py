@@ -1,4 +1,4 @@
-"""summary.csv: one row per input file, rebuilt from the stored results, and its text table.
+"""summary.csv: one row per input file, rebuilt from the stored results.
 
 A row shows the input's own result only: the stored result must name the same file, otherwise the row says no
 result is stored.  Text cells a spreadsheet would run as a formula (``=``, ``+``, ``-``, ``@``, tab, CR) are
@@ -11,17 +11,16 @@ import csv
 import io
 import math
 import os
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
 from ..data.write import atomic_write_text
-from ..output.text import printable, spreadsheet_cell, spreadsheet_value
+from ..output.text import spreadsheet_cell, spreadsheet_value
 from .inputs import Input
 from .store import _load_json
 
-__all__ = ["SUMMARY_COLUMNS", "TEXT_COLUMNS", "summary_row", "summary_rows", "write_summary", "read_summary",
-           "summary_table"]
+__all__ = ["SUMMARY_COLUMNS", "TEXT_COLUMNS", "summary_row", "summary_rows", "write_summary", "read_summary"]
 
 
 #: Columns of ``summary.csv``, in order.
@@ -108,25 +107,3 @@ def read_summary(out: str | os.PathLike[str]) -> list[dict[str, str]]:
     with open(Path(out) / "summary.csv", encoding="utf-8", newline="") as fh:
         return [{k: spreadsheet_value(v) if k in TEXT_COLUMNS else v for k, v in row.items()}
                 for row in csv.DictReader(fh)]
-
-
-def _g(text: str, fmt: str = ".3g") -> str:
-    return format(float(text), fmt) if text else "–"
-
-
-def summary_table(rows: Sequence[Mapping[str, str]]) -> str:
-    """Return the summary rows as a plain-text table (errors with their reason), every name printable."""
-    rows = [{k: printable(v) for k, v in r.items()} for r in rows]
-    width = max([len(r["file"]) for r in rows] + [4])
-    head = (f"{'file':{width}s}  {'status':6s}  {'verdict':12s}  {'τ_R [s]':>9s}  {'G0 [Pa]':>9s}  "
-            f"{'a':>6s}  {'η0 [Pa·s]':>11s}  {'λ':>8s}  {'rms':>6s}")
-    lines = [head, "-" * len(head)]
-    for r in rows:
-        if r["status"] != "ok":
-            lines.append(f"{r['file']:{width}s}  {r['status']:6s}  {r['error']}")
-            continue
-        rms = f"{float(r['residual_rms']):.2%}" if r["residual_rms"] else "–"
-        lines.append(f"{r['file']:{width}s}  {r['status']:6s}  {r['verdict'] or '–':12s}  {_g(r['tau_R']):>9s}  "
-                     f"{_g(r['G0']):>9s}  {_g(r['alpha'], '.3f'):>6s}  {_g(r['eta0']):>11s}  "
-                     f"{_g(r['lambda']):>8s}  {rms:>6s}")
-    return "\n".join(lines)

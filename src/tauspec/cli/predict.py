@@ -1,6 +1,6 @@
 """``tauspec predict``: relaxation modulus, creep compliance or steady-shear viscosity predicted from a sweep.
 
-The sweep is represented by discrete Maxwell modes (:func:`tauspec.modes.fit_modes`), or by the continuous
+The sweep is represented by discrete Maxwell modes (:func:`tauspec.modes.fit.fit_modes`), or by the continuous
 spectrum with ``--basis spectrum``; each point of the predicted curve carries the share of its value that comes
 from relaxation times outside the supported window.  Without ``--out`` the curve is printed; with it, it is
 written as ``<quantity>.csv`` (and drawn with ``--plot``).

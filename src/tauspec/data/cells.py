@@ -8,7 +8,7 @@ cell's length; no regular expression runs over a cell.  ``float`` alone would al
 
 from __future__ import annotations
 
-__all__ = ["MISSING", "Missing", "parse_cell", "is_number", "decimal_mark"]
+__all__ = ["MISSING", "Missing", "parse_cell", "decimal_mark"]
 
 
 class Missing:
@@ -67,9 +67,3 @@ def parse_cell(text: str, *, decimal_comma: bool) -> float | Missing | None:
         return float(t)
     except ValueError:
         return None
-
-
-def is_number(text: str) -> bool:
-    """Whether ``text`` is a finite or infinite number with either decimal mark (not a missing marker)."""
-    value = parse_cell(text, decimal_comma=True)
-    return isinstance(value, float)

@@ -1,6 +1,6 @@
 """Data-level and spectrum-level signatures used by the bead-spring diagnosis.
 
-Pure functions over numpy arrays; each returns numbers, the decision is made in :mod:`tauspec.diagnosis`.
+Pure functions over numpy arrays; each returns numbers, the decision is made in :mod:`tauspec.analysis.diagnosis`.
 
 References
 ----------

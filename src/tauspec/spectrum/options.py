@@ -57,8 +57,8 @@ class InvertOptions:
                          help="rule that chooses λ for --strength auto: the L-curve corner or the GCV minimum")
     grid: int | np.ndarray | None = option(None, metavar="N", help="number of τ grid points (default 12 per decade)")
     solvent: bool = option(True, negate="--no-solvent",
-                           help="fit η_s, the Newtonian high-frequency contribution (solvent + modes faster "
-                                "than the window)")
+                           help="fit η_s, the Newtonian high-frequency contribution: solvent + modes faster "
+                                "than the window (--no-solvent: none)")
     equilibrium_modulus: bool = option(False, help="fit an equilibrium modulus G_e (gels, solids)")
     eta_s: float | None = option(None, metavar="PA_S",
                                  help="known solvent viscosity in Pa·s (subtracted instead of fitted)")
@@ -79,7 +79,11 @@ class InvertOptions:
             object.__setattr__(self, "strength", float(s))
         check_choice("select", self.select, sorted(RULES))
         if self.grid is not None and not isinstance(self.grid, int | np.integer):
-            tau = np.array(self.grid, dtype=float).reshape(-1)
+            try:
+                tau = np.array(self.grid, dtype=float).reshape(-1)
+            except (TypeError, ValueError):
+                raise SettingsError(f"grid must be a number of τ points or at least 10 times, "
+                                    f"not {self.grid!r}") from None
             lt = np.diff(np.log(tau)) if tau.size > 1 and np.all(tau > 0) else np.array([np.nan])
             if tau.size < 10 or not np.all(np.isfinite(lt)) or not np.allclose(lt, lt[0], rtol=1e-6) or lt[0] <= 0:
                 raise SettingsError("grid must be at least 10 increasing times, uniformly spaced in ln τ")

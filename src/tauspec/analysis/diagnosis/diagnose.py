@@ -1,7 +1,7 @@
 """Does the unentangled bead-spring (Rouse) description hold?  The evidence and the verdict.
 
-:func:`diagnose` fits the bead-spring models of :mod:`tauspec.beadspring` to a sweep, computes the data-level
-signatures of :mod:`tauspec.signatures` and the tests on the recovered spectrum, and decides one verdict by
+:func:`diagnose` fits the bead-spring models of :mod:`tauspec.models.beadspring` to a sweep, computes the data-level
+signatures of :mod:`tauspec.models.signatures` and the tests on the recovered spectrum, and decides one verdict by
 the rule documented in ``docs/diagnosis.md`` (and in :func:`decide`):
 
     rouse | zimm | entangled | gel | other | inconclusive

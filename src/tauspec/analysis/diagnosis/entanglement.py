@@ -4,7 +4,7 @@ Estimators of the plateau modulus G_N⁰ (each returns an :class:`Estimate` with
 
 * ``bsw_fit`` — the BSW form (Baumgaertel, Schausberger & Winter 1990) fitted to the terminal and
   entanglement zones (frequencies up to half a decade beyond the G'' minimum when the window reaches it),
-  G_N⁰ = the integral of its entanglement part (:mod:`tauspec.bsw`);
+  G_N⁰ = the integral of its entanglement part (:mod:`tauspec.models.bsw`);
 * ``spectrum_integral`` — the integral of the recovered H(τ) over the entanglement zone,
   G_N⁰ = ∫_{τ_e}^∞ H d ln τ, from where the spectrum leaves the transition zone (its minimum below the
   entanglement peak, or the short end of the supported window) upwards (Ferry 1980, ch. 13);

@@ -259,7 +259,7 @@ def _asymptote_evidence(w: np.ndarray, gp: np.ndarray, gpp: np.ndarray, best: Be
 
     Both compare the data with the N → ∞ asymptotes (Ferry 1980, ch. 9), with the Euler–Maclaurin −G0/2
     end term of G'.  A continuum-form (power) chain lacks the modes p > N of the infinite law: their
-    moduli, from the fitted G0, τ_1, N and a (:func:`tauspec.beadspring.power_tail`), are added back to
+    moduli, from the fitted G0, τ_1, N and a (:func:`tauspec.models.chains.power_tail`), are added back to
     the data.  (Measured: exact continuum Rouse data with N = 30 read tan δ = 0.79 without that term.)
     The discrete (sine) chain needs no such term: its fast modes bunch near p = N and make up the tail.
     """

@@ -26,7 +26,8 @@ class DiagnoseOptions:
 
     use_spectrum: bool = option(True, negate="--no-spectrum",
                                 help="make the continuous-spectrum tests (--no-spectrum: faster; listed as not made)")
-    solvent: bool = option(True, negate="--no-solvent", help="fit a Newtonian contribution η_s ω to G''")
+    solvent: bool = option(True, negate="--no-solvent",
+                           help="fit a Newtonian contribution η_s ω to G'' (--no-solvent: none)")
     intervals: bool = option(True, negate="--no-intervals",
                              help="profile-likelihood intervals (--no-intervals: Jacobian intervals, faster)")
 

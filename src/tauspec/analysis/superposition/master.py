@@ -57,7 +57,7 @@ class MasterCurve:
     interval ``aT_ci`` (n × 2, in a_T); ``bT`` the vertical factors with
     ``log_bT_se`` (ln units, zero when b_T came from the density rule);
     ``sweep`` is the master curve itself (ω a_T, G'/b_T, G''/b_T), a
-    :class:`~tauspec.sweep.Sweep` at T_ref whose ``meta`` records the shifts.
+    :class:`~tauspec.data.sweep.Sweep` at T_ref whose ``meta`` records the shifts.
 
     Attributes
     ----------
@@ -290,7 +290,7 @@ def superpose(
     are chained to T_ref; when T_ref lies between two sweep temperatures the
     step between them is split in the proportion the fitted WLF equation
     gives (Arrhenius with only two temperatures).  WLF and Arrhenius are
-    fitted to the pairwise shifts (see :mod:`tauspec.shift_models`).
+    fitted to the pairwise shifts (see :mod:`tauspec.models.shift_laws`).
 
     Parameters
     ----------
