@@ -150,3 +150,17 @@ def test_basis_spectrum(sweep_file, tmp_path, capsys):
     from_spectrum = json.loads(capsys.readouterr().out)
     assert from_spectrum["curve"]["basis"] == "spectrum"
     np.testing.assert_allclose(from_spectrum["curve"]["y"], from_modes["curve"]["y"], rtol=0.05)
+
+
+def test_creep_of_a_set_it_cannot_be_computed_from_is_an_error():
+    """The exact interconversion (Tschoegl 1989, as in modes/retardation.py) needs distinct relaxation times:
+    two Maxwell modes at one τ are reported as an error, not returned as a J(t) of NaN."""
+    from types import SimpleNamespace
+
+    twins = SimpleNamespace(g=np.array([1e3, 2e3]), tau=np.array([1.0, 1.0]), eta_s=0.0, G_e=0.0, window=None)
+    with pytest.raises(SettingsError, match="share one relaxation time"):
+        creep_compliance(twins, [0.1, 1.0])
+    # the share from outside a window that holds no mode is still computed: every point comes from outside
+    outside = SimpleNamespace(g=np.array([1e3]), tau=np.array([10.0]), eta_s=1.0, G_e=0.0, window=(0.01, 0.1))
+    curve = creep_compliance(outside, [0.1, 1.0])
+    assert np.all(np.isfinite(curve.y)) and np.all(curve.outside_share > 0.05)

@@ -80,10 +80,7 @@ def _G_of_t(s: _Set, t: np.ndarray) -> np.ndarray:
 
 
 def _J_of_t(s: _Set, t: np.ndarray) -> np.ndarray:
-    try:
-        return retardation_spectrum(s.g, s.tau, eta_s=s.eta_s, G_e=s.G_e).compliance(t)
-    except SettingsError:
-        return np.full(t.shape, np.nan)
+    return retardation_spectrum(s.g, s.tau, eta_s=s.eta_s, G_e=s.G_e).compliance(t)
 
 
 def _eta_star(s: _Set, w: np.ndarray) -> np.ndarray:
@@ -94,9 +91,17 @@ def _eta_star(s: _Set, w: np.ndarray) -> np.ndarray:
 def _curve(obj: Any, x: Any, what: str, fn: Any, **labels: str) -> Curve:
     s = _as_set(obj)
     xs = _positive(x, what)
-    y = fn(s, xs)
-    share = _share(y, fn(s.inside_part(), xs)) if s.window is not None else np.zeros_like(y)
+    y = fn(s, xs)  # a set the quantity cannot be computed from is the caller's error (SettingsError)
+    share = _share(y, _inside(fn, s, xs)) if s.window is not None else np.zeros_like(y)
     return Curve(x=xs, y=y, outside_share=np.atleast_1d(share), basis=s.kind, window=s.window, **labels)
+
+
+def _inside(fn: Any, s: _Set, xs: np.ndarray) -> np.ndarray:
+    """The quantity from the part of the set inside the supported window; NaN where that part has none."""
+    try:
+        return fn(s.inside_part(), xs)
+    except SettingsError:  # nothing inside the window (an empty set): every point comes from outside it
+        return np.full(xs.shape, np.nan)
 
 
 def relaxation_modulus(obj: Any, t: Any) -> Curve:

@@ -111,7 +111,7 @@ def _prepare(sweep: Sweep, T: float, index: int) -> _Curve:
     yp, ypp = np.log(sweep.storage), np.log(sweep.loss)
     fp = _fit_poly(x, yp)
     sp = max(fp.sigma, NOISE_FLOOR)
-    spp = max(_fit_poly(x, ypp).sigma, NOISE_FLOOR)
+    spp = noise_level(sweep.omega, sweep.loss)
     return _Curve(index, T, x, yp, ypp, fp, sp, spp, sweep.source or sweep.name)
 
 
