@@ -57,7 +57,7 @@ BAD = {
                        r"frequenc|ω|omega"),
     "negative_frequency": (lambda p: p.write_text(table(-GOOD.omega, GOOD.storage, GOOD.loss)),
                            r"frequenc|ω|omega"),
-    "single_row": (lambda p: p.write_text("\n".join(GOOD_ROWS[:2]) + "\n"), r"1 data points; at least"),
+    "single_row": (lambda p: p.write_text("\n".join(GOOD_ROWS[:2]) + "\n"), r"1 data point; at least"),
     "duplicate_frequencies": (lambda p: p.write_text(table(np.repeat(GOOD.omega[:10], 2), GOOD.storage,
                                                            GOOD.loss)), r"duplicate|same|repeat"),
     # Text that is not UTF-8 is read as cp1252 with a warning (the reader issue); UTF-16 needs its byte-order mark.

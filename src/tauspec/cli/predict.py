@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import SettingsError, TauspecError
+from ..output.words import counted
 from ..spectrum.options import InvertOptions
 from .common import add_output_arguments, check_output_arguments, figure_formats, output_dir_for, run_each_file
 from .options import add_options, options_from_args
@@ -113,7 +114,7 @@ def predict_file(path: str, args: argparse.Namespace) -> tuple[dict[str, Any], s
         except OSError as exc:
             raise TauspecError(f"cannot write the prediction ({exc.strerror or exc})", str(csv)) from None
     derived = derive(source)
-    head = (f"{sweep.name}: {modes.n_modes} Maxwell modes (rms residual {100 * modes.residual_rms:.1f} %)"
+    head = (f"{sweep.name}: {counted(modes.n_modes, 'Maxwell mode')} (rms residual {100 * modes.residual_rms:.1f} %)"
             if spectrum is None else f"{sweep.name}: continuous spectrum (rms residual "
             f"{100 * spectrum.residual_rms:.1f} %)")
     text, caveats = curve_text(curve, table=out is None)

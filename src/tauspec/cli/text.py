@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from ..output.words import number, quantity
+from ..output.words import counted, number, quantity
 
 __all__ = ["spectrum_text", "modes_text", "derived_text", "bands_text", "curve_text"]
 
@@ -40,7 +40,7 @@ def modes_text(modes: Any) -> tuple[str, list[str]]:
     """The Maxwell modes as a small table (± standard errors), those outside the window marked."""
     how = (f"F-test, significance {modes.options.significance:g}" if modes.options.n_modes is None
            else "number given")
-    lines = [f"  {modes.n_modes} Maxwell modes ({how}), rms residual {100 * modes.residual_rms:.1f} %:",
+    lines = [f"  {counted(modes.n_modes, 'Maxwell mode')} ({how}), rms residual {100 * modes.residual_rms:.1f} %:",
              f"    {'g ± std. error [Pa]':<21}  τ ± std. error [s]"]
     for g, gse, t, tse, out in zip(modes.g, modes.g_se, modes.tau, modes.tau_se, modes.outside_window):
         row = f"    {number(g):>8} ± {number(gse, 2):<10}  {number(t):>8} ± {number(tse, 2):<10}"

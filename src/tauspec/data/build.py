@@ -83,7 +83,8 @@ def build_sweep(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, line_n
         meta["dropped_lines"] = line_ranges(negative + missing)
         omega, storage, loss, line_no = omega[keep], storage[keep], loss[keep], line_no[keep]
     if len(omega) < MIN_POINTS:
-        raise SweepError(f"{len(omega)} data points; at least {MIN_POINTS} are needed", source)
+        points = "1 data point" if len(omega) == 1 else f"{len(omega)} data points"
+        raise SweepError(f"{points}; at least {MIN_POINTS} are needed", source)
     _check_range(storage, MODULUS_RANGE, "G'", "Pa", line_no, source)
     _check_range(loss, MODULUS_RANGE, "G''", "Pa", line_no, source)
     return Sweep(omega=omega, storage=storage, loss=loss, name=name, meta=meta, source=source)

@@ -16,6 +16,7 @@ from typing import Any
 from .diagnosis_words import entanglement_lines
 from .words import (
     QUANTITIES,
+    counted,
     error_words,
     evidence_line,
     gel_exponent,
@@ -284,7 +285,7 @@ def _facts(result: Mapping[str, Any]) -> list[str]:
             facts.append(f"rms residual {100 * float(spec['residual_rms']):.1f} %")
     modes = result.get("modes") or {}
     if modes.get("g") is not None:
-        facts.append(f"{len(modes['g'])} Maxwell modes")
+        facts.append(counted(len(modes["g"]), "Maxwell mode"))
     return facts
 
 

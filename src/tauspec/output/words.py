@@ -13,7 +13,7 @@ from typing import Any
 
 __all__ = ["QUANTITIES", "EVIDENCE_WORDS", "VERDICT_WORDS", "number", "quantity", "interval", "evidence_line",
            "symbol", "unit", "words", "plain_words", "key_numbers", "gel_exponent",
-           "is_finite_number", "error_words"]
+           "is_finite_number", "error_words", "counted"]
 
 #: JSON key → (symbol, words, unit).  A unit of "" is a pure number.
 QUANTITIES: Mapping[str, tuple[str, str, str]] = {
@@ -107,6 +107,11 @@ def plain_words(text: Any) -> str:
     for pattern, repl in _SYMBOLS:
         out = re.sub(pattern, repl, out)
     return out
+
+
+def counted(n: int, noun: str) -> str:
+    """``n`` and the noun, in the plural unless n is one: "1 Maxwell mode", "3 Maxwell modes"."""
+    return f"{n} {noun}" if n == 1 else f"{n} {noun}s"
 
 
 def symbol(key: str) -> str:
