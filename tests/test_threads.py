@@ -39,7 +39,7 @@ def _spy(monkeypatch, module, name):
 
 
 def test_invert_runs_at_one_thread_and_restores_the_callers_setting(two_threads, monkeypatch):
-    seen = _spy(monkeypatch, regularize, "_bpp")
+    seen = _spy(monkeypatch, regularize, "block_pivoting")
     invert(lognormal_sweep(1))
     assert seen and all(max(t) == 1 for t in seen)
     assert max(_blas_threads()) == 2  # the caller's two threads are back

@@ -34,16 +34,13 @@ import numpy as np
 from scipy.linalg import lapack
 from scipy.optimize import nnls
 
-from .pivoting import AugmentedSubproblem, NormalSubproblem, active_set, block_pivoting, bordered, cholesky_on
+from .pivoting import AugmentedSubproblem, NormalSubproblem, active_set, block_pivoting
 
 __all__ = ["TikhonovPath", "PathSolution", "second_difference", "solve_cvxpy", "objective"]
 
 
 _dpotrf = lapack.dpotrf
 _dpotri = lapack.dpotri
-# the factor helpers under their former names (tests of the bordered factor import them from here)
-_cholesky = cholesky_on
-_bordered = bordered
 
 
 def second_difference(n: int, spacing: float = 1.0) -> np.ndarray:
@@ -154,7 +151,7 @@ class TikhonovPath:
         M = self.AtA + (strength * strength) * self.LtL
         q = self.Atb
         if not augmented:
-            out = _bpp(M, q, passive, NormalSubproblem(M, q))
+            out = block_pivoting(M, q, passive, NormalSubproblem(M, q))
             if out is not None and self._kkt_ok(q, out[0], out[1]):
                 return self._found(out, False)
         if self._stacked is None:
@@ -269,12 +266,6 @@ def _extrapolated(x1: np.ndarray, x2: np.ndarray, passive: np.ndarray, most: int
         drop = drop[np.argsort(e[drop] / np.maximum(x1[drop], 1e-300))[:most]]
     guess[drop] = False
     return guess
-
-
-def _bpp(M: np.ndarray, q: np.ndarray, passive: np.ndarray | None,
-         sub: NormalSubproblem | AugmentedSubproblem) -> tuple[np.ndarray, ...] | None:
-    """Block principal pivoting for one strength (:func:`~tauspec.spectrum.pivoting.block_pivoting`)."""
-    return block_pivoting(M, q, passive, sub)
 
 
 def solve_cvxpy(
