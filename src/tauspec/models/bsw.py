@@ -170,7 +170,11 @@ class _Problem:
 
     def columns(self, theta: np.ndarray) -> np.ndarray:
         """Relative-residual design matrix of the linear amplitudes (A_e, A_g, η_s) at θ."""
-        cols = [np.concatenate(g) * self.inv for _, g in self._terms(theta)]
+        return self._design(self._terms(theta))
+
+    def _design(self, terms: list[tuple[float, tuple[np.ndarray, np.ndarray]]]) -> np.ndarray:
+        """The design matrix from the unit moduli of the power-law terms (and the solvent column)."""
+        cols = [np.concatenate(g) * self.inv for _, g in terms]
         return np.column_stack(cols + ([self.s] if self.solvent else []))
 
     def _linear(self, B: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray | None]:
@@ -201,8 +205,7 @@ class _Problem:
         """
         tmax = math.exp(theta[0])
         terms = self._terms(theta)
-        cols = [np.concatenate(g) * self.inv for _, g in terms]
-        B = np.column_stack(cols + ([self.s] if self.solvent else []))
+        B = self._design(terms)
         scale, cs, free, r, R = self._linear(B)
 
         def jacobian() -> np.ndarray:
