@@ -151,8 +151,8 @@ def test_the_progress_bar_is_silent_when_redirected_or_quiet(bare, tmp_path):
     (tmp_path / "s.toml").write_text("[invert]\ngrid = 24\n[modes]\nrun = false\n[diagnose]\nrun = false\n")
     batch = ["tauspec", "batch", str(arch), "--settings", str(tmp_path / "s.toml"), "--out"]
     status, shown = in_terminal([*batch, str(tmp_path / "a")], bare, tmp_path)
-    assert status == 0 and BAR.search(shown) and "2 files: 2 ok" in shown
+    assert status == 0 and BAR.search(shown) and "2 samples: 2 ok" in shown
     status, shown = in_terminal([*batch, str(tmp_path / "b"), "--quiet"], bare, tmp_path)
     assert (status, shown) == (0, "")
     proc = subprocess.run([*batch, str(tmp_path / "c")], env=bare, cwd=tmp_path, capture_output=True, text=True)
-    assert proc.returncode == 0 and proc.stderr == "" and "2 files: 2 ok" in proc.stdout
+    assert proc.returncode == 0 and proc.stderr == "" and "2 samples: 2 ok" in proc.stdout

@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any
 
 from ..data.write import dumps_json
+from ..output.words import counted
 from .common import add_output_arguments, figure_formats
 from .options import add_options
 
@@ -99,7 +100,7 @@ def run(args: argparse.Namespace) -> int:
             print(dumps_json(json_row(row)), flush=True)
         return report.status
     if not args.quiet:
-        print(f"{report.inputs} files: {report.ok} ok, {report.failed} failed "
+        print(f"{counted(report.inputs, 'sample')}: {report.ok} ok, {report.failed} failed "
               f"({report.computed} computed, {report.skipped} already current) in {report.seconds:.1f} s")
         for row in rows:
             if row["status"] != "ok":

@@ -10,6 +10,7 @@ import time
 from pathlib import Path
 from typing import Any
 
+from ..output.words import counted
 from .common import add_output_arguments, check_output_arguments
 
 #: The demo's default folder (documented in ``--help`` and the README): the one place it writes without ``--out``.
@@ -83,7 +84,7 @@ def run(args: argparse.Namespace) -> int:
     counts = json.loads((results / "run.json").read_text(encoding="utf-8")).get("counts", {})
     say("")
     say(_table(results, rows))
-    say(f"   {len(rows)} files: {ok} ok, {len(rows) - ok} failed (one export is corrupted on purpose); "
+    say(f"   {counted(len(rows), 'sample')}: {ok} ok, {len(rows) - ok} failed (one export is corrupted on purpose); "
         f"{counts.get('computed', 0)} computed, {counts.get('skipped', 0)} already current; {seconds['batch']:.0f} s")
 
     from ..output.results import read_run_index, result_folder

@@ -27,6 +27,7 @@ from ..errors import TauspecError
 from .report_html import CSS, FIGURE_ORDER, HEADERS, SCRIPT, legend_html, row_html, section_html, symbols_used, text
 from .results import read_result_json, read_run_index, result_folder
 from .text import BIDI_CONTROLS, show_bidi_controls, spreadsheet_value
+from .words import counted
 
 __all__ = ["write_report", "REPORT_NAME", "PAGES_FOLDER", "PAGE_SIZE"]
 
@@ -220,7 +221,8 @@ def write_report(folder: str | os.PathLike[str], *, title: str | None = None, ou
                         + "</nav>")
     else:
         samples_html = "<h2>Samples</h2>" + "".join(sec for _, _, sec in sections)
-    body = (f"<header><h1>{page_title}</h1><p>{len(rows)} files: {n_ok} processed, {len(failed)} failed.</p></header>"
+    samples = counted(len(rows), "sample")
+    body = (f"<header><h1>{page_title}</h1><p>{samples}: {n_ok} processed, {len(failed)} failed.</p></header>"
             f"<main><h2>Summary</h2>{_controls(rows)}"
             f'<div class="table-wrap"><table id="summary"><thead><tr>{head}</tr></thead><tbody>{"".join(trs)}'
             f"</tbody></table></div>{legend_html(symbols)}"
