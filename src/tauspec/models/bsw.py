@@ -43,7 +43,8 @@ References
 Baumgaertel, M., Schausberger, A. & Winter, H. H. (1990). Rheol. Acta 29, 400–408.
 Golub, G. H. & Pereyra, V. (1973). SIAM J. Numer. Anal. 10, 413.
 Golub, G. H. & Pereyra, V. (2003). Inverse Problems 19, R1.
-Moré, J. J. (1978). The Levenberg–Marquardt algorithm. Lecture Notes in Mathematics 630, 105.
+Moré, J. J. (1978). The Levenberg–Marquardt algorithm. In *Numerical Analysis* (ed. G. A. Watson), Springer,
+vol. 630, 105.
 Bates, D. M. & Watts, D. G. (1988). *Nonlinear Regression Analysis and Its Applications*, Wiley.
 """
 

@@ -19,8 +19,8 @@ References
 ----------
 Golub, G. H. & Pereyra, V. (1973). SIAM J. Numer. Anal. 10, 413–432.
 Golub, G. H. & Pereyra, V. (2003). Inverse Problems 19, R1–R26.
-Moré, J. J. (1978). The Levenberg–Marquardt algorithm: implementation and theory. Lecture Notes in
-Mathematics 630, 105–116.
+Moré, J. J. (1978). The Levenberg–Marquardt algorithm: implementation and theory. In *Numerical Analysis*
+(ed. G. A. Watson), Springer, vol. 630, 105–116.
 Nielsen, H. B. (1999). Damping parameter in Marquardt's method. IMM-REP-1999-05, DTU.
 Lawson, C. L. & Hanson, R. J. (1974). *Solving Least Squares Problems*, ch. 23 (NNLS).
 """
