@@ -11,10 +11,11 @@ from typing import Any
 import numpy as np
 
 from ..errors import SettingsError, SweepError
-from .record import field, record
+from .record import field, option, record
 from .units import parse_quantity, temperature_kelvin
 
-__all__ = ["Sweep", "MIN_POINTS", "OMEGA_RANGE", "MODULUS_RANGE", "check_frequency_range"]
+__all__ = ["Sweep", "MIN_POINTS", "OMEGA_RANGE", "MODULUS_RANGE", "check_frequency_range", "frequency_range_option",
+           "set_frequency_range"]
 
 
 #: Fewest usable points a sweep must have (common practice: an inversion with
@@ -185,3 +186,18 @@ def check_frequency_range(omega_min: Any, omega_max: Any) -> tuple[float | None,
     if out[0] is not None and out[1] is not None and not out[0] < out[1]:
         raise SettingsError(f"omega_min must be below omega_max, not {out[0]:g} ≥ {out[1]:g}")
     return out[0], out[1]
+
+
+def frequency_range_option(end: str, *, cli: bool = True) -> Any:
+    """The ``omega_min`` (``end="min"``) or ``omega_max`` field of an options record, as the command line offers it."""
+    if end == "min":
+        return option(None, metavar="RAD_S", cli=cli, help="leave out the points below this angular frequency (rad/s)")
+    return option(None, metavar="RAD_S", cli=cli, help="leave out the points above this angular frequency (rad/s), "
+                                                       "e.g. those spoiled by instrument inertia")
+
+
+def set_frequency_range(record: Any) -> None:
+    """Validate the ``omega_min``/``omega_max`` fields of a frozen options record and store them as floats."""
+    lo, hi = check_frequency_range(record.omega_min, record.omega_max)
+    object.__setattr__(record, "omega_min", lo)
+    object.__setattr__(record, "omega_max", hi)

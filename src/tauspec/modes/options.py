@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from ..data.record import check_bool, check_number, option, record
-from ..data.sweep import check_frequency_range
+from ..data.sweep import frequency_range_option, set_frequency_range
 from ..spectrum.options import InvertOptions
 
 __all__ = ["ModesOptions"]
@@ -40,8 +40,8 @@ class ModesOptions:
     solvent: bool = option(True, cli=False, help="fit η_s")
     equilibrium_modulus: bool = option(False, cli=False, help="fit G_e")
     eta_s: float | None = option(None, cli=False, help="known solvent viscosity (Pa·s)")
-    omega_min: float | None = option(None, cli=False, help="lowest angular frequency used (rad/s)")
-    omega_max: float | None = option(None, cli=False, help="highest angular frequency used (rad/s)")
+    omega_min: float | None = frequency_range_option("min", cli=False)
+    omega_max: float | None = frequency_range_option("max", cli=False)
 
     @classmethod
     def like(cls, invert_options: InvertOptions, **changes: Any) -> ModesOptions:
@@ -64,6 +64,4 @@ class ModesOptions:
         if self.eta_s is not None:
             check_number("eta_s", self.eta_s, lo=0, what="a nonnegative viscosity in Pa·s", say_range=False)
             object.__setattr__(self, "eta_s", float(self.eta_s))
-        lo, hi = check_frequency_range(self.omega_min, self.omega_max)
-        object.__setattr__(self, "omega_min", lo)
-        object.__setattr__(self, "omega_max", hi)
+        set_frequency_range(self)

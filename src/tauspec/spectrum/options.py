@@ -8,7 +8,7 @@ from collections.abc import Mapping
 import numpy as np
 
 from ..data.record import check_bool, check_choice, check_number, option, record
-from ..data.sweep import check_frequency_range
+from ..data.sweep import frequency_range_option, set_frequency_range
 from ..errors import SettingsError
 from .rules import RULES
 
@@ -65,11 +65,8 @@ class InvertOptions:
     bounds: Mapping[str, tuple[float, float]] | None = option(None, cli=False, help="bounds on H, eta_s, G_e (SI)")
     solver: str = option("auto", cli=False, choices=SOLVERS, help="solver of the regularized problem")
     n_strengths: int = option(50, cli=False, help="strengths on the initial path")
-    omega_min: float | None = option(None, metavar="RAD_S",
-                                     help="leave out the points below this angular frequency (rad/s)")
-    omega_max: float | None = option(None, metavar="RAD_S",
-                                     help="leave out the points above this angular frequency (rad/s), e.g. "
-                                          "those spoiled by instrument inertia")
+    omega_min: float | None = frequency_range_option("min")
+    omega_max: float | None = frequency_range_option("max")
 
     def __post_init__(self) -> None:
         if not (isinstance(self.strength, str) and self.strength == "auto"):
@@ -99,9 +96,7 @@ class InvertOptions:
             object.__setattr__(self, "eta_s", float(self.eta_s))
         check_choice("solver", self.solver, SOLVERS)
         check_number("n_strengths", self.n_strengths, lo=8, integer=True, what="a whole number")
-        lo, hi = check_frequency_range(self.omega_min, self.omega_max)
-        object.__setattr__(self, "omega_min", lo)
-        object.__setattr__(self, "omega_max", hi)
+        set_frequency_range(self)
         if self.bounds is not None:
             self._check_bounds()
 

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from ...data.record import check_bool, option, record
-from ...data.sweep import check_frequency_range
+from ...data.sweep import frequency_range_option, set_frequency_range
 
 __all__ = ["DiagnoseOptions"]
 
@@ -31,15 +31,10 @@ class DiagnoseOptions:
     intervals: bool = option(True, negate="--no-intervals",
                              help="profile-likelihood intervals (--no-intervals: Jacobian intervals, faster)")
 
-    omega_min: float | None = option(None, metavar="RAD_S",
-                                     help="leave out the points below this angular frequency (rad/s)")
-    omega_max: float | None = option(None, metavar="RAD_S",
-                                     help="leave out the points above this angular frequency (rad/s), e.g. "
-                                          "those spoiled by instrument inertia")
+    omega_min: float | None = frequency_range_option("min")
+    omega_max: float | None = frequency_range_option("max")
 
     def __post_init__(self) -> None:
         for name in ("use_spectrum", "solvent", "intervals"):
             check_bool(name, getattr(self, name))
-        lo, hi = check_frequency_range(self.omega_min, self.omega_max)
-        object.__setattr__(self, "omega_min", lo)
-        object.__setattr__(self, "omega_max", hi)
+        set_frequency_range(self)
