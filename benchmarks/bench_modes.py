@@ -26,7 +26,6 @@ import argparse
 import json
 import statistics
 import sys
-import time
 import warnings
 from pathlib import Path
 
@@ -48,15 +47,7 @@ from tauspec.models.bsw import fit_bsw  # noqa: E402
 from tauspec.modes.fit import fit_modes  # noqa: E402
 from tauspec.spectrum.invert import invert  # noqa: E402
 from tauspec.spectrum.kernels import modes_moduli  # noqa: E402
-
-
-def _timed(fn, repeats):
-    times, out = [], None
-    for _ in range(repeats):
-        t = time.perf_counter()
-        out = fn()
-        times.append(time.perf_counter() - t)
-    return {"median_s": statistics.median(times), "min_s": min(times), "max_s": max(times)}, out
+from timing import timed  # noqa: E402 - benchmarks/ is on the path (run directly or by run.py)
 
 
 def cases(quick: bool = False) -> dict[str, tuple[Sweep, bool]]:
@@ -81,12 +72,12 @@ def run(quick: bool = False) -> dict:
         fit_modes(first, n_modes=3)  # imports and caches outside the timings
         fit_all(first.omega, first.storage, first.loss)
         for name, (sweep, from_spectrum) in cases(quick).items():
-            inv, spectrum = _timed(lambda s=sweep: invert(s), repeats)
+            inv, spectrum = timed(lambda s=sweep: invert(s), repeats)
             spec = spectrum if from_spectrum else None
-            new, m = _timed(lambda s=sweep, sp=spec: fit_modes(s, sp), repeats)
-            ref, mr = _timed(lambda s=sweep, sp=spec: modes_reference.fit_modes(s, sp), repeats)
-            cn, fits = _timed(lambda s=sweep: fit_all(s.omega, s.storage, s.loss), repeats)
-            cr, fits_r = _timed(lambda s=sweep: chain_reference.fit_all(s.omega, s.storage, s.loss), repeats)
+            new, m = timed(lambda s=sweep, sp=spec: fit_modes(s, sp), repeats)
+            ref, mr = timed(lambda s=sweep, sp=spec: modes_reference.fit_modes(s, sp), repeats)
+            cn, fits = timed(lambda s=sweep: fit_all(s.omega, s.storage, s.loss), repeats)
+            cr, fits_r = timed(lambda s=sweep: chain_reference.fit_all(s.omega, s.storage, s.loss), repeats)
             rows.update({f"{name}: fit_modes": new, f"{name}: fit_modes, reference": ref, f"{name}: invert": inv,
                          f"{name}: fit_all (chains)": cn, f"{name}: fit_all, reference": cr})
             ratios[f"{name}: modes reference / new"] = ref["median_s"] / new["median_s"]
@@ -132,9 +123,9 @@ def run_bsw(quick: bool = False) -> dict:
     for name, sw in cases_.items():
         tn, tr = [], []
         for _ in range(repeats):
-            t, new = _timed(lambda s=sw: _both(fit_bsw, s), 1)
+            t, new = timed(lambda s=sw: _both(fit_bsw, s), 1)
             tn.append(t["median_s"])
-            t, ref = _timed(lambda s=sw: _both(bsw_reference.fit_bsw, s), 1)
+            t, ref = timed(lambda s=sw: _both(bsw_reference.fit_bsw, s), 1)
             tr.append(t["median_s"])
         new_t = {"median_s": statistics.median(tn), "min_s": min(tn), "max_s": max(tn)}
         ref_t = {"median_s": statistics.median(tr), "min_s": min(tr), "max_s": max(tr)}

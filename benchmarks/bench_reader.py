@@ -18,29 +18,16 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import statistics
 import tempfile
-import time
 import warnings
 from pathlib import Path
 
 from tauspec.data.read import parse_sweep_text, read_sweep
 from tauspec.errors import SweepError
+from timing import timed  # noqa: E402 - benchmarks/ is on the path (run directly or by run.py)
 
 FIXTURE = Path(__file__).resolve().parents[1] / "tests" / "data" / "quoted_kpa.csv"
 HEADER = "omega [rad/s],G' [Pa],G'' [Pa]\n"
-
-
-def _timed(fn, repeats):
-    times = []
-    for _ in range(repeats):
-        t = time.perf_counter()
-        try:
-            fn()
-        except SweepError:
-            pass
-        times.append(time.perf_counter() - t)
-    return {"median_s": statistics.median(times), "min_s": min(times), "max_s": max(times)}
 
 
 def _rows(n: int) -> str:
@@ -73,22 +60,23 @@ def run(quick: bool = False) -> dict:
         long_meta.write_text("# note: " + "x" * 65_536 + "\n" + HEADER + "1,2,3\n")
         text_file = folder / "text.csv"
         text_file.write_text(("Storage Modulus " * 256 + "\n") * 7000)
-        rows["baseline: read a 16-point export"] = _timed(lambda: read_sweep(FIXTURE), repeats)
+        rows["baseline: read a 16-point export"] = timed(lambda: read_sweep(FIXTURE), repeats, ignore=(SweepError,))[0]
         cases = {"(a) refuse 1,000,000 rows": million, "(b) refuse a 16,000-bracket header": long_header,
                  "(c) refuse a 64 KiB metadata line": long_meta, "(d) refuse a FIFO": fifo,
                  "(g) refuse 27 MiB of 4,096-character text lines": text_file}
         for label, path in cases.items():
-            rows[label] = _timed(lambda p=path: read_sweep(p), repeats)
+            rows[label] = timed(lambda p=path: read_sweep(p), repeats, ignore=(SweepError,))[0]
             messages[label] = _refusal(lambda p=path: read_sweep(p))
     sizes = (5_000, 10_000) if quick else (50_000, 100_000)
     for n in sizes:
         text = _rows(n)
-        rows[f"(e) read {n:,} rows"] = _timed(lambda t=text: parse_sweep_text(t, source="rows.csv"), 1 if quick else 3)
+        rows[f"(e) read {n:,} rows"] = timed(lambda t=text: parse_sweep_text(t, source="rows.csv"),
+                                              1 if quick else 3, ignore=(SweepError,))[0]
     for what, unit in (("brackets", "[ "), ("blanks", " ")):
         for n in (1024, 4096):
             text = "omega," + unit * ((n - 12) // len(unit)) + ",G'\n1,2\n"
-            rows[f"(f) {n}-character header of {what}"] = _timed(
-                lambda t=text: parse_sweep_text(t, source="h.csv"), repeats)
+            rows[f"(f) {n}-character header of {what}"] = timed(
+                lambda t=text: parse_sweep_text(t, source="h.csv"), repeats, ignore=(SweepError,))[0]
     base = rows["baseline: read a 16-point export"]["median_s"]
     ratios = {k[:3] + " / baseline": v["median_s"] / base for k, v in rows.items() if k[:3] in ("(a)", "(b)", "(c)",
                                                                                               "(d)", "(g)")}

@@ -15,7 +15,6 @@ from __future__ import annotations
 import argparse
 import json
 import shutil
-import statistics
 import sys
 import tempfile
 import time
@@ -24,18 +23,7 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 
-
-def _timed(fn, repeats: int) -> list[float]:
-    out = []
-    for _ in range(repeats):
-        t = time.perf_counter()
-        fn()
-        out.append(time.perf_counter() - t)
-    return out
-
-
-def _row(times: list[float]) -> dict:
-    return {"median_s": statistics.median(times), "min_s": min(times), "max_s": max(times)}
+from timing import row, timed  # noqa: E402 - benchmarks/ is on the path (run directly or by run.py)
 
 
 def run(quick: bool = False, n: int = 36, jobs: int = 2, repeats: int = 3, baseline: bool = True) -> dict:
@@ -54,20 +42,20 @@ def run(quick: bool = False, n: int = 36, jobs: int = 2, repeats: int = 3, basel
         t = time.perf_counter()
         done = run_batch([root / "archive"], out, settings=BatchSettings(plots=True), jobs=jobs)
         batch_s = time.perf_counter() - t
-        report_s = _timed(lambda: write_report(out), repeats)
+        report_row, _ = timed(lambda: write_report(out), repeats)
         report = out / "report.html"
         pages = sorted((out / PAGES_FOLDER).glob("page-*.html"))
-        rows = {f"batch of {n} sweeps with figures (--jobs {jobs})": _row([batch_s]),
-                "report from the stored figures": _row(report_s)}
-        ratios = {"report / batch": statistics.median(report_s) / batch_s}
+        rows = {f"batch of {n} sweeps with figures (--jobs {jobs})": row([batch_s]),
+                "report from the stored figures": report_row}
+        ratios = {"report / batch": report_row["median_s"] / batch_s}
         if baseline:
             bare = root / "bare"
             shutil.copytree(out, bare)
             for png in bare.rglob("*.png"):
                 png.unlink()
-            drawn = _timed(lambda: write_report(bare, draw=True), 1)
-            rows["report drawing every figure itself (baseline)"] = _row(drawn)
-            ratios["report drawing the figures / batch"] = drawn[0] / batch_s
+            drawn, _ = timed(lambda: write_report(bare, draw=True), 1)
+            rows["report drawing every figure itself (baseline)"] = drawn
+            ratios["report drawing the figures / batch"] = drawn["median_s"] / batch_s
         return {"rows": rows, "ratios": ratios, "sweeps": n, "ok": done.ok, "jobs": jobs,
                 "summary_page_bytes": report.stat().st_size, "pages": len(pages),
                 "largest_page_bytes": max((p.stat().st_size for p in pages), default=0)}

@@ -21,9 +21,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
-import statistics
 import sys
-import time
 import warnings
 from pathlib import Path
 
@@ -33,18 +31,10 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 from synthetic import lognormal_H, lognormal_sweep  # noqa: E402
 from tauspec.analysis.uncertainty.bands import INTERVALS, confidence_bands, pointwise_interval  # noqa: E402
 from tauspec.spectrum.invert import invert  # noqa: E402
+from timing import timed  # noqa: E402 - benchmarks/ is on the path (run directly or by run.py)
 
 LEVELS = (0.5, 0.68, 0.8, 0.9, 0.95)
 G_T = 1e4
-
-
-def _times(fn, repeats):
-    times = []
-    for _ in range(repeats):
-        t = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t)
-    return {"median_s": statistics.median(times), "min_s": min(times), "max_s": max(times)}
 
 
 def speed(quick: bool, jobs_list=(1, 2)) -> dict:
@@ -52,14 +42,14 @@ def speed(quick: bool, jobs_list=(1, 2)) -> dict:
     warnings.simplefilter("ignore")
     sweep = lognormal_sweep(3, noise=0.02, n=60)
     n_res = 60 if quick else 200
-    inv = _times(lambda: invert(sweep), 5 if quick else 9)
+    inv, _ = timed(lambda: invert(sweep), 5 if quick else 9)
     t_inv = inv["median_s"]
     sp = invert(sweep)
     out = {"frequencies": 60, "grid": int(len(sp.tau)), "resamples": n_res, "invert_s": t_inv, "invert": inv,
            "runs": []}
     for mode in ("rechosen", "fixed"):
         for jobs in jobs_list:
-            tb = _times(lambda j=jobs, m=mode: confidence_bands(sp, resamples=n_res, jobs=j, strength_mode=m), 1)
+            tb, _ = timed(lambda j=jobs, m=mode: confidence_bands(sp, resamples=n_res, jobs=j, strength_mode=m), 1)
             base = n_res * t_inv / jobs
             out["runs"].append({"strength_mode": mode, "jobs": jobs, "bands_s": tb["median_s"], "times": tb,
                                 "baseline_s": base, "ratio": tb["median_s"] / base})
