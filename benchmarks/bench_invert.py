@@ -44,16 +44,7 @@ from tauspec.spectrum.options import InvertOptions
 from tauspec.spectrum.problem import build_problem
 from tauspec.spectrum.regularize import TikhonovPath, objective, solve_cvxpy  # noqa: E402
 from tauspec.spectrum.window import default_grid
-
-
-def _best(fn, repeats):
-    times = []
-    out = None
-    for _ in range(repeats):
-        t = time.perf_counter()
-        out = fn()
-        times.append(time.perf_counter() - t)
-    return statistics.median(times), min(times), max(times), out
+from timing import timed  # noqa: E402 - benchmarks/ is on the path (run directly or by run.py)
 
 
 def nnls_loop(A, b, L, lams):
@@ -85,9 +76,9 @@ def _threads(sweep, repeats: int) -> tuple[dict, dict]:
         with threadpool_limits(limits=threads, user_api="blas"):
             for what, fn in (("invert", lambda: invert(sweep)), ("nnls loop", lambda: nnls_loop(A, b, L, lams)),
                              ("Cholesky floor", lambda: cholesky_scan(A, b, L, lams))):
-                m, lo, hi, _ = _best(fn, repeats)
-                rows[f"default grid ({len(sp.tau)} τ), {label}: {what}"] = (m, lo, hi)
-                med[(label, what)] = m
+                r, _ = timed(fn, repeats)
+                rows[f"default grid ({len(sp.tau)} τ), {label}: {what}"] = r
+                med[(label, what)] = r["median_s"]
     ratios = {}
     for label in ("one thread", "default threads"):
         ratios[f"default grid, {label}: invert / nnls loop"] = med[(label, "invert")] / med[(label, "nnls loop")]
@@ -112,24 +103,24 @@ def run(quick: bool = False) -> dict:
     repeats = 3 if quick else 7
     sweep = lognormal_sweep(3, n=60)
     n_grid = 150
-    med, lo, hi, sp = _best(lambda: invert(sweep, grid=n_grid), repeats)
+    rows: dict[str, dict[str, float]] = {}
+    rows["tauspec invert (auto: path + L-curve + GCV)"], sp = timed(lambda: invert(sweep, grid=n_grid), repeats)
     lams = sp.lcurve.strength
     tau = default_grid(sweep.omega, n_grid)
     pb = build_problem(sweep, tau, InvertOptions())
     A, b, L = pb.A, pb.b, pb.L
-    rows = {"tauspec invert (auto: path + L-curve + GCV)": (med, lo, hi)}
-    med_fast, lo_f, hi_f, path_sol = _best(lambda: TikhonovPath(A, b, L).path(lams), repeats)
-    rows["fast exact path alone"] = (med_fast, lo_f, hi_f)
-    med_a, lo_a, hi_a, X_nnls = _best(lambda: nnls_loop(A, b, L, lams), repeats)
-    rows["(a) scipy nnls loop"] = (med_a, lo_a, hi_a)
-    med_d, lo_d, hi_d, _ = _best(lambda: cholesky_scan(A, b, L, lams), repeats)
-    rows["(d) unconstrained Cholesky scan"] = (med_d, lo_d, hi_d)
+    rows["fast exact path alone"], path_sol = timed(lambda: TikhonovPath(A, b, L).path(lams), repeats)
+    rows["(a) scipy nnls loop"], X_nnls = timed(lambda: nnls_loop(A, b, L, lams), repeats)
+    rows["(d) unconstrained Cholesky scan"], _ = timed(lambda: cholesky_scan(A, b, L, lams), repeats)
     cv_lams = lams if not quick else lams[::10]
-    scale = len(lams) / len(cv_lams)
-    med_c, lo_c, hi_c, X_cvx = _best(lambda: solve_cvxpy(A, b, L, cv_lams), 1)
-    rows["(c) cvxpy, λ as parameter"] = (med_c * scale, lo_c * scale, hi_c * scale)
-    med_b, lo_b, hi_b, _ = _best(lambda: cvxpy_rebuilt(A, b, L, cv_lams), 1)
-    rows["(b) cvxpy rebuilt per λ"] = (med_b * scale, lo_b * scale, hi_b * scale)
+    scale = len(lams) / len(cv_lams)  # cvxpy is timed once, on every 10th strength with --quick, and scaled
+    for label, fn in (("(c) cvxpy, λ as parameter", lambda: solve_cvxpy(A, b, L, cv_lams)),
+                      ("(b) cvxpy rebuilt per λ", lambda: cvxpy_rebuilt(A, b, L, cv_lams))):
+        r, _ = timed(fn, 1)
+        rows[label] = {k: v * scale for k, v in r.items()}
+    med, med_fast, med_a, med_d = (rows[k]["median_s"] for k in (
+        "tauspec invert (auto: path + L-curve + GCV)", "fast exact path alone", "(a) scipy nnls loop",
+        "(d) unconstrained Cholesky scan"))
 
     rel_obj = max(abs(objective(A, b, L, x, lam) - objective(A, b, L, xr, lam)) / objective(A, b, L, xr, lam)
                   for lam, x, xr in zip(lams, path_sol.x, X_nnls))
@@ -142,12 +133,12 @@ def run(quick: bool = False) -> dict:
     err = float(np.linalg.norm(sp.H[m] - Ht[m]) / np.linalg.norm(Ht[m]))
     return {
         "problem": {"frequencies": len(sweep), "grid": n_grid, "strengths": len(lams)},
-        "rows": {k: {"median_s": v[0], "min_s": v[1], "max_s": v[2]} for k, v in rows.items()},
+        "rows": rows,
         "ratios": {
             "invert / nnls loop": med / med_a,
             "nnls loop / fast path": med_a / med_fast,
-            "cvxpy rebuilt / invert": rows["(b) cvxpy rebuilt per λ"][0] / med,
-            "cvxpy parameter / invert": rows["(c) cvxpy, λ as parameter"][0] / med,
+            "cvxpy rebuilt / invert": rows["(b) cvxpy rebuilt per λ"]["median_s"] / med,
+            "cvxpy parameter / invert": rows["(c) cvxpy, λ as parameter"]["median_s"] / med,
             "invert / Cholesky floor": med / med_d,
             "fast path / Cholesky floor": med_fast / med_d,
             **thread_ratios,
