@@ -1,18 +1,18 @@
-r"""Block principal pivoting for one strength of the Tikhonov problem with x ≥ 0.
+r"""Active-set solvers for one strength of the Tikhonov problem with x ≥ 0.
 
 The problem min ½xᵀMx − qᵀx, x ≥ 0, with M = AᵀA + λ²LᵀL and q = Aᵀb, is the
-normal-equations form of min ‖A x − b‖² + λ²‖L x‖², x ≥ 0.  Block principal
-pivoting (Kim & Park 2011, Algorithm 2 for one column) exchanges whole blocks of
-indices between the free set F and the bound set until x_F ≥ 0 and the gradient
-on the bound set is ≥ 0.  Each iteration solves the unconstrained subproblem on F,
-in one of two ways:
+normal-equations form of min ‖A x − b‖² + λ²‖L x‖², x ≥ 0.  Two solvers, each
+solving an unconstrained subproblem on the free set F at every step:
 
-* :class:`NormalSubproblem` — M_FF x_F = q_F by Cholesky, the factor bordered when
-  an exchange only adds indices (fast; trusted while M_FF is well conditioned);
-* :class:`AugmentedSubproblem` — min ‖[A_F; λ L_F] x_F − [b; 0]‖ by Householder QR
-  (LAPACK dgels), for tiny λ where M_FF is too ill-conditioned.  The triangular
-  factor of the QR is a Cholesky factor of M_FF up to the signs of its rows
-  (R_qrᵀR_qr = M_FF), so the influence-matrix trace uses it the same way.
+* :func:`block_pivoting` (Kim & Park 2011, Algorithm 2 for one column) exchanges
+  whole blocks of indices between F and the bound set, with M_FF x_F = q_F solved
+  by Cholesky and the factor bordered when an exchange only adds indices (fast;
+  trusted while M_FF is well conditioned);
+* :func:`active_set` (Lawson & Hanson 1974, ch. 23), for tiny λ where M_FF is too
+  ill-conditioned: min ‖[A_F; λ L_F] x_F − [b; 0]‖ by Householder QR
+  (:class:`AugmentedSubproblem`, LAPACK dgels).  The triangular factor of the QR
+  is a Cholesky factor of M_FF up to the signs of its rows (R_qrᵀR_qr = M_FF), so
+  the influence-matrix trace uses it the same way.
 
 References
 ----------
@@ -27,7 +27,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.linalg import lapack
 
-__all__ = ["block_pivoting", "active_set", "NormalSubproblem", "AugmentedSubproblem", "cholesky_on", "bordered"]
+__all__ = ["block_pivoting", "active_set", "AugmentedSubproblem", "cholesky_on", "bordered"]
 
 
 #: Reciprocal condition number of M_FF (estimated from the diagonal of its factor) below which the normal
@@ -43,14 +43,13 @@ _dtrtrs = lapack.dtrtrs
 _dgels = lapack.dgels
 
 
-def block_pivoting(M: np.ndarray, q: np.ndarray, passive: np.ndarray | None, sub: NormalSubproblem
-                   | AugmentedSubproblem, max_iter: int | None = None
+def block_pivoting(M: np.ndarray, q: np.ndarray, passive: np.ndarray | None, max_iter: int | None = None
                    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None:
     """Block principal pivoting for min ½xᵀMx − qᵀx, x ≥ 0 (Kim & Park 2011, Algorithm 2 for one column).
 
-    Returns the solution, its gradient M x − q, the upper triangular factor R with RᵀR = M_FF on the free set
-    and the order of the free indices in that factor (reused for the influence matrix), or ``None`` when a
-    subproblem cannot be solved reliably by ``sub`` (or the iteration does not end), so that the caller tries
+    Returns the solution, its gradient M x − q, the upper Cholesky factor R of M_FF on the free set and the
+    order of the free indices in that factor (reused for the influence matrix), or ``None`` when M_FF is too
+    ill-conditioned for the normal equations (or the iteration does not end), so that the caller tries
     another way.  Exchanges follow Kim & Park: the whole block of infeasible indices while their number
     falls, at most three times otherwise, then only the last infeasible index (the backup rule).
     """
@@ -60,22 +59,23 @@ def block_pivoting(M: np.ndarray, q: np.ndarray, passive: np.ndarray | None, sub
     max_iter = max_iter or 5 * n + 20
     tol_y = 1e-12 * max(float(np.abs(q).max()), 1e-300)
     order = np.flatnonzero(F)
-    fac = sub.factor(order)
+    R = cholesky_on(M, order)
     for _ in range(max_iter):
-        if fac is None:
+        if R is None:
             return None
         x = np.zeros(n)
         tol_x = 1e-300
         if order.size:
-            xf = sub.solve(fac, order)
+            xf = _dpotrs(R, q.take(order), lower=0)[0]
             x[order] = xf
             tol_x = 1e-12 * max(float(np.abs(xf).max()), 1e-300)
-        grad = sub.gradient(x)
+        grad = M @ x
+        grad -= q
         V = np.where(F, x < -tol_x, grad < -tol_y)
         nv = int(np.count_nonzero(V))
         if nv == 0:
             x[x < 0] = 0.0
-            return x, grad, sub.triangle(fac), order
+            return x, grad, R, order
         if nv < beta:
             beta, alpha = nv, 3
         elif alpha >= 1:
@@ -88,11 +88,11 @@ def block_pivoting(M: np.ndarray, q: np.ndarray, passive: np.ndarray | None, sub
         F ^= V
         if only_added and order.size:
             new = np.flatnonzero(V)
-            fac = sub.extend(fac, order, new)
+            R = bordered(M, R, order, new)
             order = np.concatenate([order, new])
         else:
             order = np.flatnonzero(F)
-            fac = sub.factor(order)
+            R = cholesky_on(M, order)
     return None
 
 
@@ -120,8 +120,9 @@ def active_set(q: np.ndarray, passive: np.ndarray | None, sub: AugmentedSubprobl
         fac = sub.factor(order)
         if fac is None:
             return None
+        R, zf = fac
         z = np.zeros(n)
-        z[order] = sub.solve(fac, order)
+        z[order] = zf
         bad = F & (z <= 0)
         if bad.any():  # back along x → z to the first bound; the indices reaching zero leave the set
             if not x[F].any():  # no feasible point on F yet (the warm start): drop the offenders
@@ -143,41 +144,9 @@ def active_set(q: np.ndarray, passive: np.ndarray | None, sub: AugmentedSubprobl
         cand = np.where(F | blocked, 0.0, grad)
         last = int(np.argmin(cand))
         if cand[last] >= -tol_y:
-            return x, grad, sub.triangle(fac), order
+            return x, grad, R, order
         F[last] = True
     return None
-
-
-class NormalSubproblem:
-    """M_FF x_F = q_F by Cholesky; ``None`` where M_FF is not positive definite or too ill-conditioned."""
-
-    __slots__ = ("M", "q")
-
-    def __init__(self, M: np.ndarray, q: np.ndarray):
-        self.M, self.q = M, q
-
-    def factor(self, order: np.ndarray) -> np.ndarray | None:
-        """The upper Cholesky factor of M on ``order`` (None: not trusted)."""
-        return cholesky_on(self.M, order)
-
-    def gradient(self, x: np.ndarray) -> np.ndarray:
-        """M x − q."""
-        g = self.M @ x
-        g -= self.q
-        return g
-
-    def extend(self, R: np.ndarray, order: np.ndarray, new: np.ndarray) -> np.ndarray | None:
-        """The factor with the indices ``new`` appended, by bordering."""
-        return bordered(self.M, R, order, new)
-
-    def solve(self, R: np.ndarray, order: np.ndarray) -> np.ndarray:
-        """x_F = M_FF⁻¹ q_F from the factor."""
-        return _dpotrs(R, self.q.take(order), lower=0)[0]
-
-    @staticmethod
-    def triangle(R: np.ndarray) -> np.ndarray:
-        """The triangular factor (RᵀR = M_FF)."""
-        return R
 
 
 class AugmentedSubproblem:
@@ -219,21 +188,6 @@ class AugmentedSubproblem:
         if not d.min() > QR_RANK_MIN * d.max():
             return None
         return R, sol[:k]
-
-    def extend(self, fac: tuple[np.ndarray, np.ndarray], order: np.ndarray, new: np.ndarray
-               ) -> tuple[np.ndarray, np.ndarray] | None:
-        """The QR with the columns ``new`` appended (computed anew: this path is rare)."""
-        return self.factor(np.concatenate([order, new]))
-
-    @staticmethod
-    def solve(fac: tuple[np.ndarray, np.ndarray], order: np.ndarray) -> np.ndarray:
-        """x_F, solved with the factor."""
-        return fac[1]
-
-    @staticmethod
-    def triangle(fac: tuple[np.ndarray, np.ndarray]) -> np.ndarray:
-        """The triangular factor of the QR (RᵀR = M_FF)."""
-        return fac[0]
 
 
 def _well_conditioned(R: np.ndarray) -> bool:

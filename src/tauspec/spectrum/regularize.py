@@ -9,9 +9,10 @@ regularization operator.  Two solvers give the same optimum:
 
 * :class:`TikhonovPath` — the fast exact path: block principal pivoting on the
   normal equations (M = AᵀA + λ²LᵀL, q = Aᵀb), warm-started from the previous
-  strength's passive set, with a KKT optimality check and a fallback to
-  Lawson–Hanson NNLS on the augmented system where the normal equations are
-  too ill-conditioned (tiny λ).
+  strength's passive set, with a KKT optimality check and a fallback to a
+  Lawson–Hanson active set on the augmented system [A; λL] (QR subproblems,
+  :mod:`tauspec.spectrum.pivoting`) where the normal equations are too
+  ill-conditioned (tiny λ).
 * :func:`solve_cvxpy` — the general convex problem with bounds, through cvxpy
   with λ as a DPP parameter (compiled once per problem).
 
@@ -34,7 +35,7 @@ import numpy as np
 from scipy.linalg import lapack
 from scipy.optimize import nnls
 
-from .pivoting import AugmentedSubproblem, NormalSubproblem, active_set, block_pivoting
+from .pivoting import AugmentedSubproblem, active_set, block_pivoting
 
 __all__ = ["TikhonovPath", "PathSolution", "second_difference", "solve_cvxpy", "objective"]
 
@@ -144,14 +145,14 @@ class TikhonovPath:
     ) -> tuple[np.ndarray, np.ndarray, tuple[np.ndarray, np.ndarray] | None, bool]:
         """Return x, its free set, the factor (R, order) of M on the free set or None, and the fallback flag.
 
-        Block principal pivoting on the normal equations first (unless ``augmented``), then the same pivoting
-        with the subproblems solved by QR on the augmented columns [A_F; λ L_F], then Lawson–Hanson NNLS on the
-        augmented system: the first that ends at a point satisfying the optimality conditions is taken.
+        Block principal pivoting on the normal equations first (unless ``augmented``), then a warm-started
+        Lawson–Hanson active set with its subproblems solved by QR on the augmented columns [A_F; λ L_F], then
+        scipy's NNLS on the augmented system: the first that ends at a point satisfying the optimality
+        conditions is taken.
         """
-        M = self.AtA + (strength * strength) * self.LtL
         q = self.Atb
         if not augmented:
-            out = block_pivoting(M, q, passive, NormalSubproblem(M, q))
+            out = block_pivoting(self.AtA + (strength * strength) * self.LtL, q, passive)
             if out is not None and self._kkt_ok(q, out[0], out[1]):
                 return self._found(out, False)
         if self._stacked is None:
