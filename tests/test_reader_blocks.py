@@ -57,6 +57,40 @@ def test_batch_makes_each_block_a_sample(archive, tmp_path):
     assert (again.computed, again.skipped) == (0, 5)
 
 
+
+def test_the_separator_is_found_once_per_file(archive, tmp_path, monkeypatch):
+    """The client lays each file out once; the workers read its blocks with the separator it found."""
+    import tauspec.data.read as read_module
+
+    calls: list[str] = []
+    find = read_module._delimiter
+
+    def counted(text, source, opts):
+        calls.append(source)
+        return find(text, source, opts)
+
+    monkeypatch.setattr(read_module, "_delimiter", counted)
+    report = run_batch([archive], tmp_path / "out", settings=SMALL, jobs=1)  # one job: the workers run here
+    assert report.ok == 5
+    assert sorted(calls) == ["cp1252_units.csv", "quoted_kpa.csv", "three_blocks.txt"]
+
+
+def test_a_separator_given_to_the_reader_is_one_it_knows():
+    from tauspec.data.read import file_layout, parse_sweeps_text
+    from tauspec.errors import SettingsError
+
+    text = (DATA / "three_blocks.txt").read_text(encoding="utf-8")
+    separator, count = file_layout(text)
+    assert (separator, count) == ("\t", 3)
+    given = parse_sweeps_text(text, separator=separator)
+    found = parse_sweeps_text(text)
+    assert [s.name for s in given] == [s.name for s in found]
+    for a, b in zip(given, found):
+        np.testing.assert_array_equal(a.storage, b.storage)
+    with pytest.raises(SettingsError, match="separator must be one of"):
+        parse_sweeps_text(text, separator="|")
+
+
 def test_a_bad_block_is_its_own_error_row(archive, tmp_path):
     text = (archive / "three_blocks.txt").read_text(encoding="utf-8").splitlines()
     text[text.index("Step 2  150 °C") + 5] = "39.8107\tbroken\t13881.2\t150.0"

@@ -53,7 +53,8 @@ def _failed(task: Task, settings: BatchSettings, exc: BaseException) -> dict[str
 def _arguments(task: Task, step: Callable[..., Any], settings: BatchSettings,
                client: tuple[str, int]) -> tuple[tuple[Any, ...], dict[str, Any]]:
     return (step, task.text, settings), {"source": task.inp.file, "input_sha256": task.input_sha, "client": client,
-                                         "block": task.inp.block, "notes": task.notes}
+                                         "block": task.inp.block, "separator": task.inp.separator,
+                                         "notes": task.notes}
 
 
 def run_tasks(tasks: Iterable[Task], finish: Finish, *, settings: BatchSettings, step: Callable[..., Any],

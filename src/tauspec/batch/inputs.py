@@ -19,7 +19,7 @@ from pathlib import Path
 
 from ..data.encodings import decode
 from ..data.manifest import read_manifest
-from ..data.read import count_blocks
+from ..data.read import file_layout
 from ..data.source import MAX_FILE_BYTES, read_bytes
 from ..errors import SweepError, TauspecError
 from .layout import RUN_FILES, relative_names, result_key
@@ -43,7 +43,8 @@ class Input:
 
     ``refusal`` is the reason it will not be read, when that is known from its place alone.  ``block`` is set
     for one block of a file holding several: ``file`` then ends in ``#<block>`` and the result folder is
-    ``<key>/#<block>`` (a name no input can produce, see :mod:`tauspec.batch.layout`).
+    ``<key>/#<block>`` (a name no input can produce, see :mod:`tauspec.batch.layout`).  ``separator`` is the
+    file's separator once the client has laid the file out, so that the worker does not find it again.
     """
 
     path: Path
@@ -51,6 +52,7 @@ class Input:
     key: str
     refusal: str | None = None
     block: int | None = None
+    separator: str | None = None
 
     def blocks(self, count: int) -> list[Input]:
         """The input itself, or one input per block when the file holds ``count`` > 1 blocks."""
@@ -279,10 +281,14 @@ def read_input(inp: Input, max_bytes: int = MAX_FILE_BYTES) -> tuple[bytes | Non
 
 
 def block_inputs(inp: Input, text: str | None) -> list[Input]:
-    """One input per block of a file holding several; a file the reader cannot lay out stays one (its error)."""
+    """One input per block of a file holding several, each with the file's separator.
+
+    A file the reader cannot lay out stays one input (its error comes when the worker reads it).
+    """
     if text is None:
         return [inp]
     try:
-        return inp.blocks(count_blocks(text, source=inp.file))
+        separator, count = file_layout(text, source=inp.file)
     except SweepError:
         return [inp]
+    return dataclasses.replace(inp, separator=separator).blocks(count)

@@ -79,13 +79,14 @@ def _figures(state: Mapping[str, Any], formats: tuple[str, ...]) -> dict[str, by
     return {f"{stem}.{fmt}": figure_bytes(fig, fmt) for stem, fig in figures.items() for fmt in formats}
 
 
-def _read(text: str, source: str, block: int | None) -> Sweep:
+def _read(text: str, source: str, block: int | None, separator: str | None) -> Sweep:
     """The sweep of a file's text, or of one block of it (``source`` ends in ``#<block>``)."""
     if block is None:
-        return parse_sweep_text(text, source=source, default_name=os.path.splitext(os.path.basename(source))[0])
+        return parse_sweep_text(text, source=source, default_name=os.path.splitext(os.path.basename(source))[0],
+                                separator=separator)
     file = source.removesuffix(f"#{block}")
     sweeps = parse_sweeps_text(text, source=file, default_name=os.path.splitext(os.path.basename(file))[0],
-                               block=block)
+                               block=block, separator=separator)
     if len(sweeps) > 1:
         temps = ", ".join(s.meta["temperature"] for s in sweeps)
         raise SweepError(f"block {block} holds sweeps at {len(sweeps)} temperatures ({temps}); give each its own "
@@ -94,7 +95,8 @@ def _read(text: str, source: str, block: int | None) -> Sweep:
 
 
 def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str | None = None,
-            input_sha256: str | None = None, block: int | None = None, notes: Sequence[str] = ()) -> dict[str, Any]:
+            input_sha256: str | None = None, block: int | None = None, separator: str | None = None,
+            notes: Sequence[str] = ()) -> dict[str, Any]:
     """Run the pipeline on one sweep: read, invert (then modes and diagnosis as they become available).
 
     The one function sent to the workers: top level, picklable, no global
@@ -113,6 +115,8 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
         The sha256 of the file's bytes, recorded in the result (the resume key).
     block : int, optional
         Process only this block (1-based) of a file holding several; ``source`` then ends in ``#<block>``.
+    separator : str, optional
+        The file's separator when the caller has found it already (:func:`tauspec.data.read.file_layout`).
     notes : sequence of str
         Notes from reading the file (an encoding guessed), put first in the result's notes.
 
@@ -135,7 +139,8 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
     try:
         with one_thread(), warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
-            sweep = sweep_or_text if isinstance(sweep_or_text, Sweep) else _read(sweep_or_text, source, block)
+            sweep = (sweep_or_text if isinstance(sweep_or_text, Sweep)
+                     else _read(sweep_or_text, source, block, separator))
             result["sample"] = sweep.name
             sweep, dropped = sweep.restrict(settings.invert.omega_min, settings.invert.omega_max)
             if dropped:

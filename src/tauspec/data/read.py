@@ -15,7 +15,7 @@ import warnings
 from pathlib import Path
 from typing import Any
 
-from ..errors import DroppedPointsWarning, SweepError
+from ..errors import DroppedPointsWarning, SettingsError, SweepError
 from .blocks import Block, check_size, sample_lines, scan
 from .build import build_sweep, line_ranges
 from .columns import columns_of, is_header
@@ -30,7 +30,7 @@ from .table import read_table
 from .temperature import DEFAULT_TOLERANCE, describe, group_temperatures
 
 __all__ = ["ReadOptions", "read_sweep", "read_sweeps", "parse_sweep_text", "parse_sweeps_text", "count_blocks",
-           "MAX_FILE_BYTES", "MAX_ROWS", "MAX_LINE_CHARS"]
+           "file_layout", "MAX_FILE_BYTES", "MAX_ROWS", "MAX_LINE_CHARS"]
 
 #: More data rows than this are refused (a frequency sweep has tens to hundreds).
 MAX_ROWS = 100_000
@@ -162,7 +162,8 @@ def _delimiter(text: str, source: str, opts: ReadOptions) -> str:
 
 
 def parse_sweeps_text(text: str, *, source: str = "<text>", default_name: str = "sample",
-                      options: ReadOptions | None = None, block: int | None = None, **fields: Any) -> list[Sweep]:
+                      options: ReadOptions | None = None, block: int | None = None, separator: str | None = None,
+                      **fields: Any) -> list[Sweep]:
     """Parse the text of a sweep file into its sweeps.
 
     The header row names a frequency column and either G' and G'' or |G*| and the phase angle δ; units follow
@@ -172,10 +173,11 @@ def parse_sweeps_text(text: str, *, source: str = "<text>", default_name: str = 
     gives one sweep per step, named ``<name>@<T>``.  Other columns are listed in ``meta["ignored_columns"]``.
 
     ``block=k`` returns only the sweeps of the k-th block (1-based), so that a problem in another block's
-    values does not stop it (the batch processes each block as its own sample).
+    values does not stop it (the batch processes each block as its own sample).  ``separator``, one of
+    :data:`~tauspec.data.dialect.CANDIDATES` as :func:`file_layout` found it, skips finding it again.
     """
     opts = _options(options, fields)
-    delimiter, blocks = _layout(text, source, opts)
+    delimiter, blocks = _layout(text, source, opts, separator)
     plans = _plans(blocks, source)
     if block is not None and not 1 <= block <= len(blocks):
         raise SweepError(f"has {len(blocks)} block(s), not a block {block}", source)
@@ -196,12 +198,32 @@ def count_blocks(text: str, *, source: str = "<text>", options: ReadOptions | No
     SweepError
         When the text has no usable layout (see :func:`parse_sweeps_text`).
     """
-    return len(_layout(text, source, _options(options, fields))[1])
+    return file_layout(text, source=source, options=options, **fields)[1]
 
 
-def _layout(text: str, source: str, opts: ReadOptions) -> tuple[str, list[Block]]:
+def file_layout(text: str, *, source: str = "<text>", options: ReadOptions | None = None,
+                **fields: Any) -> tuple[str, int]:
+    """The text's separator and its number of blocks, from its layout alone (no values read).
+
+    Give the separator back to :func:`parse_sweeps_text` when the same text is parsed later.
+
+    Raises
+    ------
+    SweepError
+        When the text has no usable layout (see :func:`parse_sweeps_text`).
+    """
+    delimiter, blocks = _layout(text, source, _options(options, fields))
+    return delimiter, len(blocks)
+
+
+def _layout(text: str, source: str, opts: ReadOptions, separator: str | None = None) -> tuple[str, list[Block]]:
     check_size(text, source, opts.max_rows)
-    delimiter = _delimiter(text, source, opts)
+    if separator is None:
+        delimiter = _delimiter(text, source, opts)
+    elif separator in CANDIDATES:
+        delimiter = separator
+    else:
+        raise SettingsError(f"separator must be one of {', '.join(map(repr, CANDIDATES))}, not {separator!r}")
     return delimiter, scan(text, delimiter, source=source, max_rows=opts.max_rows, max_line_chars=opts.max_line_chars)
 
 
