@@ -246,13 +246,6 @@ def _chain_terms(frame: Frame, tau1: float, n: int, a: float, law: ModeTimeLaw,
     return vals, slopes
 
 
-def _chains(frame: Frame, tau1: float, n: int, a: float, law: ModeTimeLaw, pair: bool,
-            deriv: bool) -> tuple[np.ndarray, ...]:
-    """(vals,) or, with ``deriv``, (vals, ∂/∂ln τ_1, ∂/∂a) of :func:`_chain_terms`."""
-    vals, slopes = _chain_terms(frame, tau1, n, a, law, pair)
-    return (vals, *slopes()) if deriv else (vals,)
-
-
 def chain_columns(frame: Frame, tau1: float, N: float, a: float, law: ModeTimeLaw,
                   deriv: bool = False) -> tuple[np.ndarray, np.ndarray | None]:
     """[S'; S''] of a chain with a real number of modes 1 ≤ N ≤ N_MAX (mixture of the neighbouring integers).
@@ -266,7 +259,7 @@ def chain_columns(frame: Frame, tau1: float, N: float, a: float, law: ModeTimeLa
     n = math.floor(N)
     f = N - n
     mixed = f > 1e-12
-    (vals,) = _chains(frame, tau1, n, a, law, mixed, False)
+    vals = _chain_terms(frame, tau1, n, a, law, mixed)[0]
     return ((1 - f) * vals[:, 0] + f * vals[:, 1]) if mixed else vals[:, 0], None
 
 
@@ -403,8 +396,8 @@ def power_tail(omega: np.ndarray, tau1: float, N: float, a: float) -> tuple[np.n
     n = max(1, int(round(N)))
     big = max(10**6, 100 * n)
     frame, law, m = Frame(omega), get_law("power"), omega.size
-    v_big = _chains(frame, tau1, big, a, law, False, False)[0][:, 0]  # whole chains: not clipped to N_MAX
-    v_n = _chains(frame, tau1, n, a, law, False, False)[0][:, 0]
+    v_big = _chain_terms(frame, tau1, big, a, law, False)[0][:, 0]  # whole chains: not clipped to N_MAX
+    v_n = _chain_terms(frame, tau1, n, a, law, False)[0][:, 0]
     sp_big, spp_big, sp_n, spp_n = v_big[:m], v_big[m:], v_n[:m], v_n[m:]
     x = omega * tau1
     return (sp_big - sp_n + x**2 * float(zeta(2 * a, big + 1)),

@@ -7,7 +7,7 @@ from typing import Any
 
 import numpy as np
 
-from ..spectrum.kernels import kernel_block, loss_kernel, storage_kernel
+from ..spectrum.kernels import kernel_values, loss_kernel, storage_kernel
 from .problem import _Fit, _Problem
 
 __all__ = []
@@ -160,7 +160,7 @@ def _gradient_insert(prob: _Problem, prev: _Fit, grid: np.ndarray) -> np.ndarray
     u = u[(u > lo) & (u < hi)]
     r = prob.residuals(prev.x)
     n = prob.omega.size
-    K = kernel_block(prob.omega, np.exp(u))
+    K, _ = kernel_values(prob.omega, np.exp(u))
     score = (r[:n] / prob.storage) @ K[:n] + (r[n:] / prob.loss) @ K[n:]
     k = int(np.argmin(score)) if score.size else -1
     if k >= 0 and score[k] < 0:

@@ -23,7 +23,6 @@ __all__ = [
     "spectrum_matrix",
     "spectrum_moduli",
     "modes_moduli",
-    "kernel_block",
     "kernel_values",
     "kernel_slopes",
 ]
@@ -123,26 +122,25 @@ def modes_moduli(
     return _safe_storage(x) @ g + G_e, loss_kernel(x) @ g + eta_s * omega
 
 
-def kernel_values(omega: np.ndarray, tau: np.ndarray, out: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+def kernel_values(omega: np.ndarray, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Return the stacked Maxwell kernels [K'; K''] at x = ω τ (rows ω, columns τ) and 1/(1 + x²).
 
     K' = x²/(1 + x²), K'' = x/(1 + x²) (Ferry 1980, ch. 3).  The second array, 1 − K' computed without
-    cancellation, is what :func:`kernel_slopes` needs to differentiate them later.  ``out``, of shape
-    (2 len(ω), len(τ)), receives the kernels when given.
+    cancellation, is what :func:`kernel_slopes` needs to differentiate them later.  For x beyond about 1e150
+    (far outside any sweep) x² overflows; the fits keep ωτ within 1e30.
     """
     x = np.multiply.outer(np.asarray(omega, dtype=float), np.asarray(tau, dtype=float))
     m = x.shape[0]
     x2 = x * x
     d = x2 + 1.0
     np.reciprocal(d, out=d)  # 1/(1 + x²) = 1 − K'
-    if out is None:
-        out = np.empty((2 * m, x.shape[1]))
+    out = np.empty((2 * m, x.shape[1]))
     np.multiply(x2, d, out=out[:m])
     np.multiply(x, d, out=out[m:])
     return out, d
 
 
-def kernel_slopes(values: np.ndarray, d: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
+def kernel_slopes(values: np.ndarray, d: np.ndarray) -> np.ndarray:
     """Return [∂K'/∂ln τ; ∂K''/∂ln τ] from the kernels [K'; K''] and 1/(1 + x²) of :func:`kernel_values`.
 
     Differentiating in ln τ (x ∂/∂x) gives the closed forms ∂K'/∂ln τ = 2K'(1 − K') and
@@ -151,25 +149,10 @@ def kernel_slopes(values: np.ndarray, d: np.ndarray, out: np.ndarray | None = No
     """
     m = d.shape[0]
     kp, kpp = values[:m], values[m:]
-    if out is None:
-        out = np.empty_like(values)
+    out = np.empty_like(values)
     dp, dpp = out[:m], out[m:]
     np.multiply(kp, d, out=dp)
     dp *= 2.0
     np.subtract(d, kp, out=dpp)  # 1 − 2K'
     dpp *= kpp
-    return out
-
-
-def kernel_block(omega: np.ndarray, tau: np.ndarray, deriv: bool = False) -> np.ndarray:
-    """Return [K'; K''] at x = ω τ (:func:`kernel_values`), with ``deriv`` their ln τ derivatives below them.
-
-    With ``deriv`` the block is [K'; K''; ∂K'/∂ln τ; ∂K''/∂ln τ] (:func:`kernel_slopes`).  For x beyond about
-    1e150 (far outside any sweep) x² overflows; the fits keep ωτ within 1e30.
-    """
-    m = np.size(omega)
-    out = np.empty((4 * m if deriv else 2 * m, np.size(tau)))
-    _, d = kernel_values(omega, tau, out[: 2 * m])
-    if deriv:
-        kernel_slopes(out[: 2 * m], d, out[2 * m:])
     return out
