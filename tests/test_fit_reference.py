@@ -152,3 +152,64 @@ def test_bsw_fit_reaches_the_reference_optimum(name):
     if new.G_N > 0 and ref.G_N > 0 and not (new.at_bound or ref.at_bound):  # an interior optimum: the same fit
         assert new.G_N == pytest.approx(ref.G_N, rel=1e-3) and new.tau_max == pytest.approx(ref.tau_max, rel=1e-3)
         assert new.G_N_ci == pytest.approx(ref.G_N_ci, rel=1e-3)
+
+
+# --------------------------------------------------------------------------- the variable-projection Jacobians
+
+
+def _check_jacobian(fun, residuals, theta):
+    """The analytic Jacobian of ``fun`` against central differences of the projected residual.
+
+    [r(θ + h e_k) − r(θ − h e_k)]/(2h), h = 1e-6 (1 + |θ_k|): truncation O(h²), rounding O(1e-16/h).
+    """
+    theta = np.asarray(theta, dtype=float)
+    r, jacobian = fun(theta)
+    J = jacobian() if callable(jacobian) else jacobian
+    J_fd = np.empty_like(J)
+    for k in range(theta.size):
+        h = 1e-6 * (1.0 + abs(theta[k]))
+        e = np.zeros_like(theta)
+        e[k] = h
+        J_fd[:, k] = (residuals(theta + e) - residuals(theta - e)) / (2 * h)
+    np.testing.assert_allclose(r, residuals(theta), rtol=0, atol=1e-12)
+    np.testing.assert_allclose(J, J_fd, rtol=0, atol=2e-6 * np.abs(J_fd).max())
+
+
+@pytest.mark.parametrize("model", ["rouse", "zimm_good", "general_sine", "general_power"])
+def test_chain_jacobian_equals_finite_differences(model):
+    """Eq. (1) of spectrum/lsq.py (Golub & Pereyra 1973, 2003) for the chain residual, at a non-integer N (the
+    mixture of neighbouring chains is differentiable there) with G0 and η_s both positive."""
+    from tauspec.models.beadspring import _Problem
+
+    w, gp, gpp = _rouse(30, 0.002, 0.01, seed=4)
+    form, a_fixed = MODELS[model]
+    prob = _Problem(w, gp, gpp, form, a_fixed)
+    theta = [np.log(1.3), np.log(24.4)] + ([1.8] if a_fixed is None else [])
+    _check_jacobian(prob.fun, prob.residuals, theta)
+
+
+def test_modes_jacobian_equals_finite_differences():
+    """The same for the Maxwell-mode residual with g, η_s and G_e projected out (modes/problem.py)."""
+    from tauspec.modes.fit import _setup
+    from tauspec.modes.options import ModesOptions
+    from tauspec.modes.problem import _Projected
+
+    sweep = sy.lognormal_sweep(1)
+    prob, _, _ = _setup(sweep, ModesOptions())
+    vp = _Projected(prob)
+    ln_tau = np.log([0.05, 0.5, 5.0])
+
+    def residuals(u):
+        return _Projected(prob).solve(u, False)[0]
+
+    _check_jacobian(vp, residuals, ln_tau)
+
+
+def test_bsw_jacobian_equals_finite_differences():
+    """The same for the BSW form (models/bsw.py: its ∂/∂ln τ_max is exact; the check mostly tests that)."""
+    from tauspec.models.bsw import _Problem as BSWProblem
+
+    sw = ss.bsw_sweep(51)[0]
+    prob = BSWProblem(sw.omega, sw.storage, sw.loss, solvent=True, glassy=True)
+    theta = [np.log(30.0), 0.25, 0.6]
+    _check_jacobian(prob.fun, prob.residuals, theta)
