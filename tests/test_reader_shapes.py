@@ -27,6 +27,11 @@ READS = [
     ("Angular frequency in 1/s;Storage modulus in kPa;Loss modulus in kPa", body(";"), 1.0, 1e3),
     ("omega,G',G\"\nrad/s,kPa,kPa", body(), 1.0, 1e3),  # a double quote as the double prime
     ("ω (rad/s)\tG′ (Pa)\tG″ (Pa)\n\t\t", body("\t"), 1.0, 1.0),  # an empty units row is no units row
+    # blanks between columns and a unit with a space in the units row: the runs of blanks separate the units
+    ("omega  G'  G''\nrad s⁻¹  kPa  kPa", body("  "), 1.0, 1e3),
+    ("omega  G'  G''\n1/s  kPa  kPa", body("  "), 1.0, 1e3),
+    # ... and a name with a space too: the data rows' width picks the split of both rows
+    ("omega  G'  G''  Loss Factor\nrad s⁻¹  kPa  kPa  -", body("  ", extra=("0.8",)), 1.0, 1e3),
 ]
 
 

@@ -24,7 +24,7 @@ import io
 from ..errors import SweepError
 from .cells import parse_cell
 from .columns import EXPECTED_HEADER, columns_of, is_header, split_unit, strip_brackets
-from .dialect import header_splits, split_fields, trim
+from .dialect import header_splits, split_fields, trim, units_splits
 from .plan import make_plan
 from .units import unit_kind
 
@@ -43,7 +43,7 @@ class Block:
     header_line: int
     header_options: list[list[str]]
     preamble: list[tuple[int, str]]
-    units: list[str] | None = None
+    units_options: list[list[str]] = dataclasses.field(default_factory=list)
     rows: list[tuple[int, list[str]]] = dataclasses.field(default_factory=list)
     trailer: list[tuple[int, str]] = dataclasses.field(default_factory=list)
 
@@ -52,13 +52,27 @@ class Block:
         """The header's column names (the first split that matched the data rows' width)."""
         return self.header_options[0]
 
+    @property
+    def units(self) -> list[str] | None:
+        """The units row, one cell per column (the split that matched the data rows' width), or None."""
+        return self.units_options[0] if self.units_options else None
+
+    def widths(self) -> list[int]:
+        """The numbers of fields a data row may have: a split of the header's, and of the units row's if any."""
+        widths = [len(o) for o in self.header_options]
+        if self.units_options:
+            below = {len(o) for o in self.units_options}
+            widths = [w for w in widths if w in below]
+        return widths
+
     def accepts_width(self, n: int) -> bool:
-        """Whether a row of ``n`` fields fits the header; fixes the header's split when there were several."""
-        for option in self.header_options:
-            if len(option) == n:
-                self.header_options = [option]
-                return True
-        return False
+        """Whether a row of ``n`` fields fits; fixes the header's (and units row's) split when there were several."""
+        if n not in self.widths():
+            return False
+        self.header_options = [next(o for o in self.header_options if len(o) == n)]
+        if self.units_options:
+            self.units_options = [next(o for o in self.units_options if len(o) == n)]
+        return True
 
 
 def check_size(text: str, source: str, max_rows: int) -> None:
@@ -194,14 +208,20 @@ class _Scanner:
     def _after_header(self, block: Block, fields: list[str], number: int, stripped: str) -> bool:
         """Take the line after a header as its units row (True), or leave it to the other rules (False)."""
         if _is_units_row(fields):
-            units = trim(fields)
-            # Blanks cannot hold an empty cell: with them the units row must name every column, or the units
-            # would slide onto the wrong columns.
-            fits = block.accepts_width(len(units)) if self.delimiter == " " else len(units) <= len(block.header)
-            if not fits:
-                raise SweepError(f"the units row has {len(units)} fields but the header names {len(block.header)} "
-                                 "columns", self.source, number)
-            block.units = units
+            options = units_splits(fields, stripped, self.delimiter)
+            if self.delimiter == " ":
+                # Blanks cannot hold an empty cell: the units row must name every column, or the units would
+                # slide onto the wrong columns.  When the header and the units row split two ways each (a name
+                # or a unit with a space), the first data row's width decides both.
+                widths = {len(o) for o in block.header_options}
+                fitting = [o for o in options if len(o) in widths]
+            else:  # a units row ending early leaves the last columns without a unit below
+                width = len(block.header)
+                fitting = [o + [""] * (width - len(o)) for o in options if len(o) <= width]
+            if not fitting:
+                raise SweepError(f"the units row has {len(options[0])} fields but the header names "
+                                 f"{len(block.header)} columns", self.source, number)
+            block.units_options = fitting
             return True
         if _is_numeric(fields) or is_header(trim(fields)):
             return False
@@ -210,7 +230,7 @@ class _Scanner:
 
     def _data(self, block: Block, fields: list[str], number: int) -> bool:
         """Keep the line as a data row of ``block`` when it fits the header and holds a number."""
-        widths = [len(o) for o in block.header_options]
+        widths = block.widths()
         row = trim(fields, min(widths))
         if len(row) not in widths or not any(isinstance(parse_cell(c, decimal_comma=True), float) for c in row):
             return False

@@ -19,7 +19,8 @@ import re
 from ..errors import SweepError
 from .columns import MAX_COLUMNS
 
-__all__ = ["CANDIDATES", "detect_delimiter", "split_fields", "trim", "header_splits", "SAMPLE_LINES", "SAMPLE_CHARS"]
+__all__ = ["CANDIDATES", "detect_delimiter", "split_fields", "trim", "header_splits", "units_splits", "SAMPLE_LINES",
+           "SAMPLE_CHARS"]
 
 #: Separators tried, in the order used when the detector gives none and the header must decide.
 CANDIDATES = ("\t", ";", ",", " ")
@@ -105,8 +106,26 @@ def header_splits(line: str, delimiter: str, *, source: str = "<text>", number: 
             joined[-1] = f"{joined[-1]} {tok}"
         else:
             joined.append(tok)
-    wide = [f for f in _WIDE_GAP.split(line.strip()) if f]
+    wide = _wide_split(line)
     out = [joined]
     if wide != joined:
         out.append(wide)
     return out
+
+
+def units_splits(fields: list[str], line: str, delimiter: str) -> list[list[str]]:
+    """The ways a units row (split as ``fields``) may split into one unit per column, most likely first.
+
+    With blanks a unit may hold a space (``rad s⁻¹``): the row is also split at runs of two or more blanks,
+    and the header's width decides between the two.
+    """
+    plain = trim(fields)
+    if delimiter != " " or '"' in line:
+        return [plain]
+    wide = _wide_split(line)
+    return [plain] if wide == plain else [plain, wide]
+
+
+def _wide_split(line: str) -> list[str]:
+    """``line`` split at tabs and at runs of two or more blanks."""
+    return [f for f in _WIDE_GAP.split(line.strip()) if f]
