@@ -345,6 +345,23 @@ def test_manifest_entry_missing_is_an_error_row_and_progress_goes_to_stderr(tmp_
     assert run_batch([], tmp_path / "out", settings=SMALL, manifest=manifest).computed == 1
 
 
+def test_manifest_rows_are_numbered_by_their_line_and_an_open_quote_is_refused(tmp_path):
+    from tauspec.data.manifest import read_manifest
+
+    manifest = tmp_path / "list.csv"
+    # a comment, a label over two lines (a quoted line break) and a blank line before the faulty row
+    manifest.write_text('file,M,label\n# lot 7\na.csv,1e5,"first\nsecond"\n\nb.csv,x,plain\n')
+    with pytest.raises(SettingsError, match=r"list.csv:6: M 'x' is not a number"):
+        read_manifest(manifest)
+    manifest.write_text('file,M,label\na.csv,1e5,"first\nsecond"\nb.csv,2e5,plain\n')
+    assert [(e.file, e.line, e.label) for e in read_manifest(manifest)] == [("a.csv", 2, "first\nsecond"),
+                                                                              ("b.csv", 4, "plain")]
+    # an unclosed quote is refused at its row, not read to the end of the file as one cell (which lost b.csv)
+    manifest.write_text('file,M,label\na.csv,1e5,"open\nb.csv,2e5,plain\n')
+    with pytest.raises(SettingsError, match=r"list.csv:2: a quoted cell is not closed"):
+        read_manifest(manifest)
+
+
 def test_plots_are_drawn_once_and_a_rerun_with_plots_draws_missing_ones(tmp_path):
     work = tmp_path / "arch"
     make_archive(work, n=2)

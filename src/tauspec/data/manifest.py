@@ -9,10 +9,9 @@ as text in ``extra``; the batch ignores them, ``compare`` refuses them (a misspe
 from __future__ import annotations
 
 import csv
-import io
 import math
 import os
-from collections.abc import Mapping
+from collections.abc import Iterator, Mapping
 from pathlib import Path
 
 from ..errors import SettingsError
@@ -61,18 +60,16 @@ def read_manifest(path: str | os.PathLike[str]) -> list[ManifestEntry]:
         raise SettingsError(f"cannot read the manifest ({exc.strerror or exc})", source) from None
     except UnicodeDecodeError:
         raise SettingsError("the manifest is not UTF-8 text", source) from None
-    numbered = [(k, line) for k, line in enumerate(text.splitlines(), start=1)
-                if line.strip() and not line.lstrip().startswith("#")]
-    rows = list(csv.reader(io.StringIO("\n".join(line for _, line in numbered))))
+    rows = _rows(text, source)
     if not rows:
         raise SettingsError("the manifest is empty", source)
-    header = [h.strip() for h in rows[0]]
+    header = [h.strip() for h in rows[0][1]]
     if "file" not in header:
         raise SettingsError("the manifest needs a header row with a 'file' column (and optionally "
-                            f"{', '.join(MANIFEST_COLUMNS[1:])})", source, numbered[0][0])
+                            f"{', '.join(MANIFEST_COLUMNS[1:])})", source, rows[0][0])
     folder = Path(path).parent
     out = []
-    for (line, _), row in zip(numbered[1:], rows[1:]):
+    for line, row in rows[1:]:
         cells = dict(zip(header, (c.strip() for c in row)))
         name = cells.get("file", "")
         if not name:
@@ -89,3 +86,32 @@ def read_manifest(path: str | os.PathLike[str]) -> list[ManifestEntry]:
             c=_number(cells.get("c", ""), "c", source, line), T=T, label=cells.get("label") or None,
             extra={k: v for k, v in cells.items() if k not in MANIFEST_COLUMNS}, line=line))
     return out
+
+
+def _rows(text: str, source: str) -> list[tuple[int, list[str]]]:
+    """The CSV rows of a manifest with the line each starts on; blank lines and ``#`` comments are skipped.
+
+    A quoted cell may hold a line break (the row then spans lines and is numbered by its first); a quote that
+    is never closed is refused, not read to the end of the file as one cell.
+    """
+    kept = [(k, line) for k, line in enumerate(text.splitlines(), start=1)
+            if line.strip() and not line.lstrip().startswith("#")]
+    consumed: list[int] = []
+
+    def lines() -> Iterator[str]:
+        for k, line in kept:
+            consumed.append(k)
+            yield line + "\n"
+
+    reader = csv.reader(lines(), strict=True)
+    out = []
+    while True:
+        start = len(consumed)
+        try:
+            row = next(reader)
+        except StopIteration:
+            return out
+        except csv.Error as exc:
+            raise SettingsError(f"a quoted cell is not closed or not written as CSV quotes it ({exc})", source,
+                                kept[start][0] if start < len(kept) else None) from None
+        out.append((consumed[start], row))
