@@ -166,7 +166,7 @@ def test_compare_takes_a_batch_folder_through_its_index(tmp_path, capsys):
 def test_reserved_and_nested_names_cannot_block_the_archive(tmp_path, capsys):
     arch = tmp_path / "arch"
     names = ["summary.csv", "_summary.csv", "run.json.csv", "x.csv", "x/spectrum.csv.csv", "y.csv/fit.csv",
-             "Q.csv", "q.csv/spectrum.csv", "blocked.csv"]  # Q.csv/ and q.csv/ are one folder on macOS
+             "Q.csv", "q.csv/spectrum.csv", "blocked.csv", "con.csv"]  # Q.csv/, q.csv/: one folder on macOS
     for seed, name in enumerate(names):
         sweep_file(arch / name, seed, sample=f"sample of {name}")
     out = tmp_path / "out"
@@ -188,6 +188,12 @@ def test_reserved_and_nested_names_cannot_block_the_archive(tmp_path, capsys):
     assert (out / "blocked.csv").read_text() == "a file of the user's, not written by tauspec\n"
     assert result_key("summary.csv") == "_summary.csv" and result_key("_summary.csv") == "__summary.csv"
     assert result_key("y.csv/fit.csv") == "y.csv/_fit.csv" and (out / "y.csv" / "_fit.csv" / "result.json").exists()
+    assert (out / "_con.csv" / "result.json").exists() and not (out / "con.csv").exists()
+    # Windows device names, whatever the case and extension (Microsoft, "Naming Files, Paths, and Namespaces"),
+    # and one-to-one with the names that already begin with an underscore
+    assert [result_key(n) for n in ("con.csv", "lab/NUL.dat", "Com1", "lpt9.csv.csv", "_con.csv", "console.csv",
+                                    "con2.csv", "aux.")] == [
+        "_con.csv", "lab/_NUL.dat", "_Com1", "_lpt9.csv.csv", "__con.csv", "console.csv", "con2.csv", "_aux."]
     assert {n.casefold() for n in (*RUN_FILES, REPORT_NAME, INDEX_NAME, LOCK_NAME, HOLDER_NAME)} <= RESERVED
 
 

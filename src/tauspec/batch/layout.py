@@ -5,9 +5,10 @@ The rule (docs/batch.md, "Output layout"):
 1. An input's result folder is its path relative to the common folder of the inputs, **suffix included**:
    ``series/a.csv`` → ``DIR/series/a.csv/``.  ``a.csv``, ``a.dat`` and ``a.csv.csv`` get three folders.
 2. A path component that is a name tauspec writes (``summary.csv``, ``run.json``, ``spectrum.csv`` ...,
-   compared case-insensitively) or the folder of a block (``#2``: the blocks of a file of several are
-   ``a.txt/#1/``, ``a.txt/#2/`` ...), or such a name behind leading underscores, gets one more leading
-   underscore: ``summary.csv`` → ``_summary.csv``, ``_summary.csv`` → ``__summary.csv``.  The mapping is
+   compared case-insensitively), the folder of a block (``#2``: the blocks of a file of several are
+   ``a.txt/#1/``, ``a.txt/#2/`` ...) or a device name Windows reserves (``con.csv``, ``NUL.dat``, ``com1.txt``),
+   or such a name behind leading underscores, gets one more leading underscore: ``summary.csv`` →
+   ``_summary.csv``, ``_summary.csv`` → ``__summary.csv``, ``con.csv`` → ``_con.csv``.  The mapping is
    one-to-one, and no input can name a file of the run, of another input's result folder, or a block's folder.
 3. Two inputs whose folders differ only in case (or in Unicode normalization) would share one folder on macOS
    and Windows: both are refused, one line each, never overwritten.
@@ -46,11 +47,16 @@ RESERVED = frozenset(_fold(n) for n in RUN_FILES + RESULT_NAMES)
 
 
 _BLOCK = re.compile(r"#\d+")
+#: The device names Windows reserves in every folder, with any extension (``nul.csv`` is the device NUL):
+#: a result folder of that name could not be made on Windows or on a share it serves (Microsoft, "Naming
+#: Files, Paths, and Namespaces").
+_DEVICE = re.compile(r"(con|prn|aux|nul|com[0-9¹²³]|lpt[0-9¹²³])(\..*)?", re.IGNORECASE)
 
 
 def _component(name: str) -> str:
     base = name.lstrip("_")
-    return "_" + name if _fold(base) in RESERVED or _BLOCK.fullmatch(base) else name
+    reserved = _fold(base) in RESERVED or _BLOCK.fullmatch(base) or _DEVICE.fullmatch(base.rstrip(" ."))
+    return "_" + name if reserved else name
 
 
 def result_key(file: str) -> str:
