@@ -27,6 +27,9 @@ READS = [
     ("Angular frequency in 1/s;Storage modulus in kPa;Loss modulus in kPa", body(";"), 1.0, 1e3),
     ("omega,G',G\"\nrad/s,kPa,kPa", body(), 1.0, 1e3),  # a double quote as the double prime
     ("ω (rad/s)\tG′ (Pa)\tG″ (Pa)\n\t\t", body("\t"), 1.0, 1.0),  # an empty units row is no units row
+    ("omega,G',G''\n,,", body(), 1.0, 1.0),  # nor one of bare separators (a spreadsheet's empty row) ...
+    ("omega;G';G''\nrad/s;kPa;kPa\n;;", body(";"), 1.0, 1e3),  # ... which is a blank line wherever it stands
+    ("omega,G',G''", body().replace("\n", "\n,,\n", 2) + ",,\n", 1.0, 1.0),
     # blanks between columns and a unit with a space in the units row: the runs of blanks separate the units
     ("omega  G'  G''\nrad s⁻¹  kPa  kPa", body("  "), 1.0, 1e3),
     ("omega  G'  G''\n1/s  kPa  kPa", body("  "), 1.0, 1e3),

@@ -174,6 +174,8 @@ class _Scanner:
                 raise
             self.pending.append((number, stripped))  # text around the tables may hold any quote
             return
+        if not any(fields):  # separators only (',,' where a spreadsheet saved an empty row): a blank line
+            return
         if self.expect_units:
             self.expect_units = False
             if self._after_header(block, fields, number, stripped):
