@@ -30,6 +30,9 @@ READS = [
     ("omega,G',G''\n,,", body(), 1.0, 1.0),  # nor one of bare separators (a spreadsheet's empty row) ...
     ("omega;G';G''\nrad/s;kPa;kPa\n;;", body(";"), 1.0, 1e3),  # ... which is a blank line wherever it stands
     ("omega,G',G''", body().replace("\n", "\n,,\n", 2) + ",,\n", 1.0, 1.0),
+    # a units row whose only units are those of columns tauspec does not read (strain, torque)
+    ("omega,G',G'',Strain\n,,,%", body(extra=("1.0",)), 1.0, 1.0),
+    ("omega;G';G'';Torque\n;;;[µN·m]", body(";", extra=("12.5",)), 1.0, 1.0),
     # blanks between columns and a unit with a space in the units row: the runs of blanks separate the units
     ("omega  G'  G''\nrad s⁻¹  kPa  kPa", body("  "), 1.0, 1e3),
     ("omega  G'  G''\n1/s  kPa  kPa", body("  "), 1.0, 1e3),

@@ -113,11 +113,17 @@ def _is_numeric(fields: list[str]) -> bool:
     return found
 
 
+#: Units of columns tauspec does not read (strain, torque) that may be the only units of a units row.
+_OTHER_UNITS = frozenset({"%", "N·m", "mN·m", "µN·m", "μN·m", "N m", "mN m", "µN m", "μN m", "Nm", "mNm", "µNm",
+                         "μNm"})
+
+
 def _is_units_row(fields: list[str]) -> bool:
-    """No numbers, and at least one field a unit tauspec knows (``rad/s``, ``[kPa]``, ``°C`` ...)."""
+    """No numbers, and at least one field a unit tauspec knows (``rad/s``, ``[kPa]``, ``°C``, ``%`` ...)."""
     if any(isinstance(parse_cell(f, decimal_comma=True), float) for f in fields):
         return False
-    return any(unit_kind(strip_brackets(f)) is not None for f in fields if strip_brackets(f))
+    units = [u for u in map(strip_brackets, fields) if u]
+    return any(u in _OTHER_UNITS or unit_kind(u) is not None for u in units)
 
 
 def _diagnose(line: tuple[int, str] | None, delimiter: str, source: str) -> SweepError:
