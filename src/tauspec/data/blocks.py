@@ -221,8 +221,7 @@ class _Scanner:
                 # Blanks cannot hold an empty cell: the units row must name every column, or the units would
                 # slide onto the wrong columns.  When the header and the units row split two ways each (a name
                 # or a unit with a space), the first data row's width decides both.
-                widths = {len(o) for o in block.header_options}
-                fitting = [o for o in options if len(o) in widths]
+                fitting = [o for o in options if len(o) in block.widths()]
             else:  # a units row ending early leaves the last columns without a unit below
                 width = len(block.header)
                 fitting = [o + [""] * (width - len(o)) for o in options if len(o) <= width]

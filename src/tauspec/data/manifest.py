@@ -11,7 +11,7 @@ from __future__ import annotations
 import csv
 import math
 import os
-from collections.abc import Iterator, Mapping
+from collections.abc import Mapping
 from pathlib import Path
 
 from ..errors import SettingsError
@@ -96,22 +96,14 @@ def _rows(text: str, source: str) -> list[tuple[int, list[str]]]:
     """
     kept = [(k, line) for k, line in enumerate(text.splitlines(), start=1)
             if line.strip() and not line.lstrip().startswith("#")]
-    consumed: list[int] = []
-
-    def lines() -> Iterator[str]:
-        for k, line in kept:
-            consumed.append(k)
-            yield line + "\n"
-
-    reader = csv.reader(lines(), strict=True)
+    reader = csv.reader((line + "\n" for _, line in kept), strict=True)
     out = []
-    while True:
-        start = len(consumed)
-        try:
-            row = next(reader)
-        except StopIteration:
-            return out
-        except csv.Error as exc:
-            raise SettingsError(f"a quoted cell is not closed or not written as CSV quotes it ({exc})", source,
-                                kept[start][0] if start < len(kept) else None) from None
-        out.append((consumed[start], row))
+    first = 0  # the index in ``kept`` of the next row's first line (the reader counts the lines it took)
+    try:
+        for row in reader:
+            out.append((kept[first][0], row))
+            first = reader.line_num
+    except csv.Error as exc:
+        raise SettingsError(f"a quoted cell is not closed or not written as CSV quotes it ({exc})", source,
+                            kept[first][0]) from None
+    return out
