@@ -13,7 +13,7 @@ from scipy.special import zeta
 from tauspec.models.beadspring import fit_chain
 from tauspec.models.chains import chain_moduli, mode_times, rouse_moduli, zimm_moduli
 from tauspec.models.intervals import add_intervals, jacobian_intervals
-from tauspec.models.signatures import ROUSE_G_COEFF
+from tauspec.models.signatures import ROUSE_G_COEFF, loglog_slope
 from tauspec.spectrum.kernels import modes_moduli
 
 # ------------------------------------------------------------------------------------------- check values
@@ -79,12 +79,26 @@ def test_sine_form_tends_to_inverse_square_for_low_modes():
 
 def test_binned_fast_modes_match_the_exact_mode_sum():
     # The binned sum over p (midpoint rule) against the plain sum of every Maxwell mode (Ferry 1980, ch. 3).
-    w = np.geomspace(1e-3, 1e6, 60)
-    for n, a, form in [(150, 2.0, "sine"), (4000, 2.0, "sine"), (3000, 1.5, "power"), (700, 1.764, "power")]:
+    # The last two windows end at ω = 100 and 10: modes with ω_max τ_p < 1e-3 enter by their low-frequency sums.
+    for n, a, form, top in [(150, 2.0, "sine", 1e6), (4000, 2.0, "sine", 1e6), (3000, 1.5, "power", 1e6),
+                            (700, 1.764, "power", 1e6), (4000, 2.0, "sine", 1e2), (3000, 1.5, "power", 10.0)]:
+        w = np.geomspace(1e-3, top, 60)
         exact = modes_moduli(w, np.ones(n), mode_times(1.0, n, a, form), eta_s=0.2)
         approx = chain_moduli(w, 1.0, 1.0, n, a=a, form=form, eta_s=0.2)
         for e, f in zip(exact, approx):
             np.testing.assert_allclose(f, e, rtol=1e-4)
+
+
+def test_loglog_slope_is_the_least_squares_line_of_numpy_polyfit():
+    # the closed-form straight line against numpy.polyfit (a general least-squares routine) in ln–ln
+    rng = np.random.default_rng(3)
+    x = np.geomspace(0.1, 30.0, 9)
+    y = 2.5 * x**0.7 * np.exp(0.05 * rng.standard_normal(9))
+    slope, rms = loglog_slope(x, y)
+    coef = np.polyfit(np.log(x), np.log(y), 1)
+    assert slope == pytest.approx(coef[0], rel=1e-12)
+    assert rms == pytest.approx(np.sqrt(np.mean((np.log(y) - np.polyval(coef, np.log(x))) ** 2)), rel=1e-10)
+    assert all(math.isnan(v) for v in loglog_slope(np.ones(3), y[:3]))
 
 
 def test_continuous_N_is_the_chain_at_integers_and_between_them():

@@ -224,10 +224,12 @@ def _chain_terms(frame: Frame, tau1: float, n: int, a: float, law: ModeTimeLaw,
     tau = tau1 * rho
     fast = tau * frame.wmax < TAIL_EPS
     tail = bool(fast.any())
-    if tail:
-        wf = w * fast[:, None]
-        w = w * (~fast)[:, None]
-        t1, t2 = tau @ wf, (tau * tau) @ wf
+    if tail:  # the kernels only of the slow modes; the fast ones by their sums
+        wf = w[fast]
+        tau_f, lnb_f = tau[fast], lnb[fast]
+        t1, t2 = tau_f @ wf, (tau_f * tau_f) @ wf
+        slow = ~fast
+        tau, lnb, w = tau[slow], lnb[slow], w[slow]
     K, d = kernel_values(frame.omega, tau)
     vals = K @ w
     if tail:
@@ -239,8 +241,8 @@ def _chain_terms(frame: Frame, tau1: float, n: int, a: float, law: ModeTimeLaw,
         dtau, da = R[:, :c], R[:, c:]
         if tail:
             dtau = dtau + np.multiply.outer(2.0 * frame.q2, t2) + np.multiply.outer(frame.q1, t1)
-            da = (da + np.multiply.outer(2.0 * frame.q2, (tau * tau * lnb) @ wf)
-                  + np.multiply.outer(frame.q1, (tau * lnb) @ wf))
+            da = (da + np.multiply.outer(2.0 * frame.q2, (tau_f * tau_f * lnb_f) @ wf)
+                  + np.multiply.outer(frame.q1, (tau_f * lnb_f) @ wf))
         return dtau, da
 
     return vals, slopes
