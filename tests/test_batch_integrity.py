@@ -10,6 +10,7 @@ import csv
 import dataclasses
 import json
 import os
+import re
 import signal
 import socket
 import subprocess
@@ -18,6 +19,8 @@ import time
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from synthetic import lognormal_sweep
 from tauspec.batch.layout import RESERVED, RUN_FILES, result_key
@@ -101,6 +104,25 @@ def test_names_equal_but_for_case_are_refused_before_any_work(tmp_path, capsys):
     assert [rows[f]["status"] for f in ("Data.csv", "data.csv", "good.csv")] == ["error", "error", "ok"]
     assert not (out / "Data.csv").exists() and not (out / "data.csv").exists()  # refused before any work
     assert read_run_index(out)["data.csv"] is None
+
+
+def test_names_equal_but_for_the_dots_and_spaces_that_end_them_are_refused(tmp_path, capsys):
+    # Windows drops the dots and spaces that end a name (Microsoft, "Naming Files, Paths, and Namespaces"):
+    # a.csv, a.csv. and "a.csv " would be one result folder there, and summary.csv. the run's own table
+    arch = tmp_path / "arch"
+    names = ["a.csv", "a.csv.", "a.csv ", "summary.csv.", "good.csv"]
+    for seed, name in enumerate(names):
+        sweep_file(arch / name, seed, sample=f"sample of {name}")
+    out = tmp_path / "out"  # named, since a folder's search takes only the known suffixes
+    argv = ["batch", *(str(arch / n) for n in names), "--out", str(out), "--settings", str(settings_file(tmp_path))]
+    assert main(argv) == 1
+    errors = [line for line in capsys.readouterr().out.splitlines() if line.startswith("  error: ")]
+    assert len(errors) == 3 and all("would be the same as that of" in e and "on Windows" in e for e in errors)
+    rows = {r["file"]: r for r in read_summary(out)}
+    assert [rows[f]["status"] for f in ("a.csv", "a.csv.", "a.csv ")] == ["error"] * 3
+    assert rows["summary.csv."]["status"] == rows["good.csv"]["status"] == "ok"
+    assert result_key("summary.csv.") == "_summary.csv." and (out / "_summary.csv." / "result.json").exists()
+    assert not (out / "a.csv").exists()
 
 
 def test_invert_out_with_several_same_named_inputs(tmp_path, capsys, monkeypatch):
@@ -195,6 +217,33 @@ def test_reserved_and_nested_names_cannot_block_the_archive(tmp_path, capsys):
                                     "con2.csv", "aux.")] == [
         "_con.csv", "lab/_NUL.dat", "_Com1", "_lpt9.csv.csv", "__con.csv", "console.csv", "con2.csv", "_aux."]
     assert {n.casefold() for n in (*RUN_FILES, REPORT_NAME, INDEX_NAME, LOCK_NAME, HOLDER_NAME)} <= RESERVED
+
+
+_PARTS = st.sampled_from(["a.csv", "A.CSV", "a.csv.", "a.csv ", "summary.csv", "Summary.CSV.", "_summary.csv",
+                          "#2", "_#2", "#2.", "con", "CON.txt", "_con.txt", "nul.", "run.json", "x", "_"])
+
+
+@settings(max_examples=300)
+@given(st.lists(st.lists(_PARTS, min_size=1, max_size=3).map("/".join), min_size=1, max_size=8, unique=True))
+def test_result_folders_are_one_to_one_and_never_a_reserved_name(files):
+    """Rule 2 of batch/layout.py for any set of relative paths: distinct inputs get distinct folders, and no
+    folder name is, as Windows reads it (case folded, the dots and spaces at its end dropped), a name tauspec
+    writes, a block's folder or a device name (Microsoft, "Naming Files, Paths, and Namespaces")."""
+    from tauspec.batch.layout import same_folder_refusals
+
+    keys = {f: result_key(f) for f in files}
+    assert len(set(keys.values())) == len(files)
+    for key in keys.values():
+        for part in key.split("/"):
+            windows = part.casefold().rstrip(" .")
+            assert windows not in RESERVED and not re.fullmatch(r"#\d+", windows), key
+            assert not re.fullmatch(r"(con|prn|aux|nul|com\d|lpt\d)(\..*)?", windows), key
+    # two inputs are refused exactly when their folders are one on Windows
+    refused = same_folder_refusals(keys)
+    windows_form = {f: "/".join(p.casefold().rstrip(" .") for p in k.split("/")) for f, k in keys.items()}
+    for f in files:
+        shared = any(windows_form[o] == windows_form[f] for o in files if o != f)
+        assert (f in refused) == shared, (f, keys)
 
 
 # --------------------------------------------------------------------------- 4. --out inside the archive

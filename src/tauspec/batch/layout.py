@@ -5,13 +5,15 @@ The rule (docs/batch.md, "Output layout"):
 1. An input's result folder is its path relative to the common folder of the inputs, **suffix included**:
    ``series/a.csv`` → ``DIR/series/a.csv/``.  ``a.csv``, ``a.dat`` and ``a.csv.csv`` get three folders.
 2. A path component that is a name tauspec writes (``summary.csv``, ``run.json``, ``spectrum.csv`` ...,
-   compared case-insensitively), the folder of a block (``#2``: the blocks of a file of several are
-   ``a.txt/#1/``, ``a.txt/#2/`` ...) or a device name Windows reserves (``con.csv``, ``NUL.dat``, ``com1.txt``),
+   compared case-insensitively and without the dots and spaces that end it, as Windows compares), the folder
+   of a block (``#2``: the blocks of a file of several are ``a.txt/#1/``, ``a.txt/#2/`` ...) or a device name
+   Windows reserves (``con.csv``, ``NUL.dat``, ``com1.txt``),
    or such a name behind leading underscores, gets one more leading underscore: ``summary.csv`` →
    ``_summary.csv``, ``_summary.csv`` → ``__summary.csv``, ``con.csv`` → ``_con.csv``.  The mapping is
    one-to-one, and no input can name a file of the run, of another input's result folder, or a block's folder.
 3. Two inputs whose folders differ only in case (or in Unicode normalization) would share one folder on macOS
-   and Windows: both are refused, one line each, never overwritten.
+   and Windows, and so would two that differ only in dots or spaces at the end of a name (``a.csv`` and
+   ``a.csv.``: Windows drops them): both are refused, one line each, never overwritten.
 4. On the disk, a folder path that runs through a file or a link is refused for that input (tauspec did not
    write it); the run goes on with the others.
 """
@@ -42,6 +44,14 @@ def _fold(text: str) -> str:
     return unicodedata.normalize("NFC", text).casefold()
 
 
+def _windows_form(key: str) -> str:
+    """The folder a key names on Windows: case folded, and each name without its trailing dots and spaces.
+
+    Windows removes them from every name it is given (Microsoft, "Naming Files, Paths, and Namespaces").
+    """
+    return "/".join(part.rstrip(" .") for part in _fold(key).split("/"))
+
+
 #: Names no input may produce, in folded form.
 RESERVED = frozenset(_fold(n) for n in RUN_FILES + RESULT_NAMES)
 
@@ -54,8 +64,8 @@ _DEVICE = re.compile(r"(con|prn|aux|nul|com[0-9¹²³]|lpt[0-9¹²³])(\..*)?", 
 
 
 def _component(name: str) -> str:
-    base = name.lstrip("_")
-    reserved = _fold(base) in RESERVED or _BLOCK.fullmatch(base) or _DEVICE.fullmatch(base.rstrip(" ."))
+    base = name.lstrip("_").rstrip(" .")  # as Windows names it (_windows_form)
+    reserved = _fold(base) in RESERVED or _BLOCK.fullmatch(base) or _DEVICE.fullmatch(base)
     return "_" + name if reserved else name
 
 
@@ -88,20 +98,25 @@ def same_folder_refusals(keys: Mapping[str, str], what: str = "result folder",
                          remedy: str = "rename one of them") -> dict[str, str]:
     """Refusals (file → reason) of inputs whose result folders coincide, here or on a case-insensitive disk.
 
-    On macOS and Windows names differing only in case are one file.  None of the inputs of such a group is
-    processed, so none overwrites another's results.
+    On macOS and Windows names differing only in case are one file, and on Windows also names differing only
+    in the dots and spaces that end them.  None of the inputs of such a group is processed, so none overwrites
+    another's results.
     """
     groups: dict[str, list[str]] = defaultdict(list)
     for file, key in keys.items():
-        groups[_fold(key)].append(file)
+        groups[_windows_form(key)].append(file)
     refused = {}
     for members in groups.values():
         if len(members) < 2:
             continue
         for file in members:
             others = [o for o in members if o != file]
-            where = "" if all(keys[o] == keys[file] for o in others) else \
-                " on a file system that ignores case (macOS, Windows)"
+            if all(keys[o] == keys[file] for o in others):
+                where = ""
+            elif all(_fold(keys[o]) == _fold(keys[file]) for o in others):
+                where = " on a file system that ignores case (macOS, Windows)"
+            else:
+                where = " on Windows, which ignores case and the dots and spaces that end a name"
             refused[file] = (f"its {what} {keys[file]!r} would be the same as that of "
                              f"{', '.join(repr(o) for o in others)}{where}: none of them is processed; {remedy}")
     return refused
