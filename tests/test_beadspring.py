@@ -13,7 +13,7 @@ from scipy.special import zeta
 from tauspec.models.beadspring import fit_chain
 from tauspec.models.chains import chain_moduli, mode_times, rouse_moduli, zimm_moduli
 from tauspec.models.intervals import add_intervals, jacobian_intervals
-from tauspec.models.signatures import ROUSE_G_COEFF, loglog_slope
+from tauspec.models.signatures import ROUSE_G_COEFF, crossovers, local_lines, loglog_slope
 from tauspec.spectrum.kernels import modes_moduli
 
 # ------------------------------------------------------------------------------------------- check values
@@ -99,6 +99,27 @@ def test_loglog_slope_is_the_least_squares_line_of_numpy_polyfit():
     assert slope == pytest.approx(coef[0], rel=1e-12)
     assert rms == pytest.approx(np.sqrt(np.mean((np.log(y) - np.polyval(coef, np.log(x))) ** 2)), rel=1e-10)
     assert all(math.isnan(v) for v in loglog_slope(np.ones(3), y[:3]))
+
+
+def test_local_lines_are_the_least_squares_lines_of_numpy_polyfit_and_find_the_maxwell_crossover():
+    # every window's straight line (±0.25 decade, at least the 3 nearest points) against numpy.polyfit
+    rng = np.random.default_rng(5)
+    w = np.sort(np.geomspace(1e-2, 1e2, 23) * np.exp(0.02 * rng.standard_normal(23)))
+    y = np.exp(0.4 * np.log(w) + 0.05 * rng.standard_normal(23))
+    slope, value = local_lines(w, y)
+    lw = np.log10(w)
+    for i in range(w.size):
+        sel = np.abs(lw - lw[i]) <= 0.25 + 1e-12
+        if np.count_nonzero(sel) < 3:
+            sel = np.argsort(np.abs(lw - lw[i]))[:3]
+        coef = np.polyfit(np.log(w[sel]), np.log(y[sel]), 1)
+        assert slope[i] == pytest.approx(coef[0], rel=1e-9, abs=1e-12)
+        assert value[i] == pytest.approx(np.polyval(coef, np.log(w[i])), rel=1e-9, abs=1e-12)
+    # one Maxwell mode (Ferry 1980, ch. 3): G' = G'' at ωτ = 1, G' rising above G''
+    om = np.geomspace(1e-2, 1e2, 41)
+    gp, gpp = modes_moduli(om, [1.0], [2.0])
+    ((w_cross, direction),) = crossovers(om, gp, gpp)
+    assert direction == 1 and w_cross == pytest.approx(0.5, rel=0.02)
 
 
 def test_continuous_N_is_the_chain_at_integers_and_between_them():

@@ -28,6 +28,7 @@ __all__ = [
     "plateau_decades",
     "power_law_fit",
     "loglog_slope",
+    "local_lines",
     "median_in",
     "SparseModes",
     "sparse_modes",
@@ -58,11 +59,13 @@ def loglog_slope(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
     return slope, math.sqrt(float(res @ res) / len(res))
 
 
-def local_slopes(omega: np.ndarray, y: np.ndarray, half_width: float = 0.25) -> np.ndarray:
-    """Local d ln y / d ln ω by a straight-line fit over ±``half_width`` decades around each point (≥ 3 points).
+def local_lines(omega: np.ndarray, y: np.ndarray, half_width: float = 0.25) -> tuple[np.ndarray, np.ndarray]:
+    """Straight lines of ln y against ln ω over ±``half_width`` decades around each point (≥ 3 points).
 
-    All windows at once: slope_i = Σ_j w_ij (x_j − x̄_i)(y_j − ȳ_i) / Σ_j w_ij (x_j − x̄_i)², the least-squares
-    slope over the points j of window i (x = ln ω, y = ln y); NaN where a window spans no frequency range.
+    Returns the local slopes d ln y / d ln ω and the lines' values of ln y at each point.  All windows at
+    once: slope_i = Σ_j w_ij (x_j − x̄_i)(y_j − ȳ_i) / Σ_j w_ij (x_j − x̄_i)² and value_i = ȳ_i + slope_i (x_i − x̄_i),
+    the least-squares line over the points j of window i (x = ln ω, y = ln y); the slope is NaN (and the value
+    the window's mean) where a window spans no frequency range.
     """
     omega = np.asarray(omega, dtype=float)
     lw = np.log10(omega)
@@ -74,11 +77,22 @@ def local_slopes(omega: np.ndarray, y: np.ndarray, half_width: float = 0.25) -> 
     w = sel.astype(float)
     lx, ly = np.log(omega), np.log(np.asarray(y, dtype=float))
     count = w.sum(axis=1)
-    dx = lx[None, :] - ((w @ lx) / count)[:, None]
-    dy = ly[None, :] - ((w @ ly) / count)[:, None]
+    mx, my = (w @ lx) / count, (w @ ly) / count
+    dx = lx[None, :] - mx[:, None]
+    dy = ly[None, :] - my[:, None]
     sxx = np.einsum("ij,ij->i", w, dx * dx)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(sxx > 0, np.einsum("ij,ij->i", w, dx * dy) / sxx, math.nan)
+        slope = np.where(sxx > 0, np.einsum("ij,ij->i", w, dx * dy) / sxx, math.nan)
+    value = my + np.where(sxx > 0, slope, 0.0) * (lx - mx)
+    return slope, value
+
+
+def local_slopes(omega: np.ndarray, y: np.ndarray, half_width: float = 0.25) -> np.ndarray:
+    """Local d ln y / d ln ω by a straight-line fit over ±``half_width`` decades around each point (≥ 3 points).
+
+    The slopes of :func:`local_lines`; NaN where a window spans no frequency range.
+    """
+    return local_lines(omega, y, half_width)[0]
 
 
 def end_slopes(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, decades: float = 0.5) -> tuple[float, float]:
@@ -234,14 +248,7 @@ def crossovers(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray,
     near-equality does not make spurious crossings); crossings are interpolated linearly in ln ω.
     """
     lw = np.log10(omega)
-    d = np.log(storage / loss)
-    sm = np.empty(len(d))
-    for i, c in enumerate(lw):
-        sel = np.abs(lw - c) <= half_width + 1e-12
-        if np.count_nonzero(sel) < 3:
-            sel = np.argsort(np.abs(lw - c))[:3]
-        A = np.vstack([lw[sel] - c, np.ones(np.size(lw[sel]))]).T
-        sm[i] = np.linalg.lstsq(A, d[sel], rcond=None)[0][1]
+    sm = local_lines(omega, storage / loss, half_width)[1]
     out = []
     for i in range(len(sm) - 1):
         if sm[i] == 0 or np.sign(sm[i]) != np.sign(sm[i + 1]):
