@@ -163,10 +163,11 @@ def roughness_noise(omega: np.ndarray, values: np.ndarray) -> float:
     y = np.log(np.asarray(values, dtype=float))
     if len(x) < 5:
         return math.nan
-    e = []
-    for i in range(2, len(x) - 2):
-        idx = np.array([i - 2, i - 1, i + 1, i + 2])
-        X = np.vander(x[idx] - x[i], 3, increasing=True)  # 1, dx, dx²
-        c = np.linalg.solve(X.T @ X, X.T)[0]  # the value at x_i of the least-squares quadratic
-        e.append((y[i] - float(c @ y[idx])) / math.sqrt(1.0 + float(c @ c)))
+    i = np.arange(2, len(x) - 2)
+    idx = i[:, None] + np.array([-2, -1, 1, 2])  # the four neighbours of every interior point
+    dx = x[idx] - x[i, None]
+    X = np.stack([np.ones_like(dx), dx, dx * dx], axis=2)  # 1, dx, dx²
+    Xt = np.swapaxes(X, 1, 2)
+    c = np.linalg.solve(Xt @ X, Xt)[:, 0, :]  # the value at x_i of each least-squares quadratic
+    e = (y[i] - np.einsum("ij,ij->i", c, y[idx])) / np.sqrt(1.0 + np.einsum("ij,ij->i", c, c))
     return float(MAD_SCALE * np.median(np.abs(e)))
