@@ -225,16 +225,20 @@ _N_GRID = tuple(int(v) for v in np.unique(np.round(np.geomspace(1, N_MAX, 14))))
 _TAU_FACTORS = (0.5, 1.0, 2.0)
 
 
-def _scored_starts(prob: _Problem, taus: Sequence[float], a_values: Sequence[float | None]) -> list[tuple]:
-    """(χ², θ) of every start on the grid τ_1 estimates × _TAU_FACTORS × _N_GRID × a, best first.
+def _scored_starts(prob: _Problem, taus: Sequence[float], a_values: Sequence[float | None],
+                   keep: int) -> list[np.ndarray]:
+    """θ of the ``keep`` best starts on the grid τ_1 estimates × _TAU_FACTORS × _N_GRID × a, best first.
 
     Each start is scored with (G0, η_s) solved exactly, on tabulated unit chains
-    (:func:`tauspec.models.chains.tabulated_chains`): cheap, and accurate enough to rank starts.
+    (:func:`tauspec.models.chains.tabulated_chains`): cheap, and accurate enough to rank starts.  Equal scores
+    keep the grid's order (a, then N, then τ_1).
     """
+    if keep <= 0:
+        return []
     ln_t = np.clip(np.log([t * f for t in taus for f in _TAU_FACTORS]), prob.lo_tau, prob.hi_tau)
     U = np.log(prob.omega)[None, :] + ln_t[:, None]
     s, ss, sy = prob.s, prob.ss, prob.sy
-    out = []
+    scores = []
     for a in a_values:
         sp, spp = tabulated_chains(U, _N_GRID, prob.a_fixed if a is None else a, prob.law)
         u = np.concatenate([sp, spp], axis=2) * prob.inv  # (N grid, τ starts, 2m)
@@ -255,10 +259,14 @@ def _scored_starts(prob: _Problem, taus: Sequence[float], a_values: Sequence[flo
         else:
             g0, eta = g_only, np.zeros_like(g_only)
         r = g0[..., None] * u + eta[..., None] * s - 1.0
-        chi2 = np.einsum("ijk,ijk->ij", r, r)
-        for (i, j), c in np.ndenumerate(chi2):
-            out.append((float(c), [float(ln_t[j]), math.log(_N_GRID[i])] + ([a] if a is not None else [])))
-    out.sort(key=lambda c: c[0])
+        scores.append(np.einsum("ijk,ijk->ij", r, r).ravel())  # N outer, τ_1 inner
+    per_a = len(_N_GRID) * ln_t.size
+    out = []
+    for k in np.argsort(np.concatenate(scores), kind="stable")[:keep]:
+        b, rest = divmod(int(k), per_a)
+        i, j = divmod(rest, ln_t.size)
+        a = a_values[b]
+        out.append(np.array([float(ln_t[j]), math.log(_N_GRID[i])] + ([a] if a is not None else [])))
     return out
 
 
@@ -345,7 +353,7 @@ def _fit(prob: _Problem, model: str, taus: Sequence[float], extra: Sequence[np.n
     (:func:`_best_segment`), refined tightly, and on a kink of N refitted with N held there.
     """
     a_values = (1.5, 2.0) if prob.a_fixed is None else (None,)
-    starts = [np.array(c[1]) for c in _scored_starts(prob, taus, a_values)[:n_grid]] + list(extra)
+    starts = _scored_starts(prob, taus, a_values, n_grid) + list(extra)
     best = min((_refine(prob, x0, _COARSE) for x0 in starts), key=lambda res: res.cost)
     x_seg = _best_segment(prob, best.x)
     if math.floor(math.exp(x_seg[1])) != math.floor(math.exp(best.x[1])):

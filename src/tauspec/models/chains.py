@@ -113,6 +113,24 @@ def get_law(form: str) -> ModeTimeLaw:
         raise ValueError(f"unknown form {form!r} (use one of {tuple(LAWS)})") from None
 
 
+_EDGES = np.array([EXACT_MODES])
+
+
+def _bin_edges(n: int) -> np.ndarray:
+    """The upper edges of the bins of :func:`mode_positions`, from EXACT_MODES until one reaches ``n``.
+
+    The sequence e_{k+1} = max(e_k + 1, ⌊e_k · BIN_RATIO⌋) does not depend on n (a chain's last bin ends at n
+    instead), so it is extended once and kept.
+    """
+    global _EDGES
+    if _EDGES[-1] < n:
+        edges = _EDGES.tolist()
+        while edges[-1] < n:
+            edges.append(max(edges[-1] + 1, int(edges[-1] * BIN_RATIO)))
+        _EDGES = np.array(edges)
+    return _EDGES
+
+
 @functools.lru_cache(maxsize=1024)
 def mode_positions(n: int) -> tuple[np.ndarray, np.ndarray]:
     """Mode indices p (possibly fractional) and multiplicities for summing over p = 1 … n.
@@ -125,10 +143,8 @@ def mode_positions(n: int) -> tuple[np.ndarray, np.ndarray]:
     if n <= EXACT_MODES:
         p, m = np.arange(1, n + 1, dtype=float), np.ones(n)
     else:
-        edges = [EXACT_MODES]
-        while edges[-1] < n:
-            edges.append(min(n, max(edges[-1] + 1, int(edges[-1] * BIN_RATIO))))
-        e = np.array(edges, dtype=float)
+        edges = _bin_edges(n)
+        e = np.append(edges[: np.searchsorted(edges, n)], n).astype(float)
         lo, hi = e[:-1] + 1, e[1:]
         p = np.concatenate([np.arange(1, EXACT_MODES + 1, dtype=float), 0.5 * (lo + hi)])
         m = np.concatenate([np.ones(EXACT_MODES), hi - lo + 1])
