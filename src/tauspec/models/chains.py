@@ -113,22 +113,20 @@ def get_law(form: str) -> ModeTimeLaw:
         raise ValueError(f"unknown form {form!r} (use one of {tuple(LAWS)})") from None
 
 
-_EDGES = np.array([EXACT_MODES])
+@functools.cache
+def _bin_edges(limit: int) -> np.ndarray:
+    """The upper edges of the bins of :func:`mode_positions`, from EXACT_MODES until one reaches ``limit``.
 
-
-def _bin_edges(n: int) -> np.ndarray:
-    """The upper edges of the bins of :func:`mode_positions`, from EXACT_MODES until one reaches ``n``.
-
-    The sequence e_{k+1} = max(e_k + 1, ⌊e_k · BIN_RATIO⌋) does not depend on n (a chain's last bin ends at n
-    instead), so it is extended once and kept.
+    e_{k+1} = max(e_k + 1, ⌊e_k · BIN_RATIO⌋).  The sequence does not depend on the chain (a chain's last bin
+    ends at its n instead), so it is built once per power of two of n (:func:`mode_positions` asks for the
+    next one up) and kept, read-only.
     """
-    global _EDGES
-    if _EDGES[-1] < n:
-        edges = _EDGES.tolist()
-        while edges[-1] < n:
-            edges.append(max(edges[-1] + 1, int(edges[-1] * BIN_RATIO)))
-        _EDGES = np.array(edges)
-    return _EDGES
+    edges = [EXACT_MODES]
+    while edges[-1] < limit:
+        edges.append(max(edges[-1] + 1, int(edges[-1] * BIN_RATIO)))
+    out = np.array(edges)
+    out.setflags(write=False)
+    return out
 
 
 @functools.lru_cache(maxsize=1024)
@@ -143,7 +141,7 @@ def mode_positions(n: int) -> tuple[np.ndarray, np.ndarray]:
     if n <= EXACT_MODES:
         p, m = np.arange(1, n + 1, dtype=float), np.ones(n)
     else:
-        edges = _bin_edges(n)
+        edges = _bin_edges(1 << (n - 1).bit_length())
         e = np.append(edges[: np.searchsorted(edges, n)], n).astype(float)
         lo, hi = e[:-1] + 1, e[1:]
         p = np.concatenate([np.arange(1, EXACT_MODES + 1, dtype=float), 0.5 * (lo + hi)])
