@@ -362,6 +362,32 @@ def test_manifest_rows_are_numbered_by_their_line_and_an_open_quote_is_refused(t
         read_manifest(manifest)
 
 
+def test_manifest_separated_by_semicolons_or_tabs_and_a_file_listed_twice(tmp_path):
+    from tauspec.data.manifest import read_manifest
+
+    manifest = tmp_path / "list.csv"
+    # what a spreadsheet saves as "CSV" where the decimal mark is a comma: semicolons, decimal commas, a BOM
+    manifest.write_bytes("\ufefffile;M;c;T;label\na.csv;1,5e5;0,25;25,5;lot 7\nb.csv;2e5;;;\n".encode())
+    rows = [(e.file, e.M, e.c, e.T, e.label) for e in read_manifest(manifest)]
+    assert rows == [("a.csv", 1.5e5, 0.25, pytest.approx(298.65), "lot 7"), ("b.csv", 2e5, None, None, None)]
+    manifest.write_text("file\tM\na.csv\t3,5e4\n")
+    assert [e.M for e in read_manifest(manifest)] == [3.5e4]
+    # with commas between the columns a comma inside a number is not a decimal mark
+    manifest.write_text('file,M\na.csv,"1,5"\n')
+    with pytest.raises(SettingsError, match=r"list.csv:2: M '1,5' is not a number"):
+        read_manifest(manifest)
+    # the same file twice: the same values are one sample; different values cannot both be meant
+    manifest.write_text("file,M\na.csv,1e5\n./a.csv,1e5\n")
+    assert [e.M for e in read_manifest(manifest)] == [1e5, 1e5]
+    manifest.write_text("file,M\na.csv,1e5\nb.csv,3e5\n./a.csv,2e5\n")
+    with pytest.raises(SettingsError, match=r"list.csv:4: './a.csv' is listed twice with different values "
+                                            r"\(lines 2 and 4\)"):
+        read_manifest(manifest)
+    manifest.write_text("name;M\na.csv;1e5\n")
+    with pytest.raises(SettingsError, match=r"list.csv:1: the manifest needs a header row with a 'file' column"):
+        read_manifest(manifest)
+
+
 def test_plots_are_drawn_once_and_a_rerun_with_plots_draws_missing_ones(tmp_path):
     work = tmp_path / "arch"
     make_archive(work, n=2)
