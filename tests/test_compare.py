@@ -139,6 +139,11 @@ def test_overlay_figure_draws_each_spectrum_in_its_window():
     c = compare([A, B], replicates=0)
     # no replicates: no spectral test (p is NaN), but the shifted moduli are still tested against their noise
     assert math.isnan(c.pairs[0].p_value) and c.pairs[0].same_shape is True
+    # and the text names the test that decided, with its p-value, not only the missing spectral one
+    line = c.report().splitlines()[1]
+    p_moduli = c.pairs[0].moduli["p_value"]
+    assert line.endswith(f"p = n/a (spectra), p = {p_moduli:.4g} (moduli, deciding): same shape"), line
+    assert "too few replicates for the test of the spectra" in c.report()
     from tauspec.output.figures.overlay import overlay_figure, plot_overlay
 
     fig = overlay_figure(c)

@@ -98,10 +98,13 @@ class Comparison:
         for i in self.ranking:
             p = self.pairs[i]
             verdict = {True: "same shape", False: "different shape", None: "shape not tested"}[p.same_shape]
+            # the test that decides (docs/compare.md 3b): the shifted moduli, when the overlap let them
+            moduli_p = (p.moduli or {}).get("p_value") if p.same_shape is not None else None
+            decided = f", p = {_g(moduli_p)} (moduli, deciding)" if moduli_p is not None else ""
             lines.append(
                 f"  {p.b} vs {p.a}: a = {_g(p.time_shift)} [{_g(p.time_shift_ci[0])}, {_g(p.time_shift_ci[1])}], "
                 f"b = {_g(p.modulus_shift)} [{_g(p.modulus_shift_ci[0])}, {_g(p.modulus_shift_ci[1])}], "
-                f"D² = {_g(p.shape_distance)}, p = {_g(p.p_value)}: {verdict}")
+                f"D² = {_g(p.shape_distance)}, p = {_g(p.p_value)} (spectra){decided}: {verdict}")
             if p.rouse:
                 r = p.rouse
                 lines.append(f"    Rouse: τ_R ratio {_g(r['tau_R_ratio'])} {_ci(r['tau_R_ratio_ci'])}, "

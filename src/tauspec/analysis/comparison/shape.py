@@ -205,7 +205,7 @@ def _compare_pair(name_a: str, name_b: str, ua: SampleUncertainty, ub: SampleUnc
     else:
         p = p_emp = math.nan
         same = None
-        notes.append("too few replicates for the shape test (need at least 3 replicate pairs)")
+        notes.append("too few replicates for the test of the spectra (need at least 3 replicate pairs)")
     shifts = (fit.log_a, _interval(fit.log_a, np.array(la)), fit.log_b, _interval(fit.log_b, np.array(lb)))
     moduli = None
     if spectra is not None:
