@@ -211,6 +211,23 @@ def test_batch_bad_files_are_error_rows_exit_1(tmp_path, capsys):
         assert "\n" not in row["error"]
 
 
+def test_every_command_refuses_an_out_that_is_a_file(tmp_path, capsys):
+    # batch said "cannot write (File exists) ... free space or make the folder writable": not the cause
+    from tauspec.batch.run import run_batch
+    from tauspec.errors import TauspecError
+
+    (tmp_path / "a.csv").write_text(GOOD_TEXT)
+    target = tmp_path / "notes.txt"
+    target.write_text("the user's file\n")
+    for argv in (["batch", str(tmp_path / "a.csv")], ["invert", str(tmp_path / "a.csv")],
+                 ["diagnose", str(tmp_path / "a.csv"), "--no-intervals"]):
+        assert main([*argv, "--out", str(target)]) == 1
+        assert capsys.readouterr().err.strip() == f"tauspec: error: --out {str(target)!r} is a file, not a folder"
+    with pytest.raises(TauspecError, match="the output folder is a file"):
+        run_batch([tmp_path / "a.csv"], target)
+    assert target.read_text() == "the user's file\n"
+
+
 # --- random input: nothing but our own one-line error, or success ------------------------------------------
 
 from hypothesis import HealthCheck, given, settings  # noqa: E402

@@ -220,6 +220,8 @@ def run_batch(
     settings = settings or BatchSettings()
     _check_arguments(jobs, backend, scheduler)
     out = Path(out)
+    if os.path.lexists(out) and not out.is_dir():
+        raise TauspecError("the output folder is a file (or a link to none), not a folder", str(out))
     started, t0 = time.time(), time.perf_counter()
     found = discover(paths, out, manifest, exclude)
     try:

@@ -11,7 +11,7 @@ from typing import Any
 
 from ..data.write import dumps_json
 from ..output.words import counted
-from .common import add_output_arguments, figure_formats
+from .common import add_output_arguments, check_output_arguments, figure_formats
 from .options import add_options
 
 #: Columns of summary.csv that hold text; every other column holds a number (or nothing).
@@ -76,6 +76,7 @@ def run(args: argparse.Namespace) -> int:
     from ..batch.summary import read_summary
     from ..output.text import printable
 
+    check_output_arguments(args, plot_needs_out=False)  # --out is required here
     plots = bool(args.plot or args.report)
     settings = load_settings(args.settings, plots=plots)
     if plots:
