@@ -15,8 +15,8 @@ from tauspec.batch.run import run_batch
 from tauspec.batch.settings import BatchSettings
 from tauspec.batch.summary import read_summary
 from tauspec.cli.main import main
-from tauspec.data.read import read_sweeps
-from tauspec.errors import TauspecWarning
+from tauspec.data.read import parse_sweeps_text, read_sweeps
+from tauspec.errors import SweepError, TauspecWarning
 from tauspec.spectrum.invert import invert
 from tauspec.spectrum.options import InvertOptions
 
@@ -114,3 +114,44 @@ def test_single_sweep_commands_refuse_a_file_of_blocks(capsys):
     assert main(["invert", str(DATA / "three_blocks.txt")]) == 1
     err = capsys.readouterr().err
     assert "holds 3 sweeps in 3 blocks" in err and "read_sweeps" in err and "'tauspec batch'" in err
+
+
+def _amplitude_then_frequency(path: Path, with_frequency_sweep: bool = True) -> Path:
+    """An export of an amplitude sweep (ω fixed at 10 rad/s, the strain rising) and then a frequency sweep of one
+    Maxwell mode, g = 10 kPa, τ = 1 s (Ferry 1980, ch. 3), in one file, as rheometer software writes a test
+    program's intervals."""
+    strain = np.geomspace(0.01, 100, 12)
+    w = np.geomspace(0.1, 100, 16)
+    lines = ["Test: amplitude sweep", "", "Point\tStrain\tAngular Frequency\tStorage Modulus\tLoss Modulus",
+             "\t[%]\t[rad/s]\t[Pa]\t[Pa]"]
+    lines += [f"{i}\t{s:.4g}\t10\t{5000 / (1 + (s / 20) ** 2):.6g}\t{1000 / (1 + (s / 30) ** 2):.6g}"
+              for i, s in enumerate(strain, start=1)]
+    if with_frequency_sweep:
+        lines += ["", "Test: frequency sweep", "", "Point\tStrain\tAngular Frequency\tStorage Modulus\tLoss Modulus",
+                  "\t[%]\t[rad/s]\t[Pa]\t[Pa]"]
+        lines += [f"{i}\t1\t{x:.8g}\t{1e4 * x * x / (1 + x * x):.8g}\t{1e4 * x / (1 + x * x):.8g}"
+                  for i, x in enumerate(w, start=1)]
+    path.write_text("\n".join(lines) + "\n")
+    return path
+
+
+def test_an_amplitude_sweep_block_is_left_out_with_its_reason(tmp_path):
+    # before: "duplicate frequency 10 rad/s (lines 5 and 6)", and the frequency sweep beside it was not read
+    both = _amplitude_then_frequency(tmp_path / "program.txt")
+    with pytest.warns(TauspecWarning, match=r"left out block 1 \(lines 3-16\): the frequency is 10 rad/s at every "
+                                            r"point: an amplitude or time sweep, not a frequency sweep"):
+        (sw,) = read_sweeps(both)
+    assert sw.name == "program#2" and len(sw.omega) == 16
+    np.testing.assert_allclose(sw.storage[sw.omega == 1.0], 5000.0, rtol=1e-7)  # G' = g/2 at ωτ = 1
+    with pytest.raises(SweepError, match=r"program.txt:5: block 1 \(lines 3-16\): the frequency is 10 rad/s"):
+        parse_sweeps_text(both.read_text(), source="program.txt", block=1)
+    only = _amplitude_then_frequency(tmp_path / "amplitude.txt", with_frequency_sweep=False)
+    with pytest.raises(SweepError, match=r"amplitude.txt:5: the frequency is 10 rad/s at every point: an amplitude "
+                                         r"or time sweep, not a frequency sweep"):
+        read_sweeps(only)
+    # the batch: the amplitude block is its own error row with the reason, the frequency sweep a result
+    out = tmp_path / "out"
+    run_batch([both], out, settings=SMALL, jobs=1)
+    rows = {r["file"]: r for r in read_summary(out)}
+    assert rows["program.txt#2"]["status"] == "ok"
+    assert rows["program.txt#1"]["status"] == "error" and "an amplitude or time sweep" in rows["program.txt#1"]["error"]

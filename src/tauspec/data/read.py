@@ -15,6 +15,8 @@ import warnings
 from pathlib import Path
 from typing import Any
 
+import numpy as np
+
 from ..errors import DroppedPointsWarning, SettingsError, SweepError
 from .blocks import Block, check_size, sample_lines, scan
 from .build import build_sweep, line_ranges
@@ -119,6 +121,10 @@ def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "
     return _one(parse_sweeps_text(text, source=source, default_name=default_name, options=options, **fields), source)
 
 
+class _NotAFrequencySweep(SweepError):
+    """A block whose frequency is the same at every point: an amplitude or time sweep, not a frequency sweep."""
+
+
 def _one(sweeps: list[Sweep], source: str) -> Sweep:
     if len(sweeps) == 1:
         return sweeps[0]
@@ -183,10 +189,20 @@ def parse_sweeps_text(text: str, *, source: str = "<text>", default_name: str = 
         raise SweepError(f"has {len(blocks)} block(s), not a block {block}", source)
     shared = {k: v for k, v in parse_preamble(blocks[0].preamble, delimiter)[0].items() if k != "temperature"}
     out: list[Sweep] = []
+    skipped: list[_NotAFrequencySweep] = []
     for k, (part, plan) in enumerate(zip(blocks, plans), start=1):
         if block is None or block == k:
             meta, name = _block_meta(blocks, k, shared, delimiter, default_name)
-            out += _block_sweeps(part, plan, delimiter, meta, name, source, opts)
+            try:
+                out += _block_sweeps(part, plan, delimiter, meta, name, source, opts)
+            except _NotAFrequencySweep as exc:
+                if block is not None or len(blocks) == 1:
+                    raise
+                skipped.append(exc)
+    if skipped and not out:
+        raise skipped[0]
+    for exc in skipped:  # the frequency sweeps of an export that also holds an amplitude or time sweep
+        warnings.warn(f"{source}: left out {exc.reason}", DroppedPointsWarning, stacklevel=3)
     return out
 
 
@@ -267,6 +283,10 @@ def _plans(blocks: list[Block], source: str) -> list[Plan]:
 def _block_sweeps(block: Block, plan: Plan, delimiter: str, meta: dict[str, str], name: str, source: str,
                   opts: ReadOptions) -> list[Sweep]:
     table = read_table(block, plan, delimiter=delimiter, source=source)
+    if table.omega.size > 1 and np.all(table.omega == table.omega[0]):
+        where = f"block {meta['block']} (lines {block.header_line}-{int(table.lines[-1])}): " if "block" in meta else ""
+        raise _NotAFrequencySweep(f"{where}the frequency is {table.omega[0]:.6g} rad/s at every point: an amplitude "
+                                  "or time sweep, not a frequency sweep", source, int(table.lines[0]))
     meta = {**meta, **table.notes}
     if table.temperature is None:
         return [build_sweep(table.omega, table.storage, table.loss, table.lines, missing_lines=table.missing_lines,
