@@ -41,6 +41,24 @@ def test_roughness_of_an_exact_curve_is_small():
     assert roughness_noise(w, gp) < 1e-3
 
 
+def test_a_sparse_sweep_is_not_called_scatter():
+    # One exact Maxwell mode (Ferry 1980, ch. 3) at one point per decade: the local quadratic through four
+    # neighbours spans four decades and reads the curve's own bend as 34 % scatter, and the verdict was
+    # "inconclusive: ... they carry no shape".  Below 3 points per decade the scatter test is not made.
+    w = np.geomspace(1e-3, 1e3, 7)
+    sweep = Sweep(omega=w, storage=1e3 * w**2 / (1 + w**2), loss=1e3 * w / (1 + w**2), name="sparse")
+    assert roughness_noise(sweep.omega, sweep.storage) > 0.3
+    d = diagnose(sweep, intervals=False)
+    ev = {e.test: e for e in d.evidence}
+    assert ev["noise_level"].passed is None and ev["noise_level"].note.startswith("not made: 1 points per decade")
+    assert d.verdict == "other" and "single relaxation" in d.reason
+    # at five points per decade the same curve is smooth and the test is made
+    w = np.geomspace(1e-3, 1e3, 31)
+    dense = Sweep(omega=w, storage=1e3 * w**2 / (1 + w**2), loss=1e3 * w / (1 + w**2), name="dense")
+    ev = {e.test: e for e in diagnose(dense, intervals=False).evidence}
+    assert ev["noise_level"].passed is True and ev["noise_level"].value < 1e-3
+
+
 @pytest.mark.parametrize("n", [0.2, 0.5, 0.7])
 def test_local_kramers_kronig_form_is_exact_for_a_critical_gel(n):
     # Winter & Chambon 1986: G' = S Γ(1−n) cos(nπ/2) ω^n, G'' = G' tan(nπ/2) at every ω — a power law, for which
