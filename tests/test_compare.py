@@ -20,6 +20,7 @@ from tauspec.analysis.comparison.shape import rouse_ratios
 from tauspec.analysis.comparison.shift import fit_shift
 from tauspec.analysis.diagnosis.diagnose import diagnose
 from tauspec.cli.main import main
+from tauspec.data.sweep import Sweep
 from tauspec.errors import SettingsError, TauspecError
 from tauspec.output.results import spectrum_from_result
 from tauspec.spectrum.invert import invert
@@ -153,6 +154,23 @@ def test_overlay_figure_draws_each_spectrum_in_its_window():
         assert x.min() >= sp.window[0] * (1 - 1e-12) and x.max() <= sp.window[1] * (1 + 1e-12)
     assert len(shifted.get_lines()) == 2
     assert plot_overlay(c, ax=raw) is raw
+
+
+def test_sweeps_of_one_point_per_decade_cannot_be_called_the_same_shape():
+    # One Maxwell mode against two (Ferry 1980, ch. 3), both exact, one point per decade: the moduli's scatter
+    # from their roughness is the curves' own bends (34 % and 46 %), and the moduli test passed them as the same
+    # shape (p = 0.45).  Below 3 points per decade the answer is "cannot tell".
+    w = np.geomspace(1e-3, 1e3, 7)
+    one = Sweep(omega=w, storage=modes_moduli(w, [1e3], [1.0])[0], loss=modes_moduli(w, [1e3], [1.0])[1], name="one")
+    gp, gpp = modes_moduli(w, [1e3, 5e2], [3.0, 0.1])
+    two = Sweep(omega=w, storage=gp, loss=gpp, name="two")
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        pair = compare([one, two], replicates=0).pairs[0]
+    assert pair.same_shape is None
+    assert any(n.startswith("cannot tell: 1 points per decade, fewer than 3") for n in pair.notes), pair.notes
 
 
 def test_errors_are_one_line_settings_errors():

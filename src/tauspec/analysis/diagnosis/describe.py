@@ -27,7 +27,7 @@ import math
 import numpy as np
 
 from ...models.signatures import local_slopes
-from ..uncertainty.noise import NOISE_FLOOR, roughness_noise
+from ..uncertainty.noise import MIN_POINTS_PER_DECADE, NOISE_FLOOR, points_per_decade, roughness_noise
 from .evidence import Evidence
 
 __all__ = ["KKCheck", "kramers_kronig_check", "phase_resolved", "describability_evidence", "NOISE_FLOOR",
@@ -114,20 +114,10 @@ def phase_resolved(storage: np.ndarray, loss: np.ndarray) -> tuple[bool, float]:
 #: Point-to-point scatter (relative, in ln G) above which the moduli carry no shape: over a decade of ~8
 #: points the local level is then known no better than ±10 % (common practice, no single source).
 NOISE_MAX = 0.3
-#: Fewest points per decade (median spacing) at which a curve's roughness measures its scatter.  Our choice,
-#: measured on exact curves (a Maxwell mode, a log-normal spectrum of σ = 0.6, a Rouse chain of N = 30): their
-#: roughness is 2–38 % at 1–2 points per decade, 0.3–0.7 % at 3 and below 0.2 % from 4 on.
-MIN_POINTS_PER_DECADE = 3.0
 #: Largest ratio of the spectrum fit's rms residual to the data's own scatter.  Measured on valid synthetic
 #: sweeps (Rouse, Zimm, BSW, log-normal, gels, Maxwell, LDPE; 0–3 % noise): at most 1.2; random moduli of
 #: narrow spread 2.4.  2 is our choice.
 FIT_RATIO_MAX = 2.0
-
-
-def points_per_decade(omega: np.ndarray) -> float:
-    """Points per decade of frequency at the sweep's median spacing (infinite for fewer than two points)."""
-    steps = np.diff(np.log10(np.asarray(omega, dtype=float)))
-    return 1.0 / float(np.median(steps)) if steps.size and np.median(steps) > 0 else math.inf
 
 
 def describability_evidence(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, fit_rms: float,

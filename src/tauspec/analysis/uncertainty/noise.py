@@ -148,6 +148,18 @@ MAD_SCALE = 1.4826
 MAD_EFFICIENCY = 0.37
 
 
+#: Fewest points per decade (median spacing) at which a curve's roughness measures its scatter.  Our choice,
+#: measured on exact curves (a Maxwell mode, a log-normal spectrum of σ = 0.6, a Rouse chain of N = 30): their
+#: roughness is 2–38 % at 1–2 points per decade, 0.3–0.7 % at 3 and below 0.2 % from 4 on.
+MIN_POINTS_PER_DECADE = 3.0
+
+
+def points_per_decade(omega: np.ndarray) -> float:
+    """Points per decade of frequency at the sweep's median spacing (infinite for fewer than two points)."""
+    steps = np.diff(np.log10(np.asarray(omega, dtype=float)))
+    return 1.0 / float(np.median(steps)) if steps.size and np.median(steps) > 0 else math.inf
+
+
 def roughness_noise(omega: np.ndarray, values: np.ndarray) -> float:
     """Relative noise of one modulus from its point-to-point roughness, without any model.
 
