@@ -38,6 +38,9 @@ READS = [
     ("omega  G'  G''\n1/s  kPa  kPa", body("  "), 1.0, 1e3),
     # ... and a name with a space too: the data rows' width picks the split of both rows
     ("omega  G'  G''  Loss Factor\nrad s⁻¹  kPa  kPa  -", body("  ", extra=("0.8",)), 1.0, 1e3),
+    # a modulus written with its argument, as a function of ω
+    ("omega [rad/s]\tG'(ω) [kPa]\tG''(ω) [kPa]", body("\t"), 1.0, 1e3),
+    ("w [rad/s],G'(w) [Pa],G''(omega) [Pa]", body(), 1.0, 1.0),
 ]
 
 

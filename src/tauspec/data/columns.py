@@ -86,13 +86,20 @@ def split_unit(field: str) -> tuple[str, str | None]:
     return f, None
 
 
+#: The argument a modulus may be written with (``G'(ω)``, ``G''(omega)``): the same column.
+_ARGUMENTS = ("(ω)", "(omega)", "(w)")
+
+
 def normalize_name(name: str) -> str:
-    """Lower case, primes unified (``′ ″ ’ "`` → ``' ''``), single spaces, no trailing colon."""
+    """Lower case, primes unified (``′ ″ ’ "`` → ``' ''``), single spaces, no trailing colon or ``(ω)``."""
     n = name
     for a, b in _PRIMES:
         n = n.replace(a, b)
-    n = " ".join(n.lower().split())
-    return n.rstrip(":").strip()
+    n = " ".join(n.lower().split()).rstrip(":").strip()
+    for arg in _ARGUMENTS:
+        if n.endswith(arg) and len(n) > len(arg):
+            return n[: -len(arg)].strip()
+    return n
 
 
 def role_of(name: str, unit: str | None) -> str | None:
