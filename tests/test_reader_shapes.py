@@ -38,6 +38,10 @@ READS = [
     ("omega  G'  G''\n1/s  kPa  kPa", body("  "), 1.0, 1e3),
     # ... and a name with a space too: the data rows' width picks the split of both rows
     ("omega  G'  G''  Loss Factor\nrad s⁻¹  kPa  kPa  -", body("  ", extra=("0.8",)), 1.0, 1e3),
+    # engineering units: 1 N/mm² = 1 MPa; 1 psi = 0.45359237 kg × 9.80665 m/s² / (0.0254 m)² = 6.894 757 kPa
+    # (NIST SP 811, from memory; docs/references.md)
+    ("omega [rad/s],G' [N/mm²],G'' [N/mm^2]", body(), 1.0, 1e6),
+    ("omega [rad/s],G' [psi],G'' [lbf/in²]", body(), 1.0, 6894.757293168361),
     # a modulus written with its argument, as a function of ω
     ("omega [rad/s]\tG'(ω) [kPa]\tG''(ω) [kPa]", body("\t"), 1.0, 1e3),
     ("w [rad/s],G'(w) [Pa],G''(omega) [Pa]", body(), 1.0, 1.0),
