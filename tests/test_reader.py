@@ -117,7 +117,7 @@ BAD = [
     ("omega,G'\n1,2\n", "no G'' column"),
     ("frequency,G',G''\n" + "\n".join("1,2,3" for _ in range(7)), "has no unit"),
     ("omega [furlong],G',G''\n1,2,3\n", "not a frequency unit"),
-    ("omega,G' [psi],G''\n1,2,3\n", "not a modulus unit"),
+    ("omega,G' [stone],G''\n1,2,3\n", "not a modulus unit"),
     (table("omega,G',G''") + "5,6\n", "row has 2 values"),
     (table("omega,G',G''") + "500,abc,3\n", "column G': value 'abc' is not a number"),
     (table("omega,G',G''") + "500,inf,3\n", "is not finite"),
