@@ -139,19 +139,20 @@ def test_an_amplitude_sweep_block_is_left_out_with_its_reason(tmp_path):
     # before: "duplicate frequency 10 rad/s (lines 5 and 6)", and the frequency sweep beside it was not read
     both = _amplitude_then_frequency(tmp_path / "program.txt")
     with pytest.warns(TauspecWarning, match=r"left out block 1 \(lines 3-16\): the frequency is 10 rad/s at every "
-                                            r"point: an amplitude or time sweep, not a frequency sweep"):
+                                            r"point: an amplitude, time or temperature sweep, not a frequency sweep"):
         (sw,) = read_sweeps(both)
     assert sw.name == "program#2" and len(sw.omega) == 16
     np.testing.assert_allclose(sw.storage[sw.omega == 1.0], 5000.0, rtol=1e-7)  # G' = g/2 at ωτ = 1
     with pytest.raises(SweepError, match=r"program.txt:5: block 1 \(lines 3-16\): the frequency is 10 rad/s"):
         parse_sweeps_text(both.read_text(), source="program.txt", block=1)
     only = _amplitude_then_frequency(tmp_path / "amplitude.txt", with_frequency_sweep=False)
-    with pytest.raises(SweepError, match=r"amplitude.txt:5: the frequency is 10 rad/s at every point: an amplitude "
-                                         r"or time sweep, not a frequency sweep"):
+    with pytest.raises(SweepError, match=r"amplitude.txt:5: the frequency is 10 rad/s at every point: an amplitude, "
+                                         r"time or temperature sweep, not a frequency sweep"):
         read_sweeps(only)
     # the batch: the amplitude block is its own error row with the reason, the frequency sweep a result
     out = tmp_path / "out"
     run_batch([both], out, settings=SMALL, jobs=1)
     rows = {r["file"]: r for r in read_summary(out)}
     assert rows["program.txt#2"]["status"] == "ok"
-    assert rows["program.txt#1"]["status"] == "error" and "an amplitude or time sweep" in rows["program.txt#1"]["error"]
+    assert rows["program.txt#1"]["status"] == "error"
+    assert "an amplitude, time or temperature sweep" in rows["program.txt#1"]["error"]

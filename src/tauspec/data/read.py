@@ -122,7 +122,7 @@ def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "
 
 
 class _NotAFrequencySweep(SweepError):
-    """A block whose frequency is the same at every point: an amplitude or time sweep, not a frequency sweep."""
+    """A block whose frequency is the same at every point: an amplitude, time or temperature sweep."""
 
 
 def _one(sweeps: list[Sweep], source: str) -> Sweep:
@@ -201,7 +201,7 @@ def parse_sweeps_text(text: str, *, source: str = "<text>", default_name: str = 
                 skipped.append(exc)
     if skipped and not out:
         raise skipped[0]
-    for exc in skipped:  # the frequency sweeps of an export that also holds an amplitude or time sweep
+    for exc in skipped:  # the frequency sweeps of an export that also holds, e.g., an amplitude sweep
         warnings.warn(f"{source}: left out {exc.reason}", DroppedPointsWarning, stacklevel=3)
     return out
 
@@ -285,8 +285,8 @@ def _block_sweeps(block: Block, plan: Plan, delimiter: str, meta: dict[str, str]
     table = read_table(block, plan, delimiter=delimiter, source=source)
     if table.omega.size > 1 and np.all(table.omega == table.omega[0]):
         where = f"block {meta['block']} (lines {block.header_line}-{int(table.lines[-1])}): " if "block" in meta else ""
-        raise _NotAFrequencySweep(f"{where}the frequency is {table.omega[0]:.6g} rad/s at every point: an amplitude "
-                                  "or time sweep, not a frequency sweep", source, int(table.lines[0]))
+        raise _NotAFrequencySweep(f"{where}the frequency is {table.omega[0]:.6g} rad/s at every point: an amplitude, "
+                                  "time or temperature sweep, not a frequency sweep", source, int(table.lines[0]))
     meta = {**meta, **table.notes}
     if table.temperature is None:
         return [build_sweep(table.omega, table.storage, table.loss, table.lines, missing_lines=table.missing_lines,
