@@ -84,6 +84,9 @@ REFUSED = [
      r"x.csv:10: block 2 names G' without a unit where block 1 gives kPa"),
     ("omega [rad/s],G' [Pa],G'' [Pa]\n" + body().replace("900,", "inf,"), r"x.csv:6: column G' \[Pa\]: value 'inf' "
                                                                             r"is not finite"),
+    # digit grouping, as a spreadsheet writes 2058.87 where the decimal mark is a comma
+    ("omega [rad/s];G' [Pa];G'' [Pa]\n" + body(";", ",").replace("1800", "1.800,0"),
+     r"x.csv:7: column G' \[Pa\]: value '1.800,0' holds both '.' and ',' \(a thousands separator\?\)"),
 ]
 
 

@@ -40,6 +40,10 @@ class Table:
     notes: dict[str, str]
 
 
+#: The characters of a number written with digit grouping (``2.058,870``, ``1,234.5``).
+_NUMBER_MARKS = frozenset("0123456789+-.,eE")
+
+
 def _cell(col: Column, text: str, decimal_comma: bool, source: str, number: int) -> float | None:
     """The cell's number; ``None`` when missing; refuses text and infinities."""
     value = parse_cell(text, decimal_comma=decimal_comma)
@@ -50,6 +54,9 @@ def _cell(col: Column, text: str, decimal_comma: bool, source: str, number: int)
             raise SweepError(f"column {col.label}: value {text[:40]!r} holds a comma in a comma-separated file "
                              "(decimal comma or thousands separator?); separate the columns with ';' or tabs",
                              source, number)
+        if "," in text and "." in text and _NUMBER_MARKS.issuperset(text.strip()):
+            raise SweepError(f"column {col.label}: value {text[:40]!r} holds both '.' and ',' (a thousands "
+                             "separator?); write the numbers without digit grouping", source, number)
         raise SweepError(f"column {col.label}: value {text[:40]!r} is not a number", source, number)
     if not math.isfinite(value):
         raise SweepError(f"column {col.label}: value {text[:40]!r} is not finite", source, number)
