@@ -64,8 +64,8 @@ _DEVICE = re.compile(r"(con|prn|aux|nul|com[0-9¹²³]|lpt[0-9¹²³])(\..*)?", 
 
 
 def _component(name: str) -> str:
-    base = name.lstrip("_").rstrip(" .")  # as Windows names it (_windows_form)
-    reserved = _fold(base) in RESERVED or _BLOCK.fullmatch(base) or _DEVICE.fullmatch(base)
+    base = _windows_form(name.lstrip("_"))  # the name as Windows reads it
+    reserved = base in RESERVED or _BLOCK.fullmatch(base) or _DEVICE.fullmatch(base)
     return "_" + name if reserved else name
 
 

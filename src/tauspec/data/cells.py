@@ -8,7 +8,7 @@ cell's length; no regular expression runs over a cell.  ``float`` alone would al
 
 from __future__ import annotations
 
-__all__ = ["MISSING", "Missing", "parse_cell", "decimal_mark"]
+__all__ = ["MISSING", "Missing", "parse_cell", "decimal_mark", "digit_grouped", "with_decimal_point"]
 
 
 class Missing:
@@ -38,6 +38,20 @@ def decimal_mark(text: str) -> str | None:
     return None
 
 
+def with_decimal_point(text: str, decimal_comma: bool) -> str:
+    """``text`` with its decimal comma written as a point when a comma is a decimal mark (``0,5`` → ``0.5``).
+
+    Only a single comma with no point is a decimal comma; any other text is returned as it is.
+    """
+    return text.replace(",", ".") if decimal_comma and text.count(",") == 1 and "." not in text else text
+
+
+def digit_grouped(text: str) -> bool:
+    """Whether a number's text holds both ``.`` and ``,`` (digit grouping: ``2.058,870``, ``1,234.5``)."""
+    t = text.strip()
+    return "," in t and "." in t and _NUMBER_CHARS.issuperset(t.replace(",", ""))
+
+
 def parse_cell(text: str, *, decimal_comma: bool) -> float | Missing | None:
     """Return the cell's number, :data:`MISSING`, or ``None`` when it is text.
 
@@ -58,9 +72,9 @@ def parse_cell(text: str, *, decimal_comma: bool) -> float | Missing | None:
     if low in _INFINITE:
         return _INFINITE[low]
     if "," in t:
-        if not decimal_comma or "." in t or t.count(",") > 1:
+        t = with_decimal_point(t, decimal_comma)
+        if "," in t:
             return None
-        t = t.replace(",", ".")
     if not _NUMBER_CHARS.issuperset(t):
         return None
     try:

@@ -20,6 +20,7 @@ from collections.abc import Mapping
 from pathlib import Path
 
 from ..errors import SettingsError
+from .cells import with_decimal_point
 from .record import field, record
 from .units import temperature_kelvin
 
@@ -47,13 +48,8 @@ class ManifestEntry:
 SEPARATORS = (",", ";", "\t")
 
 
-def _decimal_point(text: str, decimal_comma: bool) -> str:
-    """``text`` with a decimal comma written as a point, when the separator is not a comma (``0,5`` → ``0.5``)."""
-    return text.replace(",", ".") if decimal_comma and text.count(",") == 1 and "." not in text else text
-
-
 def _number(text: str, what: str, source: str, line: int, decimal_comma: bool = False) -> float | None:
-    text = _decimal_point((text or "").strip(), decimal_comma)
+    text = with_decimal_point((text or "").strip(), decimal_comma)
     if not text:
         return None
     try:
@@ -94,7 +90,7 @@ def read_manifest(path: str | os.PathLike[str]) -> list[ManifestEntry]:
         T = None
         if cells.get("T"):
             try:
-                T = temperature_kelvin(_decimal_point(cells["T"], comma))
+                T = temperature_kelvin(with_decimal_point(cells["T"], comma))
             except ValueError as exc:
                 raise SettingsError(f"T {cells['T']!r}: {exc}", source, line) from None
         f = Path(name)

@@ -16,7 +16,7 @@ import numpy as np
 
 from ..errors import SweepError
 from .blocks import Block
-from .cells import MISSING, decimal_mark, parse_cell
+from .cells import MISSING, decimal_mark, digit_grouped, parse_cell
 from .columns import Column
 from .plan import Plan
 
@@ -40,10 +40,6 @@ class Table:
     notes: dict[str, str]
 
 
-#: The characters of a number written with digit grouping (``2.058,870``, ``1,234.5``).
-_NUMBER_MARKS = frozenset("0123456789+-.,eE")
-
-
 def _cell(col: Column, text: str, decimal_comma: bool, source: str, number: int) -> float | None:
     """The cell's number; ``None`` when missing; refuses text and infinities."""
     value = parse_cell(text, decimal_comma=decimal_comma)
@@ -54,7 +50,7 @@ def _cell(col: Column, text: str, decimal_comma: bool, source: str, number: int)
             raise SweepError(f"column {col.label}: value {text[:40]!r} holds a comma in a comma-separated file "
                              "(decimal comma or thousands separator?); separate the columns with ';' or tabs",
                              source, number)
-        if "," in text and "." in text and _NUMBER_MARKS.issuperset(text.strip()):
+        if digit_grouped(text):
             raise SweepError(f"column {col.label}: value {text[:40]!r} holds both '.' and ',' (a thousands "
                              "separator?); write the numbers without digit grouping", source, number)
         raise SweepError(f"column {col.label}: value {text[:40]!r} is not a number", source, number)

@@ -128,24 +128,23 @@ def describability_evidence(omega: np.ndarray, storage: np.ndarray, loss: np.nda
     ``free_rms`` that of the unregularized nonnegative spectrum (Jakeš 1995), used when the smooth one fails
     (then the strength choice, not the data, was at fault, and a note says so).
     """
-    s1, s2 = roughness_noise(omega, storage), roughness_noise(omega, loss)
-    noise = math.sqrt(0.5 * (s1 * s1 + s2 * s2)) if math.isfinite(s1) and math.isfinite(s2) else math.nan
     density = points_per_decade(omega)
-    sparse = density < MIN_POINTS_PER_DECADE  # the curve's own bends would be taken for scatter
-    if sparse:
+    if density < MIN_POINTS_PER_DECADE:  # the curve's own bends would be taken for scatter: not measured
         noise = math.nan
+        scatter_note = (f"not made: {density:.2g} points per decade, fewer than {MIN_POINTS_PER_DECADE:g}, so the "
+                        "curve's own bends would be taken for scatter; the scatter is taken as the floor "
+                        f"{NOISE_FLOOR:g}")
+    else:
+        s1, s2 = roughness_noise(omega, storage), roughness_noise(omega, loss)
+        noise = math.sqrt(0.5 * (s1 * s1 + s2 * s2)) if math.isfinite(s1) and math.isfinite(s2) else math.nan
+        scatter_note = (f"G' {s1:.3g}, G'' {s2:.3g}: pseudo-residuals of a local quadratic through the four "
+                        "neighbours (Gasser, Sroka & Jennen-Steinmetz 1986), 1.4826 x median (Hampel 1974)")
     eff = max(noise, NOISE_FLOOR) if math.isfinite(noise) else NOISE_FLOOR
     ok_phase, tan_med = phase_resolved(storage, loss)
     ev = [Evidence(test="phase_resolved", value=tan_med,
                    expected=f"tan delta inside [{PHASE_LIMIT:g}, {1 / PHASE_LIMIT:g}] somewhere in the window",
                    passed=ok_phase, note="median tan delta; a phase angle within 0.1 mrad of 0 or pi/2 at every "
                                          "frequency is below what oscillatory rheometers resolve")]
-    scatter_note = (f"G' {s1:.3g}, G'' {s2:.3g}: pseudo-residuals of a local quadratic through the four "
-                    "neighbours (Gasser, Sroka & Jennen-Steinmetz 1986), 1.4826 x median (Hampel 1974)")
-    if sparse:
-        scatter_note = (f"not made: {density:.2g} points per decade, fewer than {MIN_POINTS_PER_DECADE:g}, so the "
-                        "curve's own bends would be taken for scatter; the scatter is taken as the floor "
-                        f"{NOISE_FLOOR:g}")
     ev.append(Evidence(test="noise_level", value=noise, expected=f"<= {NOISE_MAX:g} (relative point-to-point scatter)",
                        passed=(noise <= NOISE_MAX) if math.isfinite(noise) else None, note=scatter_note))
     ratio = fit_rms / eff if math.isfinite(fit_rms) else math.nan
