@@ -51,6 +51,25 @@ def test_every_command_takes_the_common_flags(command, capsys):
     assert "--plots" not in text  # batch's old spelling is still read, but offered nowhere
 
 
+def test_every_off_switch_says_what_turning_it_off_does():
+    """A switch that is on by default is offered as its off flag (--no-solvent); its help must describe that
+    flag, not the switch turned on (which read as "--no-solvent: fit η_s")."""
+    import argparse
+
+    from tauspec.cli.main import build_parser
+
+    sub = next(a for a in build_parser()._actions if isinstance(a, argparse._SubParsersAction))
+    seen = 0
+    for name, parser in sub.choices.items():
+        for action in parser._actions:
+            if isinstance(action, argparse._StoreFalseAction):
+                seen += 1
+                flag = action.option_strings[0]
+                assert flag not in action.help, (name, flag, action.help)
+                assert not action.help.startswith(("fit ", "make ", "re-choose", "profile-likelihood")), (name, flag)
+    assert seen >= 5  # --no-solvent (invert, diagnose, compare, predict), --no-spectrum, --no-intervals, ...
+
+
 @pytest.mark.parametrize("command", ["invert", "diagnose", "predict", "master", "compare"])
 def test_nothing_is_written_without_out(command, sweep_file, tmp_path, monkeypatch, capsys):
     monkeypatch.chdir(tmp_path)

@@ -75,7 +75,8 @@ def add_options(parser: Any, cls: type, *, only: Iterable[str] | None = None, ex
         if hint is bool:
             if f.default is True:
                 parser.add_argument(spec.get("negate") or "--no-" + f.name.replace("_", "-"), dest=f.name,
-                                    action="store_false", default=argparse.SUPPRESS, help=spec["help"])
+                                    action="store_false", default=argparse.SUPPRESS,
+                                    help=spec.get("negate_help") or spec["help"])
             else:
                 parser.add_argument(_flag(f, spec), dest=f.name, action="store_true", default=argparse.SUPPRESS,
                                     help=spec["help"])

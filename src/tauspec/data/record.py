@@ -58,7 +58,7 @@ def field(*, key: str | None = None, transient: bool = False, **kwargs: Any) -> 
 
 def option(default: Any = dataclasses.MISSING, *, help: str, flag: str | None = None, metavar: str | None = None,
            choices: Sequence[Any] | Callable[[], Sequence[Any]] | None = None, negate: str | None = None,
-           cli: bool = True, key: str | None = None, **kwargs: Any) -> Any:
+           negate_help: str | None = None, cli: bool = True, key: str | None = None, **kwargs: Any) -> Any:
     """A field of an options record, with what the command line needs to offer it.
 
     Parameters
@@ -75,11 +75,14 @@ def option(default: Any = dataclasses.MISSING, *, help: str, flag: str | None = 
         The allowed values (a callable is asked when the parser is built: a registry of rules).
     negate : str, optional
         For a switch that is on by default: the flag that turns it off (``--no-solvent``).
+    negate_help : str, optional
+        One line for ``--help`` on the ``negate`` flag: what turning the switch off does (``help`` describes the
+        switch itself, on).
     cli : bool
         False for options the command line does not offer.
     """
     meta = {_OPTION: {"help": help, "flag": flag, "metavar": metavar, "choices": choices, "negate": negate,
-                      "cli": cli}}
+                      "negate_help": negate_help, "cli": cli}}
     if default is not dataclasses.MISSING:
         kwargs["default"] = default
     return field(key=key, metadata=meta, **kwargs)

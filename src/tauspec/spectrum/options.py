@@ -58,7 +58,9 @@ class InvertOptions:
     grid: int | np.ndarray | None = option(None, metavar="N", help="number of τ grid points (default 12 per decade)")
     solvent: bool = option(True, negate="--no-solvent",
                            help="fit η_s, the Newtonian high-frequency contribution: solvent + modes faster "
-                                "than the window (--no-solvent: none)")
+                                "than the window (--no-solvent: none)",
+                           negate_help="no Newtonian high-frequency term η_s ω in G'' (default: η_s fitted, for "
+                                       "the solvent and the modes faster than the window)")
     equilibrium_modulus: bool = option(False, help="fit an equilibrium modulus G_e (gels, solids)")
     eta_s: float | None = option(None, metavar="PA_S",
                                  help="known solvent viscosity in Pa·s (subtracted instead of fitted)")

@@ -41,7 +41,9 @@ class CompareOptions:
     min_weight: float = option(0.5, cli=False,
                                help="smallest share of each spectrum's weight inside that overlap (our choice)")
     reselect: bool = option(True, negate="--fixed-strength",
-                            help="re-choose λ on every replicate (--fixed-strength: keep each sample's own; faster)")
+                            help="re-choose λ on every replicate (--fixed-strength: keep each sample's own; faster)",
+                            negate_help="keep each sample's own λ on its replicates (faster; default: λ re-chosen "
+                                        "on every replicate)")
 
     def __post_init__(self) -> None:
         check_number("replicates", self.replicates, lo=0, integer=True, what="a whole number")

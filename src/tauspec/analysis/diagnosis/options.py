@@ -25,11 +25,15 @@ class DiagnoseOptions:
     """
 
     use_spectrum: bool = option(True, negate="--no-spectrum",
-                                help="make the continuous-spectrum tests (--no-spectrum: faster; listed as not made)")
+                                help="make the continuous-spectrum tests (--no-spectrum: faster; listed as not made)",
+                                negate_help="skip the continuous-spectrum tests (faster; they are listed as not "
+                                            "made)")
     solvent: bool = option(True, negate="--no-solvent",
-                           help="fit a Newtonian contribution η_s ω to G'' (--no-solvent: none)")
+                           help="fit a Newtonian contribution η_s ω to G'' (--no-solvent: none)",
+                           negate_help="no Newtonian contribution η_s ω in G'' (default: fitted)")
     intervals: bool = option(True, negate="--no-intervals",
-                             help="profile-likelihood intervals (--no-intervals: Jacobian intervals, faster)")
+                             help="profile-likelihood intervals (--no-intervals: Jacobian intervals, faster)",
+                             negate_help="Jacobian (Wald) intervals instead of profile-likelihood ones (faster)")
 
     omega_min: float | None = frequency_range_option("min")
     omega_max: float | None = frequency_range_option("max")
