@@ -82,6 +82,25 @@ def test_kramers_kronig_pair_of_the_log_normal_spectrum_passes():
     assert kk.n_points >= 8 and kk.misfit < 0.1 and kk.passed is True
 
 
+def test_an_equilibrium_modulus_is_not_a_kramers_kronig_violation():
+    # A power-law solid, G* = G_e + S Γ(1−n) (iω)^n: the power law is an exact Kramers–Kronig pair (Winter &
+    # Chambon 1986) and the relations fix G' only up to the constant G_e (Ferry 1980, ch. 4).  With n = 0.1 and
+    # G_e = 10⁴ Pa, G' is level far above the 6.3 G'' that G'' alone implies; before the check left out the
+    # points where G' is level, this elastic solid was "inconclusive: violates the Kramers-Kronig relations".
+    n, G_e, S = 0.1, 1e4, 50.0
+    w = np.geomspace(1e-2, 1e2, 41)
+    part = S * gamma(1 - n) * w**n
+    gp, gpp = G_e + part * math.cos(n * math.pi / 2), part * math.sin(n * math.pi / 2)
+    assert kramers_kronig_check(w, gp, gpp, 0.0).passed in (True, None)
+    rng = np.random.default_rng(4)
+    noisy = Sweep(omega=w, storage=gp * (1 + 0.01 * rng.standard_normal(w.size)),
+                  loss=gpp * (1 + 0.01 * rng.standard_normal(w.size)), name="power-law solid")
+    d = diagnose(noisy, intervals=False)
+    assert d.verdict == "gel" and "equilibrium modulus" in d.reason, d.reason
+    # the same G'' with a G' that is not level and three times too small is still refused
+    assert kramers_kronig_check(w, part * math.cos(n * math.pi / 2) / 3.0, gpp, 0.0).passed is False
+
+
 def test_phase_resolution():
     assert phase_resolved(np.full(5, 1e19), np.full(5, 1e-19))[0] is False
     assert phase_resolved(np.full(5, 1e5), np.full(5, 1e2))[0] is True

@@ -74,15 +74,20 @@ def kramers_kronig_check(omega: np.ndarray, storage: np.ndarray, loss: np.ndarra
         G''(ω) ≈ G'(ω) tan((π/2) d ln G'/d ln ω),        G'(ω) ≈ G''(ω) tan((π/2)(1 − d ln G''/d ln ω)),
 
     the local approximations of Booij & Thoone (1982) (forms from memory; exact for power laws, checked
-    numerically in the tests).  Each is used where its slope lies in [0.05, 0.95] (outside, e.g. in the
-    terminal zone where G' ∝ ω², the form does not hold).  Slopes are straight-line fits over ±``half_width``
-    decades.  ``allowed`` = :data:`KK_APPROXIMATION` + 3 × the noise of one ratio (two moduli and a slope).
+    numerically in the tests).  Each is used where its slope lies in [0.05, 0.95] and stays steady across a
+    decade (outside, e.g. in the terminal zone where G' ∝ ω², the form does not hold).  The second is also
+    left out where G' itself is level (slope below 0.05): the relations fix G' only up to an additive constant,
+    G' − G_e (Ferry 1980, ch. 4), and a level G' above what G'' implies is such a constant (an equilibrium
+    modulus, or a plateau of relaxations slower than the window), not a violation.  Slopes are straight-line
+    fits over ±``half_width`` decades.  ``allowed`` = :data:`KK_APPROXIMATION` + 3 × the noise of one ratio
+    (two moduli and a slope).
     """
     w = np.asarray(omega, dtype=float)
     gp = np.asarray(storage, dtype=float)
     gpp = np.asarray(loss, dtype=float)
     lw = np.log10(w)
     r = []
+    level = local_slopes(w, gp, half_width) < 0.05
     for y, other, flip in ((gp, gpp, False), (gpp, gp, True)):
         n = local_slopes(w, y, half_width)
         # the slope half a decade either side: the form is a local power law, so it is used only where the
@@ -90,6 +95,8 @@ def kramers_kronig_check(omega: np.ndarray, storage: np.ndarray, loss: np.ndarra
         n_lo = np.interp(lw - 2 * half_width, lw, n, left=np.nan)
         n_hi = np.interp(lw + 2 * half_width, lw, n, right=np.nan)
         ok = (n >= 0.05) & (n <= 0.95) & (np.abs(n_hi - n_lo) <= SLOPE_DRIFT)
+        if flip:
+            ok &= ~level
         ratio = np.tan(0.5 * math.pi * ((1.0 - n[ok]) if flip else n[ok]))
         r.extend(np.log(other[ok] / (y[ok] * ratio)))
     misfit = float(np.median(np.abs(r))) if r else math.nan
@@ -163,5 +170,5 @@ def describability_evidence(omega: np.ndarray, storage: np.ndarray, loss: np.nda
                        note=f"median |ln(measured/predicted)| of each modulus from the other's local slope at "
                             f"{kk.n_points} points (Booij & Thoone 1982)" if kk.n_points >= KK_MIN_POINTS else
                        f"the local power-law form applies at {kk.n_points} points, fewer than {KK_MIN_POINTS} "
-                       "(slopes outside 0.05-0.95 or drifting)"))
+                       "(slopes outside 0.05-0.95 or drifting, or G' level)"))
     return ev, eff
