@@ -496,7 +496,7 @@ def test_terminal_lines_show_control_characters(tmp_path, capsys):
     arch = tmp_path / "arch"
     (arch / "bad\x1b[2Jname.csv").parent.mkdir(parents=True)
     (arch / "bad\x1b[2Jname.csv").write_text("not\na sweep\n")
-    (arch / "new\nline.csv").write_text("x\n")
+    (arch / "new\nline.csv").write_text("x,y\n1,2\n")
     assert main(["batch", str(arch), "--out", str(tmp_path / "out"), "--settings", str(settings_file(tmp_path))]) == 1
     printed = capsys.readouterr().out
     assert "\x1b" not in printed and "bad\\x1b[2Jname.csv" in printed

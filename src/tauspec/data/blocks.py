@@ -113,6 +113,13 @@ def _is_numeric(fields: list[str]) -> bool:
     return found
 
 
+def _holds_numbers(line: str, delimiter: str) -> bool:
+    """At least two cells of the line, and half of them, are numbers (a row of a table, as opposed to prose)."""
+    cells = split_fields(line, delimiter, strict=False)
+    numbers = sum(isinstance(parse_cell(c, decimal_comma=True), float) for c in cells)
+    return numbers >= 2 and 2 * numbers >= len(cells)
+
+
 #: Units of columns tauspec does not read (strain, torque) that may be the only units of a units row.
 _OTHER_UNITS = frozenset({"%", "N·m", "mN·m", "µN·m", "μN·m", "N m", "mN m", "µN m", "μN m", "Nm", "mNm", "µNm",
                          "μNm"})
@@ -279,8 +286,10 @@ def scan(text: str, delimiter: str, *, source: str, max_rows: int, max_line_char
     if not blocks:
         if not any(not text.startswith("#") for _, text in scanner.pending):
             raise SweepError("no data: the file is empty or holds only comments", source)
-        first = next(item for item in scanner.pending if not item[1].startswith("#"))
-        raise _diagnose(first, delimiter, source)
+        texts = [item for item in scanner.pending if not item[1].startswith("#")]
+        if not any(_holds_numbers(line, delimiter) for _, line in texts):  # prose: notes, a log, a README
+            raise SweepError("holds no table of numbers (no line is a row of numbers): not a sweep export", source)
+        raise _diagnose(texts[0], delimiter, source)
     for block in blocks:
         if not block.rows:
             raise SweepError("header but no data rows", source, block.header_line if len(blocks) > 1 else None)
