@@ -229,9 +229,35 @@ def test_curve_flags_and_output():
     assert c.flags[-1] and not c.flags[0]
     assert "extrapolation" in c.report()
     lines = curve_csv_text(c).splitlines()
-    assert lines[0] == "t [s],G(t) [Pa],outside share,outside window"
+    assert lines[0] == "t [s],G(t) [Pa],outside share,beyond measured,extrapolation"
     assert len(lines) == 21 and lines[-1].endswith(",yes")
     assert float(lines[1].split(",")[1]) == pytest.approx(c.y[0], rel=1e-15)
+
+
+def test_points_beyond_the_measured_range_are_extrapolations():
+    # One Maxwell mode, G(t) = g e^(−t/τ) (Ferry 1980, ch. 3), measured from 0.01 to 100 rad/s: the mode lies
+    # inside the supported window, so the out-of-window share is 0 everywhere, yet G at t = 10⁴ s or 10⁻⁵ s, or
+    # η at a shear rate of 10⁶ 1/s, says nothing the data support (a slower or faster mode the sweep cannot see
+    # would change it).  Before, those points were printed unflagged.
+    from types import SimpleNamespace
+
+    from tauspec.modes.curves import Curve
+
+    m = SimpleNamespace(g=np.array([2.5e3]), tau=np.array([0.7]), omega=np.geomspace(1e-2, 1e2, 21))
+    t = np.array([1e-5, 0.01, 1.0, 100.0, 1e4])
+    c = relaxation_modulus(m, t)
+    np.testing.assert_allclose(c.y, 2.5e3 * np.exp(-t / 0.7), rtol=1e-13)
+    assert c.measured == pytest.approx((0.01, 100.0), rel=1e-12)
+    assert c.outside_share.tolist() == [0.0] * 5
+    assert c.beyond.tolist() == [True, False, False, False, True] and c.flags.tolist() == c.beyond.tolist()
+    (line,) = c.caveats()
+    assert line.startswith("2 of 5 points (t 1e-05–1e+04 s) lie beyond the measured range 0.01–100 s")
+    lines = curve_csv_text(c).splitlines()
+    assert lines[1].endswith(",yes,yes") and lines[3].endswith(",no,no")
+    again = Curve.from_dict(json.loads(dumps_json(c.to_dict())))
+    assert again == c and again.beyond.tolist() == c.beyond.tolist()
+    v = shear_viscosity(m, [1e-3, 1.0, 1e6])
+    assert v.measured == pytest.approx((0.01, 100.0), rel=1e-12) and v.flags.tolist() == [True, False, True]
 
 
 def test_to_dict_is_json_ready():

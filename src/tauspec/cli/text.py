@@ -102,20 +102,16 @@ def curve_text(curve: Any, *, table: bool) -> tuple[str, list[str]]:
     xw, yw = CURVE_WORDS.get(curve.quantity, (f"{curve.x_name} [{curve.x_unit}]", f"{curve.y_name} [{curve.y_unit}]"))
     lines = [f"  {yw.split(' [')[0]} from the {curve.basis}: {curve.x.size} points, {xw.split(' [')[0]} "
              f"{number(curve.x.min())}–{number(curve.x.max())} {curve.x_unit}"]
-    caveats = []
+    caveats = curve.caveats(number)
     n = int(curve.flags.sum())
-    if n:
-        xs = curve.x[curve.flags]
-        caveats.append(f"{n} of {curve.x.size} points ({number(xs.min())}–{number(xs.max())} {curve.x_unit}) take "
-                       "more than 5 % of their value from relaxation times outside the supported window: there the "
-                       "curve is an extrapolation")
     if table:
         lines.append(f"    {xw:>24}  {yw:>36}")
         for x, y, f in zip(curve.x, curve.y, curve.flags):
             y_text = number(y, 4) if math.isfinite(float(y)) else "–"
             lines.append(f"    {number(x, 4):>24}  {y_text:>36}" + ("  *" if f else ""))
         if n:
-            lines.append("    * over 5 % from outside the supported window")
+            lines.append("    * an extrapolation: beyond the measured range, or over 5 % from outside the supported "
+                         "window")
     return "\n".join(lines), caveats
 
 

@@ -7,6 +7,7 @@ times; the derived numbers and curves take either, with the part inside the supp
 from __future__ import annotations
 
 import dataclasses
+import math
 from typing import Any
 
 import numpy as np
@@ -36,6 +37,8 @@ class _Set:
     G_e: float
     window: tuple[float, float] | None
     kind: str
+    #: (ω_min, ω_max) of the sweep, or None when not known
+    measured: tuple[float, float] | None = None
 
     @property
     def outside(self) -> np.ndarray:
@@ -82,12 +85,19 @@ def _as_set(obj: Any) -> _Set:
         raise SettingsError(f"{kind}: strengths, eta_s and G_e must be nonnegative")
     keep = g > 0
     window = getattr(obj, "window", None)
-    if window is None and getattr(obj, "omega", None) is not None:
-        window = supported_window(np.asarray(obj.omega, dtype=float))
+    omega = getattr(obj, "omega", None)
+    measured = None
+    if omega is not None and np.size(omega):
+        w = np.asarray(omega, dtype=float)
+        measured = (float(w.min()), float(w.max()))
+        if window is None:
+            window = supported_window(w)
     if window is not None:
         window = (float(window[0]), float(window[1]))
+        if measured is None:  # the window is [e^(π/2)/ω_max, e^(−π/2)/ω_min] (supported_window)
+            measured = (math.exp(-math.pi / 2) / window[1], math.exp(math.pi / 2) / window[0])
     order = np.argsort(tau[keep])
-    return _Set(g[keep][order], tau[keep][order], eta_s, G_e, window, kind)
+    return _Set(g[keep][order], tau[keep][order], eta_s, G_e, window, kind, measured)
 
 
 def _share(full: Any, inside: Any) -> Any:

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
@@ -20,7 +22,12 @@ __all__ = ["Curve", "relaxation_modulus", "creep_compliance", "complex_viscosity
 
 @record
 class Curve:
-    """A predicted material function on a set of abscissae, with per-point out-of-window shares."""
+    """A predicted material function on a set of abscissae, with per-point out-of-window shares.
+
+    ``measured`` is the range of the abscissa the sweep covers (ω_min to ω_max for a frequency or shear rate,
+    1/ω_max to 1/ω_min for a time); a point beyond it is an extrapolation whatever the modes, since the data
+    say nothing about relaxation much slower (or faster) than they reach.
+    """
 
     quantity: str
     x_name: str
@@ -33,6 +40,7 @@ class Curve:
     basis: str
     method: str
     window: tuple[float, float] | None
+    measured: tuple[float, float] | None = None
 
     def __post_init__(self) -> None:
         for name in ("x", "y", "outside_share"):
@@ -41,30 +49,58 @@ class Curve:
             object.__setattr__(self, name, arr)
 
     @property
+    def beyond(self) -> np.ndarray:
+        """True where the abscissa lies beyond the range the sweep covers (``measured``), by more than 1e-9."""
+        if self.measured is None:
+            return np.zeros(self.x.shape, dtype=bool)
+        lo, hi = self.measured
+        return (self.x < lo * (1 - 1e-9)) | (self.x > hi * (1 + 1e-9))
+
+    @property
     def flags(self) -> np.ndarray:
-        """True where more than 5 % of the value comes from outside the supported window."""
-        return self.outside_share > FLAG_SHARE
+        """True where the curve is an extrapolation (beyond the measured range, or over 5 % from outside the window).
+
+        More than 5 % of the value comes from outside the supported window, or the point lies beyond ``measured``.
+        """
+        return (self.outside_share > FLAG_SHARE) | self.beyond
 
     def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
-        return insert_after(d, "outside_share", "flags", self.flags.tolist())
+        d = insert_after(d, "outside_share", "beyond_measured", self.beyond.tolist())
+        return insert_after(d, "beyond_measured", "flags", self.flags.tolist())
 
     @classmethod
     def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
         d.pop("flags", None)
+        d.pop("beyond_measured", None)
         return d
 
+    def caveats(self, number: Callable[[float], str] = "{:.4g}".format) -> list[str]:
+        """The points where the curve is an extrapolation, in words (empty when there are none).
+
+        ``number`` formats the values.
+        """
+        out = []
+        far = self.beyond
+        if far.any():
+            xs = self.x[far]
+            lo, hi = self.measured or (math.nan, math.nan)
+            out.append(f"{far.sum()} of {self.x.size} points ({self.x_name} {number(xs.min())}–{number(xs.max())} "
+                       f"{self.x_unit}) lie beyond the measured range {number(lo)}–{number(hi)} {self.x_unit}: "
+                       "there the curve is an extrapolation")
+        leaning = (self.outside_share > FLAG_SHARE) & ~far
+        if leaning.any():
+            xs = self.x[leaning]
+            out.append(f"{leaning.sum()} of {self.x.size} points ({self.x_name} {number(xs.min())}–"
+                       f"{number(xs.max())} {self.x_unit}) take more than 5 % of their value from relaxation times "
+                       "outside the supported window: there the curve is an extrapolation")
+        return out
+
     def report(self) -> str:
-        """Return a short description in words, including where the curve leans on the unsupported spectrum."""
-        n = int(self.flags.sum())
+        """Return a short description in words, including where the curve is an extrapolation."""
         lines = [f"{self.y_name} from {self.basis}: {self.x.size} points, {self.x_name} "
                  f"{self.x.min():.4g} to {self.x.max():.4g} {self.x_unit}; {self.method}"]
-        if n:
-            xs = self.x[self.flags]
-            lines.append(f"{n} of {self.x.size} points ({self.x_name} {xs.min():.4g} to {xs.max():.4g} "
-                         f"{self.x_unit}) take more than 5 % of their value from relaxation times outside the "
-                         f"supported window; there the curve is an extrapolation")
-        else:
-            lines.append("every point takes at least 95 % of its value from the supported window")
+        lines += self.caveats() or ["every point lies in the measured range and takes at least 95 % of its value "
+                                    "from the supported window"]
         return "\n".join(lines)
 
 
@@ -93,7 +129,11 @@ def _curve(obj: Any, x: Any, what: str, fn: Any, **labels: str) -> Curve:
     xs = _positive(x, what)
     y = fn(s, xs)  # a set the quantity cannot be computed from is the caller's error (SettingsError)
     share = _share(y, _inside(fn, s, xs)) if s.window is not None else np.zeros_like(y)
-    return Curve(x=xs, y=y, outside_share=np.atleast_1d(share), basis=s.kind, window=s.window, **labels)
+    measured = s.measured
+    if measured is not None and labels["x_unit"] == "s":  # a time: the reciprocal frequencies
+        measured = (1.0 / measured[1], 1.0 / measured[0])
+    return Curve(x=xs, y=y, outside_share=np.atleast_1d(share), basis=s.kind, window=s.window, measured=measured,
+                 **labels)
 
 
 def _inside(fn: Any, s: _Set, xs: np.ndarray) -> np.ndarray:

@@ -62,11 +62,16 @@ CURVE_COLUMNS = {
 
 
 def curve_csv_text(curve: Any) -> str:
-    """A predicted curve (:class:`~tauspec.modes.curves.Curve`) as CSV: abscissa, value, out-of-window share, flag."""
+    """A predicted curve (:class:`~tauspec.modes.curves.Curve`) as CSV.
+
+    Columns: abscissa, value, out-of-window share, whether the point lies beyond the measured range, and whether
+    it is an extrapolation (either reason).
+    """
     x_col, y_col = CURVE_COLUMNS.get(curve.quantity, (f"{curve.x_name} [{curve.x_unit}]",
                                                       f"{curve.y_name} [{curve.y_unit}]"))
-    return csv_text([x_col, y_col, "outside share", "outside window"],
-                    [curve.x, curve.y, curve.outside_share, ["yes" if f else "no" for f in curve.flags]])
+    return csv_text([x_col, y_col, "outside share", "beyond measured", "extrapolation"],
+                    [curve.x, curve.y, curve.outside_share, ["yes" if f else "no" for f in curve.beyond],
+                     ["yes" if f else "no" for f in curve.flags]])
 
 
 def master_csv_text(result: Any) -> str:

@@ -65,7 +65,8 @@ def plot_curve(curve: Any, ax: Any = None, *, title: str | None = None) -> Any:
         ax.plot(np.where(shown, x, np.nan), np.where(shown, y, np.nan), "-", color=STORAGE,
                 label=f"from the {curve.basis}")
         if flags.any():
-            ax.plot(x[flags], y[flags], "o", mfc="none", color=LOSS, label="over 5 % from outside the window")
+            ax.plot(x[flags], y[flags], "o", mfc="none", color=LOSS,
+                    label="extrapolated (beyond the data or the window)")
         ax.set_xlabel(xlabel)
         ax.set_ylabel(ylabel)
         if title is not None:
