@@ -96,6 +96,11 @@ def test_nothing_is_written_without_out(sweep_file, tmp_path, capsys, monkeypatc
         predict.run(_args(str(sweep_file), "--quantity", "relaxation", "--plot"))
 
 
+def test_one_point_is_named_in_the_singular(sweep_file, capsys):
+    assert predict.run(_args(str(sweep_file), "--quantity", "relaxation", "--times", "1")) == 0
+    assert "from the modes: 1 point, time t 1 s" in capsys.readouterr().out  # was "1 points, time t 1–1 s"
+
+
 @pytest.mark.parametrize(
     ("argv", "match"),
     [

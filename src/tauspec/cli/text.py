@@ -100,8 +100,9 @@ def curve_text(curve: Any, *, table: bool) -> tuple[str, list[str]]:
     from ..output.figures.curve import CURVE_WORDS
 
     xw, yw = CURVE_WORDS.get(curve.quantity, (f"{curve.x_name} [{curve.x_unit}]", f"{curve.y_name} [{curve.y_unit}]"))
-    lines = [f"  {yw.split(' [')[0]} from the {curve.basis}: {curve.x.size} points, {xw.split(' [')[0]} "
-             f"{number(curve.x.min())}–{number(curve.x.max())} {curve.x_unit}"]
+    lo, hi = number(curve.x.min()), number(curve.x.max())
+    lines = [f"  {yw.split(' [')[0]} from the {curve.basis}: {counted(curve.x.size, 'point')}, {xw.split(' [')[0]} "
+             f"{lo if lo == hi else f'{lo}–{hi}'} {curve.x_unit}"]
     caveats = curve.caveats(number)
     n = int(curve.flags.sum())
     if table:
