@@ -7,6 +7,7 @@ variables of Ferry (1980), ch. 11: G(ω; T) = b_T G(a_T ω; T_ref), b_T = T ρ(T
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 
@@ -112,6 +113,10 @@ def test_arrhenius_fit_exact_and_model_choice():
     best, sentence = compare_fits(wlf, arr)
     assert best == "arrhenius" and sentence.startswith("Arrhenius fits better")
     assert wlf.aic - arr.aic == pytest.approx(2.0, abs=0.01)
+    assert sentence.startswith("Arrhenius fits better: AIC lower by 2")  # 3 significant figures
+    # a large gap in three significant figures, not as 429561382.00
+    assert compare_fits(dataclasses.replace(wlf, aic=arr.aic - 4.29561382e8), arr)[1] == (
+        "WLF fits better: AIC lower by 4.3e+08")
 
 
 def test_noise_level_of_a_smooth_curve():
