@@ -257,3 +257,28 @@ def test_degenerate_sweeps_get_a_verdict_not_an_exception():
     assert verdicts["newtonian"] == "inconclusive"
     assert verdicts["solid"] == "gel"
     assert "rouse" not in verdicts.values()
+
+
+def test_frequencies_rounded_in_another_unit_give_the_same_evidence():
+    # Three Maxwell modes (Ferry 1980, ch. 3) on a regular grid of six points per decade, which puts points
+    # exactly on the edges of the half-decade slope windows.  The same sweep exported as f in Hz to four
+    # significant digits moves each ω by up to 3e-4 relative; with hairline window edges that changed the
+    # local slopes of G'' (0.28 against 0.37), the stretch of G' > G'' with a rising G'' (0.93 against 1.10
+    # decades, either side of its 1-decade threshold) and the verdict (other against entangled).
+    from tauspec.models import signatures as sg
+
+    w = np.logspace(-2, 2, 25)
+    x = np.outer(w, [10.0, 1.0, 0.1])
+    g = np.array([1e3, 3e3, 5e3])
+    gp, gpp = (g * x**2 / (1 + x**2)).sum(1), (g * x / (1 + x**2)).sum(1)
+    hz = np.array([float(f"{v:.4g}") for v in w / (2 * math.pi)]) * 2 * math.pi
+    assert 1e-7 < np.max(np.abs(hz / w - 1)) < 1e-3
+    a, b = Sweep(omega=w, storage=gp, loss=gpp, name="rad/s"), Sweep(omega=hz, storage=gp, loss=gpp, name="Hz")
+    np.testing.assert_allclose(sg.local_slopes(b.omega, gpp, 0.5), sg.local_slopes(a.omega, gpp, 0.5), atol=1e-3)
+    rise = [sg.storage_dominated_rise(s.omega, gp, gpp) for s in (a, b)]
+    assert rise[1] == pytest.approx(rise[0], abs=1e-3)
+    da, db = diagnose(a, intervals=False), diagnose(b, intervals=False)
+    assert da.verdict == db.verdict
+    va, vb = da.evidence_by_name(), db.evidence_by_name()
+    for name in ("terminal_slope_storage", "terminal_slope_loss", "storage_dominated", "plateau"):
+        assert vb[name].value == pytest.approx(va[name].value, abs=1e-3), name

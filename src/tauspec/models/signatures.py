@@ -59,18 +59,35 @@ def loglog_slope(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
     return slope, math.sqrt(float(res @ res) / len(res))
 
 
+#: Points this close (in decades) beyond the edge of a frequency window count as inside it.  Instruments measure
+#: on regular grids (4, 5, 6 or 10 points per decade) that put points exactly on the edges of the quarter- and
+#: half-decade windows, and export the frequencies rounded (three significant digits move a point by up to 0.002
+#: decades): with a hairline edge the same sweep read from rad/s and from Hz selected different points (local
+#: slopes 0.28 and 0.37, a verdict changed).  Our choice.
+EDGE_TOLERANCE = 0.005
+
+
+def lowest_decades(omega: np.ndarray, decades: float) -> np.ndarray:
+    """The points in the lowest ``decades`` of the window (to :data:`EDGE_TOLERANCE`), at least the first three."""
+    sel = omega <= omega[0] * 10 ** (decades + EDGE_TOLERANCE)
+    if np.count_nonzero(sel) < 3:
+        sel = np.arange(len(omega)) < 3
+    return sel
+
+
 def local_lines(omega: np.ndarray, y: np.ndarray, half_width: float = 0.25) -> tuple[np.ndarray, np.ndarray]:
     """Straight lines of ln y against ln ω over ±``half_width`` decades around each point (≥ 3 points).
 
     Returns the local slopes d ln y / d ln ω and the lines' values of ln y at each point.  All windows at
     once: slope_i = Σ_j w_ij (x_j − x̄_i)(y_j − ȳ_i) / Σ_j w_ij (x_j − x̄_i)² and value_i = ȳ_i + slope_i (x_i − x̄_i),
     the least-squares line over the points j of window i (x = ln ω, y = ln y); the slope is NaN (and the value
-    the window's mean) where a window spans no frequency range.
+    the window's mean) where a window spans no frequency range.  A point within :data:`EDGE_TOLERANCE` of a
+    window's edge is inside it.
     """
     omega = np.asarray(omega, dtype=float)
     lw = np.log10(omega)
     dist = np.abs(lw[:, None] - lw[None, :])
-    sel = dist <= half_width + 1e-12
+    sel = dist <= half_width + EDGE_TOLERANCE
     for i in np.flatnonzero(np.count_nonzero(sel, axis=1) < 3):
         sel[i] = False
         sel[i, np.argsort(dist[i])[:3]] = True
@@ -96,10 +113,8 @@ def local_slopes(omega: np.ndarray, y: np.ndarray, half_width: float = 0.25) -> 
 
 
 def end_slopes(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, decades: float = 0.5) -> tuple[float, float]:
-    """Slopes of ln G' and ln G'' over the lowest ``decades`` of the window (at least 3 points)."""
-    sel = omega <= omega[0] * 10**decades * (1 + 1e-12)
-    if np.count_nonzero(sel) < 3:
-        sel = np.arange(len(omega)) < 3
+    """Slopes of ln G' and ln G'' over the lowest ``decades`` of the window (:func:`lowest_decades`)."""
+    sel = lowest_decades(omega, decades)
     return loglog_slope(omega[sel], storage[sel])[0], loglog_slope(omega[sel], loss[sel])[0]
 
 
@@ -279,8 +294,10 @@ def storage_dominated_rise(omega: np.ndarray, storage: np.ndarray, loss: np.ndar
     """Decades above the first crossover over which G' stays above G'' with a rising G''.
 
     G'' must rise and tan δ must not (local slopes over ±``half_width`` decades, tan δ slope ≤ 0.1), provided
-    tan δ falls
-    to 0.8 or below in that stretch; 0 otherwise.
+    tan δ falls to 0.8 or below in that stretch; 0 otherwise.  The stretch ends where the first of these
+    conditions stops holding, interpolated linearly between the two points around it, so that the length
+    changes continuously with the data (counted in whole points it moves by a point spacing, 0.17 decade at six
+    points per decade, when a condition changes sign at one point).
 
     A chain with τ_p = τ_1 p^(−a), a ≥ 1.5, has tan δ = tan(π/(2a)) ≥ 1 in its bead-spring region
     (REFERENCES.md), so G' well above G'' with a rising G'' means a spectrum flatter than τ^(−1/2):
@@ -296,7 +313,9 @@ def storage_dominated_rise(omega: np.ndarray, storage: np.ndarray, loss: np.ndar
     start = ups[0]
     s_loss = local_slopes(omega, loss, half_width)
     s_tan = local_slopes(omega, loss / storage, half_width)
-    ok = (omega >= start) & (storage > loss) & (s_loss > 0) & (s_tan <= 0.1)
+    # each condition as a margin that is positive where it holds: G' > G'', G'' rising, tan δ slope ≤ 0.1
+    margins = np.vstack([np.log(storage / loss), s_loss, 0.1 - s_tan])
+    ok = (omega >= start) & np.all(margins > 0, axis=0)
     lw = np.log10(omega)
     i = int(np.searchsorted(omega, start))
     end = i
@@ -304,7 +323,12 @@ def storage_dominated_rise(omega: np.ndarray, storage: np.ndarray, loss: np.ndar
         end += 1
     if end == i or float(np.min(loss[i:end] / storage[i:end])) > 0.8:
         return 0.0
-    return float(lw[end - 1] - math.log10(start))
+    last = float(lw[end - 1])
+    if end < len(omega):  # the stretch ends between two points: where the first margin reaches zero (linearly)
+        a, b = margins[:, end - 1], margins[:, end]
+        fail = b <= 0
+        last += float(np.min(a[fail] / (a[fail] - b[fail]))) * float(lw[end] - lw[end - 1])
+    return last - math.log10(start)
 
 
 #: Standard deviation (in ln τ) of the Gaussian that smooths H before the shape test: at the small strengths the

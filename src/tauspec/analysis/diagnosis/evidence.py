@@ -201,9 +201,6 @@ def _data_evidence(sweep: Sweep, free: sg.SparseModes) -> list[Evidence]:
                              f"{pw['loss_slope']:.3f}, tan delta spread {pw['tan_delta_spread']:.3f}"
                              + (f"; a critical gel of this n has tan delta = tan(n pi/2) = "
                                 f"{math.tan(pw['n'] * math.pi / 2):.3f}" if 0 < pw["n"] < 1 else ""))))
-    lo_sel = w <= w[0] * 10**0.5 * (1 + 1e-12)
-    if np.count_nonzero(lo_sel) < 3:
-        lo_sel = np.arange(len(w)) < 3
     solid = s_p < T["solid_storage_slope"] and gp[0] > gpp[0] and s_pp > -0.05
     ev.append(Evidence(test="equilibrium_modulus", value=float(gp[0] / gpp[0]),
                        expected="no low-frequency solid plateau (G_e = 0)", passed=not solid,
