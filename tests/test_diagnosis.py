@@ -282,3 +282,19 @@ def test_frequencies_rounded_in_another_unit_give_the_same_evidence():
     va, vb = da.evidence_by_name(), db.evidence_by_name()
     for name in ("terminal_slope_storage", "terminal_slope_loss", "storage_dominated", "plateau"):
         assert vb[name].value == pytest.approx(va[name].value, abs=1e-3), name
+
+
+def test_a_two_decade_sweep_exported_rounded_spans_two_decades():
+    # 0.1 to 10 rad/s with the last frequency written 9.999: refused before as "the sweep spans 2.00 decades; at
+    # least 2 are needed", a reason that contradicts itself
+    w = np.logspace(-1, 1, 21)
+    w[-1] = 9.999
+    x = w * 1.0
+    d = diagnose(Sweep(omega=w, storage=1e3 * x**2 / (1 + x**2), loss=1e3 * x / (1 + x**2), name="2 decades"),
+                 intervals=False)
+    assert d.evidence_by_name()["window_decades"].passed is True
+    assert "at least 2 are needed" not in d.reason
+    w[-1] = 9.8  # 1.991 decades: short of 2 by more than rounding
+    d = diagnose(Sweep(omega=w, storage=1e3 * w**2 / (1 + w**2), loss=1e3 * w / (1 + w**2), name="short"),
+                 intervals=False)
+    assert d.verdict == "inconclusive" and "at least 2 are needed" in d.reason
