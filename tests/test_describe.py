@@ -52,6 +52,11 @@ def test_a_sparse_sweep_is_not_called_scatter():
     ev = {e.test: e for e in d.evidence}
     assert ev["noise_level"].passed is None and ev["noise_level"].note.startswith("not made: 1 points per decade")
     assert d.verdict == "other" and "single relaxation" in d.reason
+    # three points per decade exported to three significant digits (median step 0.3335 decade, 2.9987 per
+    # decade) is the density it was set to: the test is made, not refused as "3 points per decade, fewer than 3"
+    w = np.array([float(f"{v:.3g}") for v in np.geomspace(1e-3, 1e3, 19)])
+    rounded = Sweep(omega=w, storage=1e3 * w**2 / (1 + w**2), loss=1e3 * w / (1 + w**2), name="rounded")
+    assert diagnose(rounded, intervals=False).evidence_by_name()["noise_level"].passed is not None
     # at five points per decade the same curve is smooth and the test is made
     w = np.geomspace(1e-3, 1e3, 31)
     dense = Sweep(omega=w, storage=1e3 * w**2 / (1 + w**2), loss=1e3 * w / (1 + w**2), name="dense")

@@ -27,7 +27,7 @@ import math
 import numpy as np
 
 from ...models.signatures import local_slopes
-from ..uncertainty.noise import MIN_POINTS_PER_DECADE, NOISE_FLOOR, points_per_decade, roughness_noise
+from ..uncertainty.noise import MIN_POINTS_PER_DECADE, NOISE_FLOOR, points_per_decade, roughness_noise, too_sparse
 from .evidence import Evidence
 
 __all__ = ["KKCheck", "kramers_kronig_check", "phase_resolved", "describability_evidence", "NOISE_FLOOR",
@@ -136,7 +136,7 @@ def describability_evidence(omega: np.ndarray, storage: np.ndarray, loss: np.nda
     (then the strength choice, not the data, was at fault, and a note says so).
     """
     density = points_per_decade(omega)
-    if density < MIN_POINTS_PER_DECADE:  # the curve's own bends would be taken for scatter: not measured
+    if too_sparse(omega):  # the curve's own bends would be taken for scatter: not measured
         noise = math.nan
         scatter_note = (f"not made: {density:.2g} points per decade, fewer than {MIN_POINTS_PER_DECADE:g}, so the "
                         "curve's own bends would be taken for scatter; the scatter is taken as the floor "

@@ -12,6 +12,7 @@ import numpy as np
 
 from ...data.record import record
 from ...errors import SettingsError
+from ...models.signatures import EDGE_TOLERANCE
 from ...spectrum.problem import build_problem
 from ...spectrum.result import Spectrum
 
@@ -158,6 +159,16 @@ def points_per_decade(omega: np.ndarray) -> float:
     """Points per decade of frequency at the sweep's median spacing (infinite for fewer than two points)."""
     steps = np.diff(np.log10(np.asarray(omega, dtype=float)))
     return 1.0 / float(np.median(steps)) if steps.size and np.median(steps) > 0 else math.inf
+
+
+def too_sparse(omega: np.ndarray) -> bool:
+    """Fewer than :data:`MIN_POINTS_PER_DECADE` points per decade, the median step allowed the edge tolerance.
+
+    A sweep set to three points per decade and exported to three significant digits has a median step of
+    0.3335 decade (2.9987 points per decade): it is not sparser than it was set to be
+    (:data:`~tauspec.models.signatures.EDGE_TOLERANCE`).
+    """
+    return 1.0 / points_per_decade(omega) > 1.0 / MIN_POINTS_PER_DECADE + EDGE_TOLERANCE
 
 
 def roughness_noise(omega: np.ndarray, values: np.ndarray) -> float:
