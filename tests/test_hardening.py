@@ -133,6 +133,25 @@ def test_compare_bad_file_one_line_exit_1(tmp_path, capsys, kind):
     _check_one_error_line(err, path, BAD[kind][1])
 
 
+def test_compare_goes_on_without_a_bad_file(tmp_path, capsys):
+    # three files, one of them bad: the two good ones are compared, the bad one gets its line, exit status 1
+    # (compare stopped at the bad file before, unlike every other command)
+    good = [tmp_path / "a.csv", tmp_path / "b.csv"]
+    for p in good:
+        p.write_text(GOOD_TEXT)
+    bad = _bad_file(tmp_path, "ragged_rows")
+    assert main(["compare", "--grid", "40", "--replicates", "0", str(good[0]), str(bad), str(good[1]), "--json"]) == 1
+    out, err = capsys.readouterr()
+    _check_one_error_line(err, bad, BAD["ragged_rows"][1])
+    result = json.loads(out)
+    assert len(result["pairs"]) == 1 and len(result["samples"]) == 2
+    # the reference itself bad: nothing to compare against, its line only
+    assert main(["compare", "--grid", "40", str(good[0]), str(bad), str(good[1]), "--reference", str(bad)]) == 1
+    out, err = capsys.readouterr()
+    assert out == ""
+    _check_one_error_line(err, bad, BAD["ragged_rows"][1])
+
+
 def _unreadable(tmp_path):
     path = tmp_path / "locked.csv"
     path.write_text(GOOD_TEXT)

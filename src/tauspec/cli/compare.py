@@ -8,6 +8,8 @@ folder stands for every result of that run that succeeded, found through the run
 from __future__ import annotations
 
 import argparse
+import sys
+import traceback
 from pathlib import Path
 from typing import Any
 
@@ -88,8 +90,17 @@ def _read_manifest(path: str) -> list[ManifestEntry]:
     return entries
 
 
+def _same_file(a: str, b: str) -> bool:
+    return a == b or Path(a).resolve() == Path(b).resolve()
+
+
 def run(args: argparse.Namespace) -> int:
-    """Load every sample, compare them and print the result (one JSON object with --json)."""
+    """Load every sample, compare them and print the result (one JSON object with --json).
+
+    A file that cannot be read or inverted gets one line ``tauspec: error: file: reason`` on stderr and the others
+    are compared without it (exit status 1), as the other commands do; nothing is compared when the reference is
+    among those files or fewer than two samples are left.
+    """
     check_output_arguments(args)
     from ..output.results import expand_batch_folders
 
@@ -101,19 +112,28 @@ def run(args: argparse.Namespace) -> int:
     formats = figure_formats(args)
     bar = progress_bar(args, 2 * len(files), "step", desc="compare")
     try:
-        spectra, stored = [], []
+        spectra, stored, kept, failed = [], [], [], []
         for f in files:
             try:
                 spectrum, diagnosis = load_result(f, inversion)
             except TauspecError as exc:
+                if getattr(args, "debug", False):  # --debug shows the traceback, here as in cli.main
+                    traceback.print_exc()
                 if exc.source is None:
                     exc = type(exc)(exc.reason, f, exc.line)
-                raise exc from None
+                print(f"tauspec: error: {exc.one_line()}", file=sys.stderr)
+                failed.append(f)
+                continue
+            finally:
+                if bar is not None:
+                    bar.update(1)
+            kept.append(f)
             spectra.append(spectrum)
             stored.append(diagnosis)
-            if bar is not None:
-                bar.update(1)
-        result = _compare(args, files, spectra, stored, options, None if bar is None else bar.update)
+        if failed and (len(kept) < 2 or (args.reference is not None
+                                         and any(_same_file(f, args.reference) for f in failed))):
+            return 1  # each failure has its line; nothing is left to compare
+        result = _compare(args, kept, spectra, stored, options, None if bar is None else bar.update)
     finally:
         if bar is not None:
             bar.close()
@@ -137,7 +157,7 @@ def run(args: argparse.Namespace) -> int:
     else:
         text = result.report() + "".join(f"\n  wrote {p}" for p in written)
         print_text(args, text)
-    return 0
+    return 1 if failed else 0
 
 
 def _compare(args: argparse.Namespace, files: list[str], spectra: list[Any], stored: list[Any],
@@ -156,8 +176,7 @@ def _compare(args: argparse.Namespace, files: list[str], spectra: list[Any], sto
         labels = files
     reference = None
     if args.reference is not None:
-        matches = [i for i, f in enumerate(files) if f == args.reference or Path(f).resolve() ==
-                   Path(args.reference).resolve()]
+        matches = [i for i, f in enumerate(files) if _same_file(f, args.reference)]
         if not matches:
             raise SettingsError(f"--reference {args.reference!r} is not one of the FILEs")
         reference = matches[0]
