@@ -97,7 +97,7 @@ def test_outputs_summary_and_hashes(archive, reference):
     assert stored["H"] == direct["H"] and stored["lambda"] == direct["lambda"] and stored["tau"] == direct["tau"]
     run = json.loads((out / "run.json").read_text())
     assert run["counts"] == {"inputs": 8, "ok": 8, "failed": 0, "computed": 8, "skipped": 0, "worker_deaths": 0,
-                             "refused": 0}
+                             "refused": 0, "left_out": 0}
     assert run["versions"]["tauspec"] and run["versions"]["numpy"] and run["settings"]["invert"]["grid"] == GRID
     assert run["settings"]["steps"] == ["read", "invert"] and "diagnosis" not in stored and "modes" not in stored
     assert "worker_s" in run["timings"] and "timings" not in stored

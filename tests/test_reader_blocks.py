@@ -149,10 +149,15 @@ def test_an_amplitude_sweep_block_is_left_out_with_its_reason(tmp_path):
     with pytest.raises(SweepError, match=r"amplitude.txt:5: the frequency is 10 rad/s at every point: an amplitude, "
                                          r"time or temperature sweep, not a frequency sweep"):
         read_sweeps(only)
-    # the batch: the amplitude block is its own error row with the reason, the frequency sweep a result
+    # the batch: the amplitude block is a row 'left out' with the reason, not a failure (the run's exit status
+    # is 0; it was an error row and exit status 1 before), the frequency sweep a result; a file holding only
+    # the amplitude sweep is still an error
     out = tmp_path / "out"
-    run_batch([both], out, settings=SMALL, jobs=1)
+    report = run_batch([both, only], out, settings=SMALL, jobs=1)
     rows = {r["file"]: r for r in read_summary(out)}
     assert rows["program.txt#2"]["status"] == "ok"
-    assert rows["program.txt#1"]["status"] == "error"
+    assert rows["program.txt#1"]["status"] == "left out"
     assert "an amplitude, time or temperature sweep" in rows["program.txt#1"]["error"]
+    assert rows["amplitude.txt"]["status"] == "error"
+    assert (report.ok, report.left_out, report.failed) == (1, 1, 1)
+    assert run_batch([both], tmp_path / "out2", settings=SMALL, jobs=1).status == 0

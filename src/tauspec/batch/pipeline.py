@@ -8,13 +8,13 @@ import warnings
 from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
-from ..data.read import parse_sweep_text, parse_sweeps_text
+from ..data.read import NotAFrequencySweep, parse_sweep_text, parse_sweeps_text
 from ..data.sweep import Sweep
 from ..data.write import dumps_json
 from ..errors import DroppedPointsWarning, SweepError, TauspecError
 from ..spectrum.threads import one_thread
 from .settings import BatchSettings
-from .store import _header, _sha256
+from .store import LEFT_OUT, _header, _sha256
 
 __all__ = ["process"]
 
@@ -102,7 +102,8 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
     The one function sent to the workers: top level, picklable, no global
     state.  BLAS (numpy's and scipy's OpenBLAS alike) is limited to one thread
     while it runs.  Errors in the data do not raise: they come back as
-    ``status="error"`` with the one-line reason.
+    ``status="error"`` with the one-line reason, or ``status="left out"`` for a block of a file that is an
+    amplitude, time or temperature sweep beside the file's frequency sweeps (as the reader leaves it out).
 
     Parameters
     ----------
@@ -162,7 +163,9 @@ def process(sweep_or_text: Sweep | str, settings: BatchSettings, *, source: str 
     except TauspecError as exc:
         if exc.source is None:
             exc = type(exc)(exc.reason, source, exc.line)
-        result.update(status="error", error=exc.one_line())
+        # a block of an export beside its frequency sweeps that is an amplitude or time sweep is not a failure
+        status = LEFT_OUT if isinstance(exc, NotAFrequencySweep) and block is not None else "error"
+        result.update(status=status, error=exc.one_line())
     except Exception as exc:  # a bug: recorded for this file, retried on the next run
         result.update(status="error", error=f"{source}: internal error: {type(exc).__name__}: {exc}", retry=True)
     result["notes"] = list(dict.fromkeys([*notes, *(f"{w.category.__name__}: {w.message}" for w in caught)]))

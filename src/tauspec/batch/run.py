@@ -36,7 +36,17 @@ from .layout import make_folders, plan_refusals
 from .lock import run_lock
 from .pipeline import process
 from .settings import BatchSettings
-from .store import SCHEMA, _is_current, _load_json, _sha256, _store, error_files, remove_temporary_files, stored_owner
+from .store import (
+    LEFT_OUT,
+    SCHEMA,
+    _is_current,
+    _load_json,
+    _sha256,
+    _store,
+    error_files,
+    remove_temporary_files,
+    stored_owner,
+)
 from .summary import summary_rows, write_summary
 
 __all__ = ["WORKER_DIED", "BatchReport", "run_batch"]
@@ -56,6 +66,8 @@ class BatchReport:
     seconds: float
     refused: int = 0
     notes: tuple[str, ...] = field(default=())
+    #: blocks that are amplitude, time or temperature sweeps beside frequency sweeps (neither ok nor failed)
+    left_out: int = 0
 
     @property
     def status(self) -> int:
@@ -258,10 +270,12 @@ def _finish(run: _Run, t0: float, started: float, arguments: dict[str, Any]) -> 
     write_run_index(out, ({"file": inp.file, "folder": None if inp.file in run.refused else inp.key,
                            "status": row["status"]} for inp, row in zip(inputs, rows)), run.notes)
     ok = sum(row["status"] == "ok" for row in rows)
-    report = BatchReport(out=out, inputs=len(rows), ok=ok, failed=len(rows) - ok, computed=run.counts["computed"],
-                         skipped=run.counts["skipped"], worker_deaths=run.counts["worker_deaths"],
-                         seconds=time.perf_counter() - t0, refused=len(run.refused), notes=tuple(run.notes))
-    counts = ("inputs", "ok", "failed", "computed", "skipped", "worker_deaths", "refused")
+    left_out = sum(row["status"] == LEFT_OUT for row in rows)
+    report = BatchReport(out=out, inputs=len(rows), ok=ok, failed=len(rows) - ok - left_out,
+                         computed=run.counts["computed"], skipped=run.counts["skipped"],
+                         worker_deaths=run.counts["worker_deaths"], seconds=time.perf_counter() - t0,
+                         refused=len(run.refused), notes=tuple(run.notes), left_out=left_out)
+    counts = ("inputs", "ok", "failed", "left_out", "computed", "skipped", "worker_deaths", "refused")
     record_ = {
         "schema": SCHEMA,
         "paths": arguments["paths"],

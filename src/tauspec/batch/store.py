@@ -20,10 +20,13 @@ from .inputs import Input
 from .layout import RESULT_NAMES, RUN_FILES, make_folders
 from .settings import BatchSettings
 
-__all__ = ["SCHEMA", "RESULT_FILES", "FIGURES", "error_files", "stored_owner", "remove_temporary_files"]
+__all__ = ["SCHEMA", "LEFT_OUT", "RESULT_FILES", "FIGURES", "error_files", "stored_owner", "remove_temporary_files"]
 
 
 SCHEMA = "tauspec.batch/1.1"
+#: The status of a block that is not a frequency sweep (an amplitude, time or temperature sweep in the same export
+#: as frequency sweeps): neither a result nor a failure (statuses: "ok", "error", this)
+LEFT_OUT = "left out"
 
 
 #: Every file the pipeline may write into a result folder (stale ones are removed when a result changes).

@@ -73,6 +73,7 @@ def run(args: argparse.Namespace) -> int:
     """Run the batch; print the counts (and failed files), or JSON lines; exit 1 when any file failed."""
     from ..batch.run import run_batch
     from ..batch.settings import load_settings
+    from ..batch.store import LEFT_OUT
     from ..batch.summary import read_summary
     from ..output.text import printable
 
@@ -101,11 +102,13 @@ def run(args: argparse.Namespace) -> int:
             print(dumps_json(json_row(row)), flush=True)
         return report.status
     if not args.quiet:
-        print(f"{counted(report.inputs, 'sample')}: {report.ok} ok, {report.failed} failed "
+        left_out = f", {report.left_out} left out" if report.left_out else ""
+        print(f"{counted(report.inputs, 'sample')}: {report.ok} ok, {report.failed} failed{left_out} "
               f"({report.computed} computed, {report.skipped} already current) in {report.seconds:.1f} s")
         for row in rows:
             if row["status"] != "ok":
-                print(f"  error: {printable(row['error'])}")
+                what = "left out" if row["status"] == LEFT_OUT else "error"
+                print(f"  {what}: {printable(row['error'])}")
         for note in report.notes:
             print(f"  note: {printable(note)}")
         print(f"summary: {printable(str(args.out / 'summary.csv'))}")

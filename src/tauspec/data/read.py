@@ -32,7 +32,7 @@ from .table import read_table
 from .temperature import DEFAULT_TOLERANCE, describe, group_temperatures
 
 __all__ = ["ReadOptions", "read_sweep", "read_sweeps", "parse_sweep_text", "parse_sweeps_text", "count_blocks",
-           "file_layout", "MAX_FILE_BYTES", "MAX_ROWS", "MAX_LINE_CHARS"]
+           "file_layout", "NotAFrequencySweep", "MAX_FILE_BYTES", "MAX_ROWS", "MAX_LINE_CHARS"]
 
 #: More data rows than this are refused (a frequency sweep has tens to hundreds).
 MAX_ROWS = 100_000
@@ -121,8 +121,12 @@ def parse_sweep_text(text: str, *, source: str = "<text>", default_name: str = "
     return _one(parse_sweeps_text(text, source=source, default_name=default_name, options=options, **fields), source)
 
 
-class _NotAFrequencySweep(SweepError):
-    """A block whose frequency is the same at every point: an amplitude, time or temperature sweep."""
+class NotAFrequencySweep(SweepError):
+    """A block whose frequency is the same at every point: an amplitude, time or temperature sweep.
+
+    Beside frequency sweeps in the same file it is left out with a warning (:func:`parse_sweeps_text`); asked
+    for by itself (``block=k``, the batch) or alone in its file, it is raised.
+    """
 
 
 def _one(sweeps: list[Sweep], source: str) -> Sweep:
@@ -189,13 +193,13 @@ def parse_sweeps_text(text: str, *, source: str = "<text>", default_name: str = 
         raise SweepError(f"has {len(blocks)} block(s), not a block {block}", source)
     shared = {k: v for k, v in parse_preamble(blocks[0].preamble, delimiter)[0].items() if k != "temperature"}
     out: list[Sweep] = []
-    skipped: list[_NotAFrequencySweep] = []
+    skipped: list[NotAFrequencySweep] = []
     for k, (part, plan) in enumerate(zip(blocks, plans), start=1):
         if block is None or block == k:
             meta, name = _block_meta(blocks, k, shared, delimiter, default_name)
             try:
                 out += _block_sweeps(part, plan, delimiter, meta, name, source, opts)
-            except _NotAFrequencySweep as exc:
+            except NotAFrequencySweep as exc:
                 if block is not None or len(blocks) == 1:
                     raise
                 skipped.append(exc)
@@ -285,7 +289,7 @@ def _block_sweeps(block: Block, plan: Plan, delimiter: str, meta: dict[str, str]
     table = read_table(block, plan, delimiter=delimiter, source=source)
     if table.omega.size > 1 and np.all(table.omega == table.omega[0]):
         where = f"block {meta['block']} (lines {block.header_line}-{int(table.lines[-1])}): " if "block" in meta else ""
-        raise _NotAFrequencySweep(f"{where}the frequency is {table.omega[0]:.6g} rad/s at every point: an amplitude, "
+        raise NotAFrequencySweep(f"{where}the frequency is {table.omega[0]:.6g} rad/s at every point: an amplitude, "
                                   "time or temperature sweep, not a frequency sweep", source, int(table.lines[0]))
     meta = {**meta, **table.notes}
     if table.temperature is None:

@@ -206,13 +206,19 @@ def write_report(folder: str | os.PathLike[str], *, title: str | None = None, ou
     finally:
         if bar is not None:
             bar.close()
-    failed = [r for r in rows if r.get("status") != "ok"]
+    # statuses: "ok", "error", and "left out" (tauspec.batch.store.LEFT_OUT: a block of an export that is an
+    # amplitude or time sweep beside its frequency sweeps, which is not a failure)
+    failed = [r for r in rows if r.get("status") not in ("ok", "left out")]
+    left_out = [r for r in rows if r.get("status") == "left out"]
     page_title = html.escape(title or f"tauspec report — {folder.resolve().name}")
     head = "".join(f'<th title="{html.escape(tip)}">{html.escape(label)}</th>' for label, tip in HEADERS)
     fail_html = ""
     if failed:
         fail_html = "<h2>Files that failed</h2><ul>" + "".join(
             f"<li><code>{text(r.get('file', ''))}</code>: {text(r.get('error', ''))}</li>" for r in failed) + "</ul>"
+    if left_out:
+        fail_html += "<h2>Blocks left out (not frequency sweeps)</h2><ul>" + "".join(
+            f"<li><code>{text(r.get('file', ''))}</code>: {text(r.get('error', ''))}</li>" for r in left_out) + "</ul>"
     n_pages = (len(sections) + page_size - 1) // page_size if paged else 0
     if paged:
         samples_html = ("<h2>Samples</h2><p>The " + str(len(sections)) + " samples are on " + str(n_pages)
@@ -222,7 +228,8 @@ def write_report(folder: str | os.PathLike[str], *, title: str | None = None, ou
     else:
         samples_html = "<h2>Samples</h2>" + "".join(sec for _, _, sec in sections)
     samples = counted(len(rows), "sample")
-    body = (f"<header><h1>{page_title}</h1><p>{samples}: {n_ok} processed, {len(failed)} failed.</p></header>"
+    also = f", {len(left_out)} left out" if left_out else ""
+    body = (f"<header><h1>{page_title}</h1><p>{samples}: {n_ok} processed, {len(failed)} failed{also}.</p></header>"
             f"<main><h2>Summary</h2>{_controls(rows)}"
             f'<div class="table-wrap"><table id="summary"><thead><tr>{head}</tr></thead><tbody>{"".join(trs)}'
             f"</tbody></table></div>{legend_html(symbols)}"

@@ -188,12 +188,13 @@ def row_html(row: Mapping[str, str], result: Mapping[str, Any], href: str) -> st
     """One row of the summary table."""
     diag = result.get("diagnosis") or {}
     ok = row.get("status") == "ok"
+    state = "ok" if ok else "left out" if row.get("status") == "left out" else "failed"
     verdict = row.get("verdict", "") or ""
     name, where = label_of(row, result)
     link = f'<a href="{html.escape(href)}">{text(name)}</a>' if ok and href else text(name)
     sub = "".join(f'<span class="sub">{text(s)}</span>' for s in (where, row.get("file", "")) if s)
     cells = [f'<td class="sample" data-sort="{html.escape(name.lower())}">{link}{sub}</td>',
-             f'<td><span class="badge{"" if ok else " s-failed"}">{"ok" if ok else "failed"}</span></td>',
+             f'<td><span class="badge{"" if ok else " s-failed"}">{state}</span></td>',
              f'<td><span class="badge v-{html.escape(verdict)}">{text(verdict)}</span></td>' if verdict
              else "<td></td>"]
     if diag.get("verdict") in ("rouse", "zimm"):
