@@ -161,3 +161,34 @@ def test_an_amplitude_sweep_block_is_left_out_with_its_reason(tmp_path):
     assert rows["amplitude.txt"]["status"] == "error"
     assert (report.ok, report.left_out, report.failed) == (1, 1, 1)
     assert run_batch([both], tmp_path / "out2", settings=SMALL, jobs=1).status == 0
+
+
+def _maxwell_rows(omega):
+    """Rows of one Maxwell mode, g = 1e4 Pa, τ = 1 s (Ferry 1980, ch. 3)."""
+    return [f"{w!r},{1e4 * w * w / (1 + w * w)!r},{1e4 * w / (1 + w * w)!r}" for w in omega.tolist()]
+
+
+@pytest.mark.parametrize("between", ["", "\n"])
+def test_a_header_repeated_at_a_page_break_continues_the_table(between):
+    # An export that repeats its header every few rows (a page break) was read as two sweeps and refused by the
+    # single-sweep commands ("holds 2 sweeps in 2 blocks").  The header repeated with nothing but blank lines
+    # before it and the frequencies going on in the same direction is the same table.
+    head = "omega [rad/s],G' [Pa],G'' [Pa]"
+    w = np.geomspace(0.01, 100, 17)
+    rows = _maxwell_rows(w)
+    text = "\n".join([head, *rows[:9], between + head, *rows[9:]]) + "\n"
+    (sw,) = parse_sweeps_text(text, source="paged.csv")
+    np.testing.assert_allclose(sw.omega, w, rtol=1e-15)
+    np.testing.assert_allclose(sw.storage[8], 5e3, rtol=1e-12)  # G' = g/2 at ωτ = 1
+    assert "block" not in sw.meta
+
+
+def test_two_sweeps_under_one_header_stay_apart():
+    # the same header twice, but the second table starts the range again (a second run), or stands under a
+    # metadata line of its own: two sweeps, as before
+    head = "omega [rad/s],G' [Pa],G'' [Pa]"
+    rows = _maxwell_rows(np.geomspace(0.01, 100, 17))
+    again = "\n".join([head, *rows, "", head, *rows]) + "\n"
+    assert len(parse_sweeps_text(again, source="again.csv")) == 2
+    titled = "\n".join([head, *rows[:9], "# temperature: 150 C", head, *rows[9:]]) + "\n"
+    assert len(parse_sweeps_text(titled, source="titled.csv")) == 2

@@ -10,6 +10,8 @@ One pass over the lines, never holding more than the rows it keeps.  A line is
   block and starts the next one's preamble (a title line such as ``Step 2  150 °C``).  More than
   :data:`MAX_TEXT_RUN` such lines in a row are not a sweep file: the scan stops there.
 
+A header that only repeats the one above at a page break continues its table (:func:`_join_repeated_headers`).
+
 Numbers with no header above them, numbers after a block's closing text without a header of their own, and a
 row of numbers whose width differs from the header's are refused with their line, as are lines longer than
 ``max_line_chars`` and more than ``max_rows`` data rows (the number of lines is checked first, in one count over
@@ -293,5 +295,41 @@ def scan(text: str, delimiter: str, *, source: str, max_rows: int, max_line_char
     for block in blocks:
         if not block.rows:
             raise SweepError("header but no data rows", source, block.header_line if len(blocks) > 1 else None)
+    blocks = _join_repeated_headers(blocks, source)
     blocks[-1].trailer = scanner.pending
     return blocks
+
+
+def _join_repeated_headers(blocks: list[Block], source: str) -> list[Block]:
+    """Blocks whose header only repeats the one above (a page break of the export) joined to it.
+
+    A block is a continuation when its header and units row are those of the block above, no line of text or
+    comment stands between them (blank lines may), and its first frequency continues the one above in the same
+    direction.  Two sweeps of one export under the same header (at two temperatures, say) start again from one
+    end of the range, or stand under a title or metadata line of their own, and stay apart.
+    """
+    out = [blocks[0]]
+    for block in blocks[1:]:
+        above = out[-1]
+        if (block.header == above.header and block.units == above.units and not block.preamble
+                and _continues(above, block, source)):
+            above.rows.extend(block.rows)
+        else:
+            out.append(block)
+    return out
+
+
+def _continues(above: Block, block: Block, source: str) -> bool:
+    """The first frequency of ``block`` continues the last two of ``above`` in the same direction."""
+    if len(above.rows) < 2:
+        return False
+    try:
+        column = make_plan(columns_of(above.header, above.units), source, above.header_line).frequency.index
+    except SweepError:
+        return False
+    values = [parse_cell(row[column], decimal_comma=True) if column < len(row) else None
+              for _, row in (above.rows[-2], above.rows[-1], block.rows[0])]
+    if not all(isinstance(v, float) for v in values):
+        return False
+    a, b, c = values
+    return (a < b < c) or (a > b > c)
