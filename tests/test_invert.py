@@ -1,6 +1,7 @@
 """Recovery of known spectra, the strength choice, invariances and solver agreement."""
 
 import math
+import re
 import warnings
 
 import numpy as np
@@ -111,6 +112,30 @@ def test_known_solvent_viscosity_and_equilibrium_modulus():
     assert sp.G_e == pytest.approx(50.0, rel=0.2)  # the equilibrium modulus G_e of a weak solid-like network
     with pytest.warns(WeakResultWarning, match="systematic"):  # no solvent, no plateau: a visible misfit
         assert invert(sw, solvent=False).eta_s == 0.0
+
+
+def test_a_known_solvent_viscosity_above_the_dynamic_viscosity_is_named():
+    # η' = G''/ω of a solution falls towards η_s at high frequency but not below it (Ferry 1980, ch. 9).  A
+    # known η_s of 1e9 Pa·s (a wrong unit) exceeded G''/ω everywhere and gave "rms residual 3048849134.1 %" (and
+    # "the continuous spectrum is zero everywhere" from the modes); now it is refused with its cause, and a
+    # value above G''/ω at some frequencies is named in a caution.
+    from tauspec.modes.fit import fit_modes
+
+    w = np.geomspace(1e-2, 1e2, 40)
+    gp, gpp = lognormal_moduli(w, G_t=1e3, sigma=1.0)
+    sw = noisy_sweep(w, gp, gpp + 3.0 * w, 0.005, 1)
+    with pytest.raises(SettingsError, match=r"known η_s = 1e\+09 Pa·s exceeds G''/ω at every frequency"):
+        invert(sw, eta_s=1e9)
+    with pytest.raises(SettingsError, match=r"exceeds G''/ω at every frequency"):
+        fit_modes(sw, eta_s=1e9)
+    too_big = 2.0 * float((gpp[-1] + 3.0 * w[-1]) / w[-1])  # twice G''/ω at ω_max
+    with warnings.catch_warnings(record=True) as caught:  # (the misfit it leaves is named too)
+        warnings.simplefilter("always")
+        invert(sw, eta_s=too_big)
+    assert any(re.search(r"exceeds G''/ω by more than 10 % at \d+ of 40 frequencies", str(c.message)) for c in caught)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", WeakResultWarning)
+        invert(sw, eta_s=3.0)  # the true one: no caution
 
 
 def test_cvxpy_and_fast_path_agree():

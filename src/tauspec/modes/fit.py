@@ -40,6 +40,7 @@ from ..data.record import resolve_options
 from ..errors import DroppedPointsWarning, SettingsError, WeakResultWarning
 from ..spectrum.kernels import loss_kernel, modes_moduli, quadrature_weights, storage_kernel
 from ..spectrum.lsq import levenberg_marquardt
+from ..spectrum.problem import known_solvent_caution
 from ..spectrum.threads import limited
 from ..spectrum.window import outside_mask, supported_window
 from .options import ModesOptions
@@ -335,9 +336,10 @@ def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = N
         if dropped:
             warnings.warn(f"{sweep.source or sweep.name}: {dropped}", DroppedPointsWarning, stacklevel=2)
     prob, m_max, source = _setup(sweep, opts)
+    solvent_note = known_solvent_caution(prob.omega, prob.loss, opts.eta_s, source)
     grid, c, start = _start_distribution(prob, spectrum, source)
     search = _CountSearch(prob, grid, c, step=math.log(10.0) / opts.per_decade, significance=opts.significance)
-    loud: list[str] = []  # also issued as WeakResultWarning
+    loud: list[str] = [solvent_note] if solvent_note else []  # also issued as WeakResultWarning
     if opts.n_modes is not None:
         chosen, ok = search.best_fit(opts.n_modes, None)
         if chosen is None:

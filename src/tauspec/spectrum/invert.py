@@ -29,7 +29,7 @@ from ..data.record import resolve_options
 from ..data.sweep import Sweep
 from ..errors import DroppedPointsWarning, SettingsError, WeakResultWarning
 from .options import InvertOptions
-from .problem import Problem, build_problem, strength_path
+from .problem import Problem, build_problem, known_solvent_caution, strength_path
 from .regularize import PathSolution, TikhonovPath, objective, solve_cvxpy
 from .result import LCurve, Spectrum
 from .rules import RULES
@@ -110,12 +110,13 @@ def invert(sweep: Sweep, options: InvertOptions | None = None, **changes: Any) -
         tau = default_grid(sweep.omega, opts.grid)
     else:
         tau = np.asarray(opts.grid, dtype=float)
+    solvent_note = known_solvent_caution(sweep.omega, sweep.loss, opts.eta_s, sweep.source or sweep.name)
     problem = build_problem(sweep, tau, opts)
     with blas_limit(problem.A.shape[1]):  # one BLAS thread for a problem this small (spectrum.threads)
         strengths, X, res, sol, dof = _path(problem, opts)
     m = len(problem.b)
     choices = {name: rule(strengths, res, sol, dof, m) for name, rule in RULES.items()}
-    notes: list[str] = []
+    notes: list[str] = [solvent_note] if solvent_note else []
     if opts.strength == "auto":
         choice = choices[opts.select]
         idx, chosen_by, note = choice.index, opts.select, choice.note

@@ -7,11 +7,12 @@ import dataclasses
 import numpy as np
 
 from ..data.sweep import Sweep
+from ..errors import SettingsError
 from .kernels import spectrum_matrix
 from .options import InvertOptions
 from .regularize import second_difference
 
-__all__ = ["N_STRENGTHS", "Problem", "build_problem", "strength_path"]
+__all__ = ["N_STRENGTHS", "Problem", "build_problem", "strength_path", "known_solvent_caution"]
 
 
 #: Default number of strengths on the path.
@@ -41,6 +42,34 @@ class Problem:
     def n_grid(self) -> int:
         """Number of τ grid points."""
         return len(self.tau)
+
+
+#: A known η_s whose η_s ω exceeds G'' by more than this share at some frequency is named in a caution.
+SOLVENT_EXCESS = 0.1
+
+
+def known_solvent_caution(omega: np.ndarray, loss: np.ndarray, eta_s: float | None, source: str) -> str | None:
+    """Check a known solvent viscosity against the sweep: η' = G''/ω ≥ η_s at every frequency.
+
+    The dynamic viscosity of a solution falls towards the solvent's at high frequency but not below it (Ferry
+    1980, ch. 9), so η_s ω ≤ G''.  Raises :class:`SettingsError` when η_s ω exceeds G'' at every frequency (a
+    wrong value or unit: subtracted, it leaves a negative G''); returns a caution when it exceeds G'' by more than
+    :data:`SOLVENT_EXCESS` at some frequencies (beyond the noise there), else None.
+    """
+    if not eta_s:
+        return None
+    w, gpp = np.asarray(omega, dtype=float), np.asarray(loss, dtype=float)
+    ratio = eta_s * w / gpp
+    if np.all(ratio > 1.0):
+        raise SettingsError(f"the known η_s = {eta_s:.4g} Pa·s exceeds G''/ω at every frequency (at most "
+                            f"{float(np.max(gpp / w)):.4g} Pa·s): the solvent alone would give more than the whole "
+                            "G''; check its value and unit", source)
+    over = ratio > 1.0 + SOLVENT_EXCESS
+    if not over.any():
+        return None
+    return (f"the known η_s = {eta_s:.4g} Pa·s exceeds G''/ω by more than {100 * SOLVENT_EXCESS:.0f} % at "
+            f"{int(over.sum())} of {w.size} frequencies ({w[over].min():.3g}–{w[over].max():.3g} rad/s): G'' there is "
+            "below the solvent's own contribution")
 
 
 def build_problem(sweep: Sweep, tau: np.ndarray, options: InvertOptions) -> Problem:
