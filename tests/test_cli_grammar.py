@@ -167,7 +167,7 @@ def test_frequency_range_in_the_api_the_command_line_and_the_batch(sweep_file, t
 def test_bad_range_is_one_line(sweep_file, capsys):
     assert main(["invert", str(sweep_file), "--omega-min", "10", "--omega-max", "1"]) == 1
     err = capsys.readouterr().err.strip().splitlines()
-    assert err == ["tauspec: error: --omega-min must be below omega_max, not 10 ≥ 1"]
+    assert err == ["tauspec: error: --omega-min must be below --omega-max, not 10 ≥ 1"]
     assert main(["invert", str(sweep_file), "--omega-min", "90"]) == 1
     assert "only 1 point is left when those below ω = 90 rad/s are left out" in capsys.readouterr().err
 

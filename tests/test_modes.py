@@ -203,5 +203,5 @@ def test_bad_settings(kwargs, match):
 
 def test_more_modes_than_the_data_hold_are_refused():
     # 40 points give 80 data: with η_s at most (80 − 1 − 1)/2 = 39 modes leave a residual degree of freedom
-    with pytest.raises(SettingsError, match="n_modes must be between 1 and 39 for 40 points"):
+    with pytest.raises(SettingsError, match="the mode count must be between 1 and 39 for 40 points"):
         fit_modes(three_mode_sweep(0, omega=np.geomspace(1e-3, 1e3, 40)), n_modes=45)

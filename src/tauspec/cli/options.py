@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
+import re
 import types
 import typing
 from collections.abc import Iterable
@@ -109,5 +110,6 @@ def options_from_args(args: argparse.Namespace, cls: type[T], *, only: Iterable[
         for name, flag in flags.items():
             if reason.startswith(f"{name} "):
                 reason = flag + reason[len(name):]
-                break
+            elif "_" in name:  # a field named inside the reason ("... below omega_max"); plain words are left
+                reason = re.sub(rf"\b{re.escape(name)}\b", flag, reason)
         raise SettingsError(reason) from None

@@ -375,7 +375,7 @@ def _setup(sweep: Any, opts: ModesOptions) -> tuple[_Problem, int, str]:
     # at most per_decade modes per measured decade (plus one), and at least 3 residual degrees of freedom
     m_max = max(1, min(int(math.floor(opts.per_decade * decades)) + 1, (n_data - n_extra - 3) // 2))
     if opts.n_modes is not None and not 1 <= opts.n_modes <= (n_data - n_extra - 1) // 2:
-        raise SettingsError(f"n_modes must be between 1 and {(n_data - n_extra - 1) // 2} for "
+        raise SettingsError(f"the mode count must be between 1 and {(n_data - n_extra - 1) // 2} for "
                             f"{omega.size} points (got {opts.n_modes!r})", source)
     prob = _Problem(
         omega=omega, storage=storage, loss=loss, solvent=solvent, equilibrium_modulus=equilibrium,
