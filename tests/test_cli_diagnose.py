@@ -90,3 +90,14 @@ def test_diagnose_bad_density_is_one_line(tmp_path, capsys):
     assert main(["diagnose", str(a), "--no-spectrum"]) == 1
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "melt.csv" in err[0] and "density" in err[0]
+
+
+def test_a_passed_test_without_a_number_reads_none_found_not_not_made():
+    # the entangled-shape test passes with no number when no entangled shape is found; it was printed as
+    # "✓ ...: not made (...)", a tick beside "not made", while the count line called it passed
+    from tauspec.output.words import evidence_line
+
+    text, passed = evidence_line({"test": "entangled_shape", "value": None, "passed": True, "note": "no cut-off"})
+    assert passed is True and text.endswith(": none found (no cut-off)")
+    text, passed = evidence_line({"test": "mode_ratio_12", "value": None, "passed": None, "note": "not resolved"})
+    assert passed is None and text.endswith(": not made (not resolved)")

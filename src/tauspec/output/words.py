@@ -182,8 +182,8 @@ def evidence_line(e: Mapping[str, Any]) -> tuple[str, bool | None]:
     phrase, unit_text = EVIDENCE_WORDS.get(test, (plain_words(test.replace("_", " ")), ""))
     value = e.get("value")
     expected = plain_words(e.get("expected", ""))
-    if value is None:
-        text = f"{phrase}: not made"
+    if value is None:  # no number: the test was not made, or (passed) what it looks for was not found
+        text = f"{phrase}: {'none found' if e.get('passed') is True else 'not made'}"
         note = e.get("note")
         if note:
             text += f" ({plain_words(note)})"
