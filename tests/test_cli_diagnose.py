@@ -101,3 +101,12 @@ def test_a_passed_test_without_a_number_reads_none_found_not_not_made():
     assert passed is True and text.endswith(": none found (no cut-off)")
     text, passed = evidence_line({"test": "mode_ratio_12", "value": None, "passed": None, "note": "not resolved"})
     assert passed is None and text.endswith(": not made (not resolved)")
+
+
+def test_an_interval_end_never_reads_as_the_value():
+    # G0 = 1000.2 Pa, 95 % interval [995.3, 1004.9]: at three digits "1e3 Pa, 95 % interval [995, 1e3] Pa",
+    # as if the upper end were the value; enough digits are shown for the three numbers to read apart
+    from tauspec.output.words import quantity
+
+    assert quantity("G0", 1000.2, (995.3, 1004.9)) == "G0 = 1000 Pa, 95 % interval [995.3, 1005] Pa"
+    assert quantity("tau_R", 2.41, (2.39, 2.43)) == "τ_R = 2.41 s, 95 % interval [2.39, 2.43] s"

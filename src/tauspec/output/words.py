@@ -157,8 +157,28 @@ def interval(ci: Any, digits: int = 3) -> str:
     return ""
 
 
+def _telling_digits(value: Any, ci: Any, digits: int) -> int:
+    """The fewest significant digits from ``digits`` (at most 6) at which a value and its interval's ends read apart.
+
+    G0 = 1000 Pa with the interval [995, 1004] read "1e3 Pa, 95 % interval [995, 1e3] Pa" at three digits.
+    """
+    if not (isinstance(ci, Sequence) and not isinstance(ci, str) and len(ci) == 2):
+        return digits
+    for d in range(digits, 7):
+        texts = [number(v, d) for v in (ci[0], value, ci[1])]
+        same = [a == b for a, b, x, y in ((texts[0], texts[1], ci[0], value), (texts[1], texts[2], value, ci[1]))
+                if is_finite_number(x) and is_finite_number(y) and float(x) != float(y)]
+        if not any(same):
+            return d
+    return 6
+
+
 def quantity(key: str, value: Any, ci: Any = None, *, digits: int = 3) -> str:
-    """``τ_R = 2.41 s [2.39, 2.43]``: a quantity with its unit on the value and on the interval."""
+    """``τ_R = 2.41 s [2.39, 2.43]``: a quantity with its unit on the value and on the interval.
+
+    More digits are shown when three would make an end of the interval read as the value itself.
+    """
+    digits = _telling_digits(value, ci, digits)
     u = unit(key)
     text = f"{symbol(key)} = {number(value, digits)}"
     if u and number(value) != "–":
