@@ -250,6 +250,13 @@ def test_report_command_on_an_existing_folder(demo_batch, tmp_path, capsys):
 def test_report_refuses_a_folder_without_a_batch(tmp_path, capsys):
     assert main(["report", str(tmp_path)]) == 1
     assert "no batch summary here" in capsys.readouterr().err
+    # a file or a missing folder is named as such (was 'x.csv/summary.csv: no batch summary here (Not a directory)')
+    (tmp_path / "x.csv").write_text("omega,G',G''\n")
+    assert main(["report", str(tmp_path / "x.csv")]) == 1
+    assert capsys.readouterr().err.strip().endswith("x.csv: is a file, not a folder; give the --out folder of "
+                                                    "'tauspec batch'")
+    assert main(["report", str(tmp_path / "nowhere")]) == 1
+    assert "nowhere: no such folder" in capsys.readouterr().err
 
 
 # --------------------------------------------------------------------------- in a real browser

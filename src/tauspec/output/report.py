@@ -43,6 +43,10 @@ _NO_FIGURES = ("no figures stored for this result: run 'tauspec batch ... --plot
 
 
 def _read_summary(folder: Path) -> list[dict[str, str]]:
+    if not folder.exists():
+        raise TauspecError("no such folder; give the --out folder of 'tauspec batch'", str(folder))
+    if not folder.is_dir():
+        raise TauspecError("is a file, not a folder; give the --out folder of 'tauspec batch'", str(folder))
     path = folder / "summary.csv"
     try:
         with open(path, newline="", encoding="utf-8") as fh:
