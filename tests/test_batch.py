@@ -317,6 +317,7 @@ def test_demo_runs_the_whole_job(tmp_path, capsys):
                  "results/report.html", "results/series/binder-M40.csv/spectrum.png"):
         assert (tmp_path / name).stat().st_size > 10_000, name
     assert "series scaling τ_R ∝ M^2.0" in first  # Rouse chains: τ_R ∝ M² (Ferry 1980, ch. 9)
+    assert "G(t) at 50 times from 0.001 s" in first  # the prediction says what it made (it printed "0 s" alone)
     assert "where everything is:" in first
     # the science of the demo and its resume: tests/test_quickstart.py
     assert len(read_summary(tmp_path / "results")) == 9

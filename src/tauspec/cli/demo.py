@@ -10,7 +10,7 @@ import time
 from pathlib import Path
 from typing import Any
 
-from ..output.words import counted
+from ..output.words import counted, number
 from .common import add_output_arguments, check_output_arguments
 
 #: The demo's default folder (documented in ``--help`` and the README): the one place it writes without ``--out``.
@@ -106,7 +106,7 @@ def run(args: argparse.Namespace) -> int:
     say(f"4. tauspec predict {sample.name} --quantity relaxation (G(t) from its Maxwell modes)")
     seconds["predict"] = _step(args, ["predict", str(sample), "--quantity", "relaxation", "--out",
                                       str(out / "predict")])
-    say(f"   {seconds['predict']:.0f} s")
+    say(f"   {_predict_words(out / 'predict' / 'relaxation.csv')}, {seconds['predict']:.0f} s")
 
     where = {
         "report": str(results / "report.html"),
@@ -157,6 +157,18 @@ def _series_words(path: Path) -> str:
     lo, hi = fit["intervals"]["M"]
     what = "τ_R" if str(fit.get("measure", "")).startswith("tau_R") else "τ_w"
     return f"series scaling {what} ∝ M^{x:.2f}, 95 % interval [{lo:.2f}, {hi:.2f}] (Rouse chains: 2)"
+
+
+def _predict_words(path: Path) -> str:
+    """The predicted G(t) in words: its range and how many points are extrapolations."""
+    import csv
+
+    with open(path, newline="", encoding="utf-8") as fh:
+        rows = list(csv.reader(fh))[1:]
+    t, G = [float(r[0]) for r in rows], [float(r[1]) for r in rows]
+    flagged = sum(r[-1] == "yes" for r in rows)
+    return (f"G(t) at {counted(len(rows), 'time')} from {number(t[0])} s ({number(G[0])} Pa) to {number(t[-1])} s "
+            f"({number(G[-1])} Pa); {flagged} flagged as extrapolations")
 
 
 def _master_words(path: Path) -> str:
