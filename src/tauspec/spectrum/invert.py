@@ -213,10 +213,10 @@ def _cautions(sweep: Sweep, opts: InvertOptions, window: tuple[float, float], re
         if not opts.equilibrium_modulus and sweep.storage[0] > sweep.loss[0]:
             hint = ("; G' exceeds G'' at the lowest frequency — for a gel or solid try equilibrium_modulus=True "
                     "(--equilibrium-modulus)")
-        notes.append(f"the residuals are systematic (runs test p = {runs_p:.1g}, rms {rms:.1%}): the spectrum does "
-                     f"not describe the data well{hint}")
+        notes.append(f"the residuals are systematic (runs test p = {runs_p:.1g}, rms {100 * rms:.1f} %): the "
+                     f"spectrum does not describe the data well{hint}")
     elif rms > 0.1:
-        notes.append(f"the residuals are large (rms {rms:.0%}) but without systematic trend: noisy data; the "
+        notes.append(f"the residuals are large (rms {100 * rms:.0f} %) but without systematic trend: noisy data; the "
                      "spectrum is only roughly determined")
     return notes
 
