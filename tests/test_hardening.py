@@ -133,6 +133,14 @@ def test_compare_bad_file_one_line_exit_1(tmp_path, capsys, kind):
     _check_one_error_line(err, path, BAD[kind][1])
 
 
+def test_compare_of_one_file_named_twice_says_so(tmp_path, capsys):
+    good = tmp_path / "a.csv"
+    good.write_text(GOOD_TEXT)
+    assert main(["compare", str(good), str(good)]) == 1
+    assert capsys.readouterr().err.strip() == ("tauspec: error: compare needs at least two different files (the "
+                                               "same file was given twice)")
+
+
 def test_compare_goes_on_without_a_bad_file(tmp_path, capsys):
     # three files, one of them bad: the two good ones are compared, the bad one gets its line, exit status 1
     # (compare stopped at the bad file before, unlike every other command)

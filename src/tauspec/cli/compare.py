@@ -106,7 +106,8 @@ def run(args: argparse.Namespace) -> int:
 
     files = expand_batch_folders(each_file(args.files))  # a batch output folder: its results, by its index
     if len(files) < 2:
-        raise SettingsError("compare needs at least two files")
+        twice = " (the same file was given twice)" if len(args.files) >= 2 else ""
+        raise SettingsError(f"compare needs at least two different files{twice}")
     options = options_from_args(args, CompareOptions)
     inversion = invert_command.invert_options(args)
     formats = figure_formats(args)
