@@ -110,3 +110,12 @@ def test_an_interval_end_never_reads_as_the_value():
 
     assert quantity("G0", 1000.2, (995.3, 1004.9)) == "G0 = 1000 Pa, 95 % interval [995.3, 1005] Pa"
     assert quantity("tau_R", 2.41, (2.39, 2.43)) == "τ_R = 2.41 s, 95 % interval [2.39, 2.43] s"
+
+
+def test_the_verdict_heading_does_not_name_a_signature_the_reason_does_not_give():
+    # an entangled verdict reached by "G' stays above G'' with a rising G''" was headed "ENTANGLED — entangled: a
+    # rubbery plateau", a plateau the same output's plateau test had just measured at 0 decades
+    from tauspec.cli.text import diagnosis_text
+
+    d = {"sample": "x", "verdict": "entangled", "reason": "G' stays above G'' with a rising G'' over 1.10 decades"}
+    assert diagnosis_text(d)[0].splitlines()[0] == "x: ENTANGLED — entangled chains"

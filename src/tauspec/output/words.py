@@ -45,7 +45,7 @@ QUANTITIES: Mapping[str, tuple[str, str, str]] = {
 VERDICT_WORDS: Mapping[str, str] = {
     "rouse": "unentangled bead-spring chains (Rouse)",
     "zimm": "bead-spring chains with hydrodynamic interaction (Zimm)",
-    "entangled": "entangled: a rubbery plateau",
+    "entangled": "entangled chains",
     "gel": "gel-like: no terminal flow",
     "other": "neither Rouse nor Zimm",
     "inconclusive": "the data cannot decide",

@@ -20,7 +20,7 @@ VERDICTS = ("rouse", "zimm", "entangled", "gel", "other", "inconclusive")
 _DESCRIBABILITY = (
     ("phase_resolved", "one modulus lies below 1e-4 of the other at every frequency: the phase angle is below "
                        "what an oscillatory rheometer resolves, so the moduli carry no relaxation"),
-    ("noise_level", "the point-to-point scatter of the moduli is {value:.0%}: they carry no shape"),
+    ("noise_level", "the point-to-point scatter of the moduli is {percent:.0f} %: they carry no shape"),
     ("spectrum_describes", "no nonnegative relaxation spectrum fits the moduli within their own scatter "
                            "(residual {value:.1f} times the scatter)"),
     ("kramers_kronig", "G' and G'' violate the Kramers-Kronig relations beyond the noise (median misfit {value:.2f} "
@@ -41,7 +41,8 @@ def _first_failed(e: Mapping[str, Evidence], table: Sequence[tuple[str, str]]) -
     for name, text in table:
         if name in e and e[name].passed is False:
             v = e[name].value
-            return name, text.format(value=v if isinstance(v, int | float) else math.nan)
+            v = v if isinstance(v, int | float) else math.nan
+            return name, text.format(value=v, percent=100 * v)
     return None
 
 
