@@ -11,6 +11,7 @@ from ..data.units import temperature_kelvin
 from ..data.write import atomic_write_text, dumps_json
 from ..errors import SettingsError
 from ..output.tables import master_csv_text
+from ..output.words import counted
 from .common import add_output_arguments, check_output_arguments, each_file, figure_formats, print_text
 
 __all__ = ["add_arguments", "run"]
@@ -48,7 +49,7 @@ def run(args: argparse.Namespace) -> int:
     if args.temperatures is not None:
         parts = [p for p in args.temperatures.split(",") if p.strip()]
         if len(parts) != len(sweeps):
-            raise SettingsError(f"--temperatures gives {len(parts)} values for {len(sweeps)} files")
+            raise SettingsError(f"--temperatures gives {counted(len(parts), 'value')} for {len(sweeps)} files")
         temperatures = [_kelvin(p, "--temperatures value") for p in parts]
     if args.reference_temperature is not None:
         T_ref = _kelvin(args.reference_temperature, "--reference-temperature")
