@@ -125,6 +125,7 @@ BAD = [
     (table("omega,G',G''") + "-1,5,3\n", "frequency must be positive"),
     (table("omega,G',G''") + "10,5,3\n", "duplicate frequency 10 rad/s"),
     (table("omega,G',G''", rows=[(w, -a, b) for w, a, b in zip(W, GP, GPP)]), "only 0 points have positive"),
+    ("omega,G',G''\n1,2,3\n5\n", "row has 1 value but the header names 3 columns"),
     (table("omega,G',G''", rows=list(zip(W, GP, GPP))[:5]), "at least 6 are needed"),
     ("omega,G',G'',G'\n1,2,3,4\n", "two columns are the storage column"),
 ]

@@ -265,7 +265,8 @@ class _Scanner:
             at, text = self.closed_by
             raise SweepError(f"numbers after the text on line {at} ({text[:40]!r}) but no header row of their own",
                              self.source, number)
-        raise SweepError(f"row has {len(trim(fields))} values but the header names {len(block.header)} columns",
+        n = len(trim(fields))
+        raise SweepError(f"row has {n} value{'' if n == 1 else 's'} but the header names {len(block.header)} columns",
                          self.source, number)
 
 

@@ -76,8 +76,9 @@ def build_sweep(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, line_n
             f"a missing value at lines {line_ranges(missing)}" if missing else "",
             f"a non-positive modulus at lines {line_ranges(negative)}" if negative else "") if text)
         if keep.sum() < MIN_POINTS:
-            raise SweepError(f"only {int(keep.sum())} points have positive G' and G'' (at least {MIN_POINTS} "
-                             f"needed); {reasons}", source)
+            n = int(keep.sum())
+            raise SweepError(f"only {n} point{' has' if n == 1 else 's have'} positive G' and G'' (at least "
+                             f"{MIN_POINTS} needed); {reasons}", source)
         warnings.warn(f"{source}: dropped {len(negative) + len(missing)} point(s): {reasons}", DroppedPointsWarning,
                       stacklevel=5)
         meta["dropped_lines"] = line_ranges(negative + missing)

@@ -346,7 +346,7 @@ def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = N
             for m in range(1, opts.n_modes + 1):
                 chosen, ok = search.best_fit(m, chosen)
         if chosen is None:
-            raise SettingsError(f"no fit with {opts.n_modes} modes converged", source)
+            raise SettingsError(f"no fit with {opts.n_modes} mode{'' if opts.n_modes == 1 else 's'} converged", source)
         tried = [(chosen, ok)]
     else:
         chosen, tried, limit = search.path(m_max)
@@ -412,7 +412,8 @@ def _count_notes(prob: _Problem, chosen: _Fit, m_max: int, limit: bool) -> list[
     out = []
     if limit:
         decades = math.log10(prob.omega[-1] / prob.omega[0])
-        out.append(f"the mode count reached its resolution limit ({m_max} modes for {decades:.2g} "
+        modes = f"{m_max} mode{'' if m_max == 1 else 's'}"
+        out.append(f"the mode count reached its resolution limit ({modes} for {decades:.2g} "
                    f"decades); more modes might still improve the fit")
     if chosen.n_modes == 0:
         alone = " and ".join(n for n, on in (("eta_s", prob.solvent), ("G_e", prob.equilibrium_modulus)) if on)
