@@ -116,8 +116,12 @@ def test_band_covers_true_spectrum_pooled():
     # The full calibration (100 sweeps × 199 resamples) is in benchmarks/bench_uncertainty.py.
     # The same resamples give the η0 interval: η0 = ∫ H τ d ln τ = G_t τ_m exp(σ²/2) for the log-normal
     # spectrum (the mean of a log-normal distribution; Ferry 1980, ch. 3, for η0 as the first moment of H).
-    hits, eta0_hits = [], []
+    # J_e⁰ = e^(σ²)/G_t and τ_w = τ_m e^(3σ²/2) (docs/references.md, the log-normal moments) lean on times beyond
+    # the window; their intervals, formed on the logarithm, must cover them as often and stay positive (formed
+    # linearly they started at 0 on 48 and 49 of these 50 sweeps).
+    hits, eta0_hits, far_hits = [], [], []
     eta0_true = G_T * math.exp(1.2**2 / 2)
+    far_true = {"Je0": math.exp(1.2**2) / G_T, "tau_w": math.exp(1.5 * 1.2**2)}
     for trial in range(50):
         sp = invert(small_sweep(2000 + trial), grid=30)
         b = confidence_bands(sp, resamples=39, seed=trial, jobs=1)  # identical for any jobs (tested below)
@@ -125,10 +129,15 @@ def test_band_covers_true_spectrum_pooled():
         m = sp.in_window
         hits.append(((b.H_lo <= Ht) & (Ht <= b.H_hi))[m])
         eta0_hits.append(b.intervals["eta0"].lo <= eta0_true <= b.intervals["eta0"].hi)
+        for name, true in far_true.items():
+            iv = b.intervals[name]
+            assert iv.lo > 0 and "on ln" in iv.method, (name, iv)
+            far_hits.append(iv.lo <= true <= iv.hi)
     coverage = float(np.concatenate(hits).mean())
     assert coverage >= 0.85, coverage
     assert coverage <= 0.995, coverage  # a band that covers everything would be useless
     assert np.mean(eta0_hits) >= 0.85, eta0_hits
+    assert np.mean(far_hits) >= 0.85, far_hits
 
 
 # ----------------------------------------------------------------------------------------- determinism

@@ -287,13 +287,17 @@ def confidence_bands(spectrum: Spectrum, options: BandOptions | None = None, *,
         col = columns[name] = np.array([r[1].get(name, math.nan) for r in ok], dtype=float)
         good = col[np.isfinite(col)]
         st = stats[owner[name]]
+        on_log = st.positive and est > 0 and bool(np.all(good > 0))
         if len(good) < 10 or not math.isfinite(est):
             lo = hi = math.nan
+        elif on_log:  # a positive number: on its logarithm, transformed back (docs/uncertainty.md)
+            lo, hi = (math.exp(float(v)) for v in pointwise_interval(math.log(est), np.log(good), float(level),
+                                                                      interval, False))
         else:
             lo, hi = (float(v) for v in pointwise_interval(est, good, float(level), interval, st.nonnegative))
         intervals[name] = Interval(estimate=est, lo=lo, hi=hi, level=float(level),
-                                   method=f"{how}, {len(good)} of {len(ok)} resamples", n=len(good),
-                                   description=st.description)
+                                   method=f"{how}{', on ln' if on_log else ''}, {len(good)} of {len(ok)} resamples",
+                                   n=len(good), description=st.description)
     strengths = np.array([r[2] for r in ok])
     return Bands(
         tau=spectrum.tau, H=spectrum.H, H_lo=H_lo, H_hi=H_hi, in_window=spectrum.in_window, level=float(level),

@@ -23,7 +23,9 @@ class Statistic:
 
     ``fn(sweep, spectrum)`` returns a float or a mapping of names to floats
     (NaN when it cannot be computed on that resample).  ``nonnegative``
-    clips the basic interval at 0.  ``applies(spectrum)`` says whether the
+    clips the basic interval at 0.  ``positive`` marks a number positive by its nature (a time, a viscosity, a
+    compliance, a modulus): its interval is formed on its logarithm and transformed back, so that it stays
+    positive (:func:`~tauspec.analysis.uncertainty.bands.confidence_bands`).  ``applies(spectrum)`` says whether the
     statistic is meaningful for a spectrum (e.g. G_e only with a plateau);
     ``default=False`` statistics are computed only when asked for by name
     (they are costly, or meaningful only for some samples).
@@ -34,6 +36,7 @@ class Statistic:
     nonnegative: bool = False
     applies: Callable[[Spectrum], bool] | None = None
     default: bool = True
+    positive: bool = False
 
 
 def _eta_s(sweep: Sweep, spectrum: Spectrum) -> float:
@@ -91,16 +94,16 @@ STATISTICS: dict[str, Statistic] = {
     "eta_s": Statistic(_eta_s, "solvent viscosity η_s (Pa·s) of the inversion", True, _fits_eta_s),
     "G_e": Statistic(_G_e, "equilibrium modulus G_e (Pa) of the inversion", True, _fits_G_e),
     "derived": Statistic(_derived, "η0, J_e⁰, τ_n, τ_w and the longest time of the spectrum (tauspec.derive)",
-                         True),
+                         True, positive=True),
     "modes": Statistic(_modes, "number of Maxwell modes and the derived numbers from them (tauspec.fit_modes, "
                        "then tauspec.derive); single modes are not compared across resamples, whose "
                        "count may differ", True, None, False),
     "rouse": Statistic(_rouse, "τ_R = τ_1 (s) and G0 (Pa) of the finite-N Rouse fit "
                        "(tauspec.models.beadspring.fit_chain)",
-                       True, None, False),
+                       True, None, False, positive=True),
     "bead_spring": Statistic(_bead_spring, "τ_R (s), G0 (Pa) of the reported model and the mode exponent a of the "
                              "bead-spring diagnosis (tauspec.diagnose, without its own intervals)",
-                             True, None, False),
+                             True, None, False, positive=True),
 }
 
 
