@@ -170,7 +170,7 @@ def test_sweeps_of_one_point_per_decade_cannot_be_called_the_same_shape():
         warnings.simplefilter("ignore")
         pair = compare([one, two], replicates=0).pairs[0]
     assert pair.same_shape is None
-    assert any(n.startswith("cannot tell: 1 points per decade, fewer than 3") for n in pair.notes), pair.notes
+    assert any(n.startswith("cannot tell: 1 point per decade, fewer than 3") for n in pair.notes), pair.notes
 
 
 def test_errors_are_one_line_settings_errors():

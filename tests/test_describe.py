@@ -50,7 +50,7 @@ def test_a_sparse_sweep_is_not_called_scatter():
     assert roughness_noise(sweep.omega, sweep.storage) > 0.3
     d = diagnose(sweep, intervals=False)
     ev = {e.test: e for e in d.evidence}
-    assert ev["noise_level"].passed is None and ev["noise_level"].note.startswith("not made: 1 points per decade")
+    assert ev["noise_level"].passed is None and ev["noise_level"].note.startswith("not made: 1 point per decade")
     assert d.verdict == "other" and "single relaxation" in d.reason
     # three points per decade exported to three significant digits (median step 0.3335 decade, 2.9987 per
     # decade) is the density it was set to: the test is made, not refused as "3 points per decade, fewer than 3"

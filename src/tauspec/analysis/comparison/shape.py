@@ -12,7 +12,7 @@ from scipy import stats
 
 from ...data.record import field, record
 from ...spectrum.result import Spectrum
-from ..uncertainty.noise import MIN_POINTS_PER_DECADE, points_per_decade, too_sparse
+from ..uncertainty.noise import MIN_POINTS_PER_DECADE, density_words, points_per_decade, too_sparse
 from .moduli import MIN_DECADES, MIN_WEIGHT, ModuliShift, fit_moduli_shift, weight_fraction
 from .replicates import SampleUncertainty, _spread
 from .shift import ShiftFit, fit_shift
@@ -164,7 +164,7 @@ def _moduli_decision(spectra: tuple[Spectrum, Spectrum], fit: ShiftFit, shifts: 
         return moduli, None, shifts, [why]
     sparse = min(points_per_decade(sa.omega), points_per_decade(sb.omega))
     if too_sparse(sa.omega) or too_sparse(sb.omega):  # the noise from the roughness would hold the curves' own bends
-        return moduli, None, shifts, [f"cannot tell: {sparse:.2g} points per decade, fewer than "
+        return moduli, None, shifts, [f"cannot tell: {density_words(sparse)}, fewer than "
                                       f"{MIN_POINTS_PER_DECADE:g}, leave the moduli's scatter unknown"]
     new_shifts = (ms.log_a, ModuliShift.interval(ms.log_a, ms.log_a_se, CI_LEVEL),
                   ms.log_b, ModuliShift.interval(ms.log_b, ms.log_b_se, CI_LEVEL))

@@ -27,7 +27,14 @@ import math
 import numpy as np
 
 from ...models.signatures import local_slopes
-from ..uncertainty.noise import MIN_POINTS_PER_DECADE, NOISE_FLOOR, points_per_decade, roughness_noise, too_sparse
+from ..uncertainty.noise import (
+    MIN_POINTS_PER_DECADE,
+    NOISE_FLOOR,
+    density_words,
+    points_per_decade,
+    roughness_noise,
+    too_sparse,
+)
 from .evidence import Evidence
 
 __all__ = ["KKCheck", "kramers_kronig_check", "phase_resolved", "describability_evidence", "NOISE_FLOOR",
@@ -87,9 +94,9 @@ def kramers_kronig_check(omega: np.ndarray, storage: np.ndarray, loss: np.ndarra
     gpp = np.asarray(loss, dtype=float)
     lw = np.log10(w)
     r = []
-    level = local_slopes(w, gp, half_width) < 0.05
-    for y, other, flip in ((gp, gpp, False), (gpp, gp, True)):
-        n = local_slopes(w, y, half_width)
+    n_p = local_slopes(w, gp, half_width)
+    level = n_p < 0.05
+    for y, other, flip, n in ((gp, gpp, False, n_p), (gpp, gp, True, local_slopes(w, gpp, half_width))):
         # the slope half a decade either side: the form is a local power law, so it is used only where the
         # slope stays within SLOPE_DRIFT over that decade
         n_lo = np.interp(lw - 2 * half_width, lw, n, left=np.nan)
@@ -138,7 +145,7 @@ def describability_evidence(omega: np.ndarray, storage: np.ndarray, loss: np.nda
     density = points_per_decade(omega)
     if too_sparse(omega):  # the curve's own bends would be taken for scatter: not measured
         noise = math.nan
-        scatter_note = (f"not made: {density:.2g} points per decade, fewer than {MIN_POINTS_PER_DECADE:g}, so the "
+        scatter_note = (f"not made: {density_words(density)}, fewer than {MIN_POINTS_PER_DECADE:g}, so the "
                         "curve's own bends would be taken for scatter; the scatter is taken as the floor "
                         f"{NOISE_FLOOR:g}")
     else:

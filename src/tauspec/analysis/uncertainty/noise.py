@@ -161,6 +161,11 @@ def points_per_decade(omega: np.ndarray) -> float:
     return 1.0 / float(np.median(steps)) if steps.size and np.median(steps) > 0 else math.inf
 
 
+def density_words(density: float) -> str:
+    """``"1 point per decade"``, ``"2.5 points per decade"``."""
+    return f"{density:.3g} point{'' if density == 1 else 's'} per decade"
+
+
 def too_sparse(omega: np.ndarray) -> bool:
     """Fewer than :data:`MIN_POINTS_PER_DECADE` points per decade, the median step allowed the edge tolerance.
 
