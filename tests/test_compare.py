@@ -477,3 +477,15 @@ def test_too_little_overlap_is_cannot_tell():
     assert p.same_shape is None
     assert any(n.startswith("cannot tell") for n in p.notes)
     assert json.loads(json.dumps(p.to_dict(), allow_nan=True))["same_shape"] is None
+
+
+def test_an_overlap_short_of_its_threshold_never_reads_as_it():
+    # an overlap of 1.4996 decades and a weight share of 49.96 % were printed "1.50 decades (at least 1.5
+    # needed)" and "50% ... (at least 50%)": refusals that read as passes
+    from tauspec.analysis.comparison.shape import _overlap_check
+
+    w = np.geomspace(1e-2, 1e2, 30)
+    sp = SimpleNamespace(omega=w, tau=np.geomspace(1e-3, 1e3, 61), H=np.ones(61), in_window=np.ones(61, bool))
+    ms = SimpleNamespace(log_a=0.0, decades=1.4996)
+    enough, note, _ = _overlap_check(sp, sp, ms)
+    assert not enough and "1.49 decades" in note and "1.50" not in note

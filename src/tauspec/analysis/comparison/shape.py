@@ -135,8 +135,12 @@ def _overlap_check(sa: Spectrum, sb: Spectrum, ms: ModuliShift | None, min_decad
     nums = {"decades": ms.decades, "weight_a": fa, "weight_b": fb, "min_decades": min_decades,
             "min_weight": min_weight}
     enough = ms.decades >= min_decades - 1e-9 and fa >= min_weight and fb >= min_weight
-    note = (f"overlap after shifting: {ms.decades:.2f} decades of G' and G'' (at least {min_decades:g} needed), "
-            f"{fa:.0%} and {fb:.0%} of each spectrum's weight inside (at least {min_weight:.0%})")
+    # rounded down, so that a value short of its threshold never reads as it (1.4996 decades as "1.50 (at least
+    # 1.5 needed)", 49.96 % as "50% (at least 50%)")
+    shown = math.floor(ms.decades * 100) / 100
+    note = (f"overlap after shifting: {shown:.2f} decades of G' and G'' (at least {min_decades:g} needed), "
+            f"{math.floor(100 * fa)}% and {math.floor(100 * fb)}% of each spectrum's weight inside (at least "
+            f"{min_weight:.0%})")
     return enough, ("" if enough else "cannot tell: " + note), nums
 
 
