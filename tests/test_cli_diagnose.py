@@ -119,3 +119,14 @@ def test_the_verdict_heading_does_not_name_a_signature_the_reason_does_not_give(
 
     d = {"sample": "x", "verdict": "entangled", "reason": "G' stays above G'' with a rising G'' over 1.10 decades"}
     assert diagnosis_text(d)[0].splitlines()[0] == "x: ENTANGLED — entangled chains"
+
+
+def test_a_failed_value_never_reads_as_its_bound():
+    # a reduced χ² ratio of 1.5703 failing the bound 1.57 read "1.57, expected ≤ 1.57" beside a cross
+    from tauspec.output.words import evidence_line
+
+    text, passed = evidence_line({"test": "rouse_fit", "value": 1.5703, "passed": False,
+                                  "expected": "<= 1.57 (F test, 1 %)"})
+    assert passed is False and ": 1.5703, expected ≤ 1.57 (F test, 1 %)" in text
+    text, _ = evidence_line({"test": "mode_exponent", "value": 2.0, "passed": True, "expected": "2 (Rouse)"})
+    assert text.endswith(": 2, expected 2 (Rouse)")  # a passed test equal to its expected value stays short
