@@ -406,3 +406,11 @@ def test_browser_sorts_filters_and_clips_nothing(wide_batch, tmp_path, width):
         assert b.evaluate(f"{ROWS}.filter(r => r.style.display !== 'none').map(r => r.dataset.verdict)") == ["rouse"]
     finally:
         b.close()
+
+
+def test_a_summary_cell_never_shows_an_interval_end_as_the_value():
+    # the same rule as the text (test_an_interval_end_never_reads_as_the_value): "1e3 [995, 1e3]" before
+    from tauspec.output.report_html import _cell
+
+    cell = _cell("G0", 1000.2, (995.3, 1004.9))
+    assert "</span>1000<span" in cell and "[995.3, 1005]" in cell

@@ -25,6 +25,7 @@ from .words import (
     number,
     plain_words,
     quantity,
+    telling_digits,
 )
 from .words import is_finite_number as _finite
 
@@ -153,9 +154,10 @@ def _cell(key: str | None, value: Any, ci: Any = None) -> str:
     if key is None or not _finite(value):
         return '<td class="num" data-sort=""></td>'
     sym = QUANTITIES[key][0] if key in QUANTITIES else key
-    iv = interval(ci)
+    digits = telling_digits(value, ci, 3)
+    iv = interval(ci, digits)
     return (f'<td class="num" data-sort="{float(value)!r}"><span class="sym">{html.escape(sym)}</span>'
-            f'{number(value)}' + (f'<span class="sub">{iv}</span>' if iv else "") + "</td>")
+            f'{number(value, digits)}' + (f'<span class="sub">{iv}</span>' if iv else "") + "</td>")
 
 
 def _third_cell(diag: Mapping[str, Any]) -> str:

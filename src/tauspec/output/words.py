@@ -11,7 +11,8 @@ import re
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-__all__ = ["QUANTITIES", "EVIDENCE_WORDS", "VERDICT_WORDS", "number", "quantity", "interval", "evidence_line",
+__all__ = ["QUANTITIES", "EVIDENCE_WORDS", "VERDICT_WORDS", "number", "quantity", "interval", "telling_digits",
+           "evidence_line",
            "symbol", "unit", "words", "plain_words", "key_numbers", "gel_exponent",
            "is_finite_number", "error_words", "counted"]
 
@@ -157,7 +158,7 @@ def interval(ci: Any, digits: int = 3) -> str:
     return ""
 
 
-def _telling_digits(value: Any, ci: Any, digits: int) -> int:
+def telling_digits(value: Any, ci: Any, digits: int) -> int:
     """The fewest significant digits from ``digits`` (at most 6) at which a value and its interval's ends read apart.
 
     G0 = 1000 Pa with the interval [995, 1004] read "1e3 Pa, 95 % interval [995, 1e3] Pa" at three digits.
@@ -178,7 +179,7 @@ def quantity(key: str, value: Any, ci: Any = None, *, digits: int = 3) -> str:
 
     More digits are shown when three would make an end of the interval read as the value itself.
     """
-    digits = _telling_digits(value, ci, digits)
+    digits = telling_digits(value, ci, digits)
     u = unit(key)
     text = f"{symbol(key)} = {number(value, digits)}"
     if u and number(value) != "–":
