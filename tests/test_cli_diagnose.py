@@ -130,3 +130,11 @@ def test_a_failed_value_never_reads_as_its_bound():
     assert passed is False and ": 1.5703, expected ≤ 1.57 (F test, 1 %)" in text
     text, _ = evidence_line({"test": "mode_exponent", "value": 2.0, "passed": True, "expected": "2 (Rouse)"})
     assert text.endswith(": 2, expected 2 (Rouse)")  # a passed test equal to its expected value stays short
+
+
+def test_a_fractional_chain_length_says_what_it_is():
+    # N = 64.5 is the fit's mixture of the chains of 64 and 65 modes (docs/diagnosis.md); it was printed bare
+    from tauspec.output.words import quantity
+
+    assert quantity("N", 64.5) == "N = 64.5 (a mixture of the chains of 64 and 65 modes)"
+    assert quantity("N", 197.0) == "N = 197"

@@ -187,6 +187,9 @@ def quantity(key: str, value: Any, ci: Any = None, *, digits: int = 3) -> str:
     iv = interval(ci, digits)
     if iv:
         text += f", 95 % interval {iv}" + (f" {u}" if u else "")
+    if key == "N" and is_finite_number(value) and "." in number(value, digits):
+        n = math.floor(float(value))  # the fit's N is continuous: a mixture of the two chains around it
+        text += f" (a mixture of the chains of {n} and {n + 1} modes)"
     return text
 
 
