@@ -161,6 +161,12 @@ def test_an_amplitude_sweep_block_is_left_out_with_its_reason(tmp_path):
     assert rows["amplitude.txt"]["status"] == "error"
     assert (report.ok, report.left_out, report.failed) == (1, 1, 1)
     assert run_batch([both], tmp_path / "out2", settings=SMALL, jobs=1).status == 0
+    # the report lists it apart from the failures, not in their colour
+    from tauspec.output.report import write_report
+
+    page = write_report(out).read_text(encoding="utf-8")
+    assert "1 left out" in page and "Blocks left out (not frequency sweeps)" in page
+    assert page.count('data-status="left-out"') == 1 and page.count('data-status="failed"') == 1
 
 
 def _maxwell_rows(omega):

@@ -154,7 +154,8 @@ def _controls(rows: list[dict[str, str]]) -> str:
         f'<option value="{html.escape(v)}">{html.escape(v)}</option>' for v in verdicts)
     return ('<div class="controls"><label>Verdict <select id="verdict-filter">' + options + "</select></label>"
             '<label>Status <select id="status-filter"><option value="">all files</option>'
-            '<option value="ok">processed</option><option value="failed">failed</option></select></label>'
+            '<option value="ok">processed</option><option value="failed">failed</option>'
+            '<option value="left-out">left out</option></select></label>'
             '<span class="muted">Click a column header to sort; failed files stay last.</span></div>')
 
 

@@ -112,7 +112,7 @@ SCRIPT = """
 #: The columns of the summary table: (header, tooltip).
 HEADERS = (
     ("sample", "sample name, temperature and file"),
-    ("status", "ok, or failed with the reason in the last column"),
+    ("status", "ok, failed, or left out (a block that is not a frequency sweep), with the reason in the last column"),
     ("verdict", "the diagnosis: rouse, zimm, entangled, gel, other or inconclusive"),
     ("time [s]", "τ_R for bead-spring chains, τ_d for entangled samples (see the legend)"),
     ("modulus [Pa]", "G0 for bead-spring chains, G_N⁰ for entangled samples"),
@@ -196,7 +196,7 @@ def row_html(row: Mapping[str, str], result: Mapping[str, Any], href: str) -> st
     link = f'<a href="{html.escape(href)}">{text(name)}</a>' if ok and href else text(name)
     sub = "".join(f'<span class="sub">{text(s)}</span>' for s in (where, row.get("file", "")) if s)
     cells = [f'<td class="sample" data-sort="{html.escape(name.lower())}">{link}{sub}</td>',
-             f'<td><span class="badge{"" if ok else " s-failed"}">{state}</span></td>',
+             f'<td><span class="badge{" s-failed" if state == "failed" else ""}">{state}</span></td>',
              f'<td><span class="badge v-{html.escape(verdict)}">{text(verdict)}</span></td>' if verdict
              else "<td></td>"]
     if diag.get("verdict") in ("rouse", "zimm"):
@@ -222,7 +222,8 @@ def row_html(row: Mapping[str, str], result: Mapping[str, Any], href: str) -> st
     else:
         note = error_words(row.get("error", ""), row.get("file", ""))
     cells.append(f'<td class="notes">{text(note)}</td>')
-    return (f'<tr class="{"ok" if ok else "failed"}" data-status="{"ok" if ok else "failed"}" '
+    kind = state.replace(" ", "-")  # ok, failed, left-out
+    return (f'<tr class="{kind}" data-status="{kind}" '
             f'data-verdict="{html.escape(verdict)}">' + "".join(cells) + "</tr>")
 
 
