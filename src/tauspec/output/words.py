@@ -270,8 +270,12 @@ def key_numbers(diag: Mapping[str, Any]) -> list[tuple[str, Any, Any]]:
 
 
 def error_words(error: str, file: str) -> str:
-    """An error without the file name it starts with (the row names the file): ``line 4: row has ...``."""
-    if file and error.startswith(f"{file}:"):
+    """An error without the file name it starts with (the row names the file): ``line 4: row has ...``.
+
+    The row of one block of a file is named ``file#k``; its error names the file alone.
+    """
+    file = next((f for f in (file, file.partition("#")[0]) if f and error.startswith(f"{f}:")), "")
+    if file:
         rest = error[len(file) + 1:]
         line, sep, reason = rest.partition(": ")
         return f"line {line}: {reason}" if sep and line.isdigit() else rest.strip()
