@@ -27,7 +27,7 @@ from ..errors import TauspecError
 from .report_html import CSS, FIGURE_ORDER, HEADERS, SCRIPT, legend_html, row_html, section_html, symbols_used, text
 from .results import read_result_json, read_run_index, result_folder
 from .text import BIDI_CONTROLS, show_bidi_controls, spreadsheet_value
-from .words import counted
+from .words import counted, error_words
 
 __all__ = ["write_report", "REPORT_NAME", "PAGES_FOLDER", "PAGE_SIZE"]
 
@@ -218,12 +218,11 @@ def write_report(folder: str | os.PathLike[str], *, title: str | None = None, ou
     page_title = html.escape(title or f"tauspec report — {folder.resolve().name}")
     head = "".join(f'<th title="{html.escape(tip)}">{html.escape(label)}</th>' for label, tip in HEADERS)
     fail_html = ""
-    if failed:
-        fail_html = "<h2>Files that failed</h2><ul>" + "".join(
-            f"<li><code>{text(r.get('file', ''))}</code>: {text(r.get('error', ''))}</li>" for r in failed) + "</ul>"
-    if left_out:
-        fail_html += "<h2>Blocks left out (not frequency sweeps)</h2><ul>" + "".join(
-            f"<li><code>{text(r.get('file', ''))}</code>: {text(r.get('error', ''))}</li>" for r in left_out) + "</ul>"
+    for heading, listed in (("Files that failed", failed), ("Blocks left out (not frequency sweeps)", left_out)):
+        if listed:
+            fail_html += f"<h2>{heading}</h2><ul>" + "".join(
+                f"<li><code>{text(r.get('file', ''))}</code>: "
+                f"{text(error_words(r.get('error', ''), r.get('file', '')))}</li>" for r in listed) + "</ul>"
     n_pages = (len(sections) + page_size - 1) // page_size if paged else 0
     if paged:
         samples_html = ("<h2>Samples</h2><p>The " + str(len(sections)) + " samples are on " + str(n_pages)
