@@ -168,7 +168,7 @@ def test_an_amplitude_sweep_block_is_left_out_with_its_reason(tmp_path):
     assert "1 left out" in page and "Blocks left out (not frequency sweeps)" in page
     assert page.count('data-status="left-out"') == 1 and page.count('data-status="failed"') == 1
     assert "line 5: block 1 (lines 3-16): the frequency is 10 rad/s" in page  # the row names the file already
-    assert "program.txt#1</code>: line 5: block 1" in page  # and so does the list below the table
+    assert "program.txt#1</bdi></code>: <bdi>line 5: block 1" in page  # and so does the list below the table
 
 
 def _maxwell_rows(omega):
