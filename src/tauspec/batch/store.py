@@ -16,6 +16,7 @@ from pathlib import Path
 from typing import Any
 
 from ..data.write import atomic_write_bytes, dumps_json
+from ..output.words import LEFT_OUT
 from .inputs import Input
 from .layout import RESULT_NAMES, RUN_FILES, make_folders
 from .settings import BatchSettings
@@ -24,9 +25,6 @@ __all__ = ["SCHEMA", "LEFT_OUT", "RESULT_FILES", "FIGURES", "error_files", "stor
 
 
 SCHEMA = "tauspec.batch/1.1"
-#: The status of a block that is not a frequency sweep (an amplitude, time or temperature sweep in the same export
-#: as frequency sweeps): neither a result nor a failure (statuses: "ok", "error", this)
-LEFT_OUT = "left out"
 
 
 #: Every file the pipeline may write into a result folder (stale ones are removed when a result changes).

@@ -67,14 +67,6 @@ def loglog_slope(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
 EDGE_TOLERANCE = 0.005
 
 
-def lowest_decades(omega: np.ndarray, decades: float) -> np.ndarray:
-    """The points in the lowest ``decades`` of the window (to :data:`EDGE_TOLERANCE`), at least the first three."""
-    sel = omega <= omega[0] * 10 ** (decades + EDGE_TOLERANCE)
-    if np.count_nonzero(sel) < 3:
-        sel = np.arange(len(omega)) < 3
-    return sel
-
-
 def local_lines(omega: np.ndarray, y: np.ndarray, half_width: float = 0.25) -> tuple[np.ndarray, np.ndarray]:
     """Straight lines of ln y against ln ω over ±``half_width`` decades around each point (≥ 3 points).
 
@@ -113,8 +105,13 @@ def local_slopes(omega: np.ndarray, y: np.ndarray, half_width: float = 0.25) -> 
 
 
 def end_slopes(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, decades: float = 0.5) -> tuple[float, float]:
-    """Slopes of ln G' and ln G'' over the lowest ``decades`` of the window (:func:`lowest_decades`)."""
-    sel = lowest_decades(omega, decades)
+    """Slopes of ln G' and ln G'' over the lowest ``decades`` of the window (at least the first three points).
+
+    A point within :data:`EDGE_TOLERANCE` beyond the edge counts as inside.
+    """
+    sel = omega <= omega[0] * 10 ** (decades + EDGE_TOLERANCE)
+    if np.count_nonzero(sel) < 3:
+        sel = np.arange(len(omega)) < 3
     return loglog_slope(omega[sel], storage[sel])[0], loglog_slope(omega[sel], loss[sel])[0]
 
 
@@ -326,8 +323,9 @@ def storage_dominated_rise(omega: np.ndarray, storage: np.ndarray, loss: np.ndar
     last = float(lw[end - 1])
     if end < len(omega):  # the stretch ends between two points: where the first margin reaches zero (linearly)
         a, b = margins[:, end - 1], margins[:, end]
-        fail = b <= 0
-        last += float(np.min(a[fail] / (a[fail] - b[fail]))) * float(lw[end] - lw[end - 1])
+        fail = ~(b > 0)  # NaN included: a slope window with no frequency range ends the stretch at the last point
+        t = np.nan_to_num(a[fail] / (a[fail] - b[fail]), nan=0.0)
+        last += float(t.min()) * float(lw[end] - lw[end - 1])
     return last - math.log10(start)
 
 

@@ -27,7 +27,7 @@ from ..errors import TauspecError
 from .report_html import CSS, FIGURE_ORDER, HEADERS, SCRIPT, legend_html, row_html, section_html, symbols_used, text
 from .results import read_result_json, read_run_index, result_folder
 from .text import BIDI_CONTROLS, show_bidi_controls, spreadsheet_value
-from .words import counted, error_words
+from .words import LEFT_OUT, counted, error_words
 
 __all__ = ["write_report", "REPORT_NAME", "PAGES_FOLDER", "PAGE_SIZE"]
 
@@ -211,10 +211,8 @@ def write_report(folder: str | os.PathLike[str], *, title: str | None = None, ou
     finally:
         if bar is not None:
             bar.close()
-    # statuses: "ok", "error", and "left out" (tauspec.batch.store.LEFT_OUT: a block of an export that is an
-    # amplitude or time sweep beside its frequency sweeps, which is not a failure)
-    failed = [r for r in rows if r.get("status") not in ("ok", "left out")]
-    left_out = [r for r in rows if r.get("status") == "left out"]
+    failed = [r for r in rows if r.get("status") not in ("ok", LEFT_OUT)]  # a left-out block is not a failure
+    left_out = [r for r in rows if r.get("status") == LEFT_OUT]
     page_title = html.escape(title or f"tauspec report — {folder.resolve().name}")
     head = "".join(f'<th title="{html.escape(tip)}">{html.escape(label)}</th>' for label, tip in HEADERS)
     fail_html = ""

@@ -15,6 +15,7 @@ from typing import Any
 
 from .diagnosis_words import entanglement_lines
 from .words import (
+    LEFT_OUT,
     QUANTITIES,
     counted,
     error_words,
@@ -190,7 +191,7 @@ def row_html(row: Mapping[str, str], result: Mapping[str, Any], href: str) -> st
     """One row of the summary table."""
     diag = result.get("diagnosis") or {}
     ok = row.get("status") == "ok"
-    state = "ok" if ok else "left out" if row.get("status") == "left out" else "failed"
+    state = "ok" if ok else LEFT_OUT if row.get("status") == LEFT_OUT else "failed"
     verdict = row.get("verdict", "") or ""
     name, where = label_of(row, result)
     link = f'<a href="{html.escape(href)}">{text(name)}</a>' if ok and href else text(name)

@@ -11,10 +11,15 @@ import re
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-__all__ = ["QUANTITIES", "EVIDENCE_WORDS", "VERDICT_WORDS", "number", "quantity", "interval", "telling_digits",
-           "evidence_line",
+__all__ = ["LEFT_OUT", "QUANTITIES", "EVIDENCE_WORDS", "VERDICT_WORDS", "number", "quantity", "interval",
+           "telling_digits", "evidence_line",
            "symbol", "unit", "words", "plain_words", "key_numbers", "gel_exponent",
            "is_finite_number", "error_words", "counted"]
+
+#: The status of a batch row whose block is not a frequency sweep (an amplitude, time or temperature sweep in
+#: the same export as frequency sweeps): neither a result nor a failure (statuses: "ok", "error", this).  Here,
+#: in the one vocabulary, so that the batch's workers import nothing heavier to write it.
+LEFT_OUT = "left out"
 
 #: JSON key → (symbol, words, unit).  A unit of "" is a pure number.
 QUANTITIES: Mapping[str, tuple[str, str, str]] = {

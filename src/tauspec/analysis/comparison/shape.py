@@ -167,7 +167,7 @@ def _moduli_decision(spectra: tuple[Spectrum, Spectrum], fit: ShiftFit, shifts: 
     if not enough:
         return moduli, None, shifts, [why]
     sparse = min(points_per_decade(sa.omega), points_per_decade(sb.omega))
-    if too_sparse(sa.omega) or too_sparse(sb.omega):  # the noise from the roughness would hold the curves' own bends
+    if too_sparse(sparse):  # the noise from the roughness would hold the curves' own bends
         return moduli, None, shifts, [f"cannot tell: {density_words(sparse)}, fewer than "
                                       f"{MIN_POINTS_PER_DECADE:g}, leave the moduli's scatter unknown"]
     new_shifts = (ms.log_a, ModuliShift.interval(ms.log_a, ms.log_a_se, CI_LEVEL),

@@ -143,7 +143,7 @@ def describability_evidence(omega: np.ndarray, storage: np.ndarray, loss: np.nda
     (then the strength choice, not the data, was at fault, and a note says so).
     """
     density = points_per_decade(omega)
-    if too_sparse(omega):  # the curve's own bends would be taken for scatter: not measured
+    if too_sparse(density):  # the curve's own bends would be taken for scatter: not measured
         noise = math.nan
         scatter_note = (f"not made: {density_words(density)}, fewer than {MIN_POINTS_PER_DECADE:g}, so the "
                         "curve's own bends would be taken for scatter; the scatter is taken as the floor "

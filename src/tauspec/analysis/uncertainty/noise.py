@@ -166,14 +166,14 @@ def density_words(density: float) -> str:
     return f"{density:.3g} point{'' if density == 1 else 's'} per decade"
 
 
-def too_sparse(omega: np.ndarray) -> bool:
-    """Fewer than :data:`MIN_POINTS_PER_DECADE` points per decade, the median step allowed the edge tolerance.
+def too_sparse(density: float) -> bool:
+    """``density`` (:func:`points_per_decade`) is below :data:`MIN_POINTS_PER_DECADE`, to the edge tolerance.
 
     A sweep set to three points per decade and exported to three significant digits has a median step of
     0.3335 decade (2.9987 points per decade): it is not sparser than it was set to be
     (:data:`~tauspec.models.signatures.EDGE_TOLERANCE`).
     """
-    return 1.0 / points_per_decade(omega) > 1.0 / MIN_POINTS_PER_DECADE + EDGE_TOLERANCE
+    return 1.0 / density > 1.0 / MIN_POINTS_PER_DECADE + EDGE_TOLERANCE
 
 
 def roughness_noise(omega: np.ndarray, values: np.ndarray) -> float:
