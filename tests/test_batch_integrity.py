@@ -448,6 +448,39 @@ def test_workers_die_with_a_killed_batch(tmp_path, backend):
             pass
 
 
+_ORPHAN = """
+import os, socket, sys
+from tauspec.batch.settings import BatchSettings
+from tauspec.batch.worker import run_step
+
+def step(*args, **kw):
+    print("ran the step", flush=True)
+    return {}
+
+children = sys.argv[2] == "children"
+run_step(step, "", BatchSettings(), source="a.csv", input_sha256=None,
+         client=(socket.gethostname(), int(sys.argv[1]), children))
+print("returned", flush=True)
+"""
+
+
+@pytest.mark.parametrize("children", [True, False])
+def test_a_task_from_a_dead_client_is_not_run_by_its_orphaned_worker(children):
+    """A pool worker orphaned before its first task ends when that task arrives, without running it.
+
+    The client here is a process that has already exited; the worker is not its child (as after orphaning).
+    Workers that are not the client's own (Dask: ``children`` false) run the task as before.
+    """
+    dead = subprocess.Popen([sys.executable, "-c", "pass"])
+    dead.wait()
+    proc = subprocess.run([sys.executable, "-c", _ORPHAN, str(dead.pid), "children" if children else "cluster"],
+                          env=env(), capture_output=True, text=True, timeout=120)
+    if children:
+        assert proc.returncode == 70 and "ran the step" not in proc.stdout, proc.stdout + proc.stderr
+    else:
+        assert proc.returncode == 0 and "ran the step" in proc.stdout, proc.stdout + proc.stderr
+
+
 def test_temporary_files_of_an_interrupted_write_are_removed(tmp_path):
     arch = tmp_path / "arch"
     sweep_file(arch / "a.csv", 1)

@@ -17,7 +17,7 @@ from ..errors import SettingsError
 from .inputs import Input
 from .settings import BatchSettings
 from .store import error_files
-from .worker import client_identity, run_step
+from .worker import Client, client_identity, run_step
 
 __all__ = ["WORKER_DIED", "Task", "run_tasks"]
 
@@ -51,7 +51,7 @@ def _failed(task: Task, settings: BatchSettings, exc: BaseException) -> dict[str
 
 
 def _arguments(task: Task, step: Callable[..., Any], settings: BatchSettings,
-               client: tuple[str, int]) -> tuple[tuple[Any, ...], dict[str, Any]]:
+               client: Client) -> tuple[tuple[Any, ...], dict[str, Any]]:
     return (step, task.text, settings), {"source": task.inp.file, "input_sha256": task.input_sha, "client": client,
                                          "block": task.inp.block, "separator": task.inp.separator,
                                          "notes": task.notes}
@@ -74,7 +74,7 @@ def _run_loky(tasks: Iterable[Task], finish: Finish, settings: BatchSettings, st
 
     from joblib import Parallel, delayed
 
-    client = client_identity()
+    client = client_identity(children=True)
     queue = iter(tasks)
     pending: dict[str, Task] = {}
     deaths = 0
@@ -135,7 +135,7 @@ def _run_dask(tasks: Iterable[Task], finish: Finish, settings: BatchSettings, st
               jobs: int, scheduler: str | None) -> int:
     from distributed import KilledWorker, as_completed
 
-    identity = client_identity()
+    identity = client_identity(children=False)
     with _dask_client(jobs, scheduler) as client:
         width = 2 * max(jobs, len(client.scheduler_info().get("workers", {}))) + 2
         queue = iter(tasks)

@@ -5,7 +5,9 @@ one job).  It calls the pipeline step and
 
 * starts, once per worker process whose parent is the batch's client, a watchdog thread that ends the process
   (``os._exit``) within a second of the client's death (the parent PID changes when a process is orphaned):
-  a killed batch leaves no worker computing for nobody;
+  a killed batch leaves no worker computing for nobody.  A worker of the client's own pool (loky) that was
+  orphaned before its first task (the client killed while the worker was still starting) ends as soon as that
+  task reaches it, without running it;
 * stops the step after ``settings.time_limit`` seconds: an exception is raised in the step's thread
   (``PyThreadState_SetAsyncExc``), which the step cannot catch as an ordinary error, and the file becomes an
   error row.  Python delivers it between two bytecodes, so a single long call into compiled code finishes first;
@@ -42,9 +44,27 @@ class TimeLimitExceeded(BaseException):  # noqa: N818 - not an error of the data
     """Raised into a step's thread when it runs past the per-file time limit."""
 
 
-def client_identity() -> tuple[str, int]:
-    """(host, PID) of the batch's client, sent with every task."""
-    return socket.gethostname(), os.getpid()
+#: (host, PID of the batch's client, whether the workers are the client's own child processes)
+Client = tuple[str, int, bool]
+
+
+def client_identity(*, children: bool) -> Client:
+    """(host, PID, ``children``) of the batch's client, sent with every task.
+
+    ``children`` is true when the workers are processes the client started itself (the loky pool): such a
+    worker has no reason to outlive the client.  Dask workers are the cluster's (its nanny's children).
+    """
+    return socket.gethostname(), os.getpid(), children
+
+
+def _alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:  # another user's process of that PID: it exists
+        return True
+    return True
 
 
 def _watch(parent: int) -> None:
@@ -58,10 +78,17 @@ def _watch(parent: int) -> None:
 
 
 @functools.cache
-def _watchdog(pid: int, client: tuple[str, int]) -> bool:  # noqa: ARG001 - one per process
-    """Start the watchdog in a worker whose parent is the client (not in the client, not on another machine)."""
-    host, client_pid = client
-    if pid == client_pid or host != socket.gethostname() or os.getppid() != client_pid:
+def _watchdog(pid: int, client: Client) -> bool:  # noqa: ARG001 - one per process
+    """Start the watchdog in a worker whose parent is the client (not in the client, not on another machine).
+
+    A child of the client that is already orphaned when its first task arrives ends at once (exit status 70).
+    """
+    host, client_pid, children = client
+    if pid == client_pid or host != socket.gethostname():
+        return False
+    if os.getppid() != client_pid:
+        if children and not _alive(client_pid):
+            os._exit(70)  # orphaned before its first task: the batch that sent it is gone
         return False
     threading.Thread(target=_watch, args=(client_pid,), name="tauspec-watchdog", daemon=True).start()
     return True
@@ -100,7 +127,7 @@ class _Deadline:
 
 
 def run_step(step: Callable[..., dict[str, Any]], text: str, settings: BatchSettings, *, source: str,
-             input_sha256: str | None, client: tuple[str, int], **options: Any) -> dict[str, Any]:
+             input_sha256: str | None, client: Client, **options: Any) -> dict[str, Any]:
     """Run ``step(text, settings, source=..., input_sha256=..., **options)`` under the watchdog and time limit.
 
     Returns the step's result, or for a step stopped at the limit an error result saying so (not retried
