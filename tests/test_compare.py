@@ -15,6 +15,7 @@ from tauspec.analysis.comparison.series import (
     characteristic_time,
     fit_power_law,
     series_scaling,
+    window_cut,
 )
 from tauspec.analysis.comparison.shape import rouse_ratios
 from tauspec.analysis.comparison.shift import fit_shift
@@ -278,6 +279,50 @@ def test_characteristic_time_and_modulus_match_the_discrete_sums(series):
         g, t = g[m], t[m]
         assert characteristic_time(sp) == pytest.approx(np.sum(g * t**2) / np.sum(g * t), rel=0.03)
         assert characteristic_modulus(sp) == pytest.approx(np.sum(g * t) ** 2 / np.sum(g * t**2), rel=0.03)
+
+
+def test_series_of_window_moments_says_when_the_window_cuts_the_spectra(series):
+    # The fast modes of the short chains lie beyond ω_max (τ_N ω_max ≈ 1 for M = 10), so τ_w and G_w over the
+    # window miss part of Σ g τ: the exponent of the complete spectra's τ_w (discrete sums over every mode,
+    # Ferry 1980, ch. 3) lies outside the window fit's interval, and the fit must say that its interval does not
+    # test the expected values.
+    Ms, spectra, truth = series
+    out = series_scaling(spectra, list(Ms), [1.0] * len(Ms))
+    complete = [float(np.sum(g * t**2) / np.sum(g * t)) for g, t in truth]
+    x_complete = np.polyfit(np.log(Ms), np.log(complete), 1)[0]
+    lo, hi = out["time"].intervals["M"]
+    assert not lo <= x_complete <= hi
+    caveat = out["time"].caveat
+    assert caveat.startswith("the spectra of M10 (short end, ") and "does not test the expected values" in caveat
+    assert "M100" not in caveat  # the longest chains' fast modes lie inside the window
+    assert "caveat: the spectra of M10" in out["time"].report()
+    assert out["modulus"].caveat == caveat
+
+
+def test_window_cut_measures_what_a_rouse_tail_loses():
+    # H = τ^(−1/2) (the Rouse law, Ferry 1980, ch. 9) for τ ≤ 1 s, on a window starting at τ0 = 0.01 s: in closed
+    # form ∫ H τ d ln τ is 2(1 − τ0^(1/2)) = 1.8 inside the window, 2 τ0^(1/2) = 0.2 below it (what τ_w and G_w
+    # miss), and 2(10^(−0.75) − τ0^(1/2)) = 0.156 in the window's shortest half decade: a share of 0.0865.
+    tau = log_grid(1e-4, 1e2, 241)
+    H = np.where(tau <= 1.0, tau**-0.5, 0.0)
+    sp = SimpleNamespace(tau=tau, H=H, in_window=tau >= 1e-2 * (1 - 1e-12))
+    short, long = window_cut(sp)
+    assert short == pytest.approx(2 * (10**-0.75 - 0.1) / 1.8, rel=0.03)
+    assert long == 0.0  # H ends (falls to 0) before the window's long end
+
+
+def test_series_of_complete_spectra_has_no_window_caveat():
+    # Log-normal spectra (σ = 0.6) well inside a window of six decades: τ_w and G_w are the whole spectrum's
+    # (τ_w = τ_m e^(3σ²/2) for a log-normal H), and the fit carries no caveat.
+    w = np.geomspace(1e-3, 1e3, 50)
+    Ms = [10.0, 20.0, 40.0]
+    spectra = [invert(noisy_sweep(w, *lognormal_moduli(w, 1e4, (M / 20) ** 3.4, 0.6), 0.01, i,
+                                  name=f"L{M:.0f}")) for i, M in enumerate(Ms)]
+    assert all(max(window_cut(s)) <= 0.05 for s in spectra)
+    out = series_scaling(spectra, Ms, [1.0] * 3)
+    assert out["time"].caveat == "" and out["modulus"].caveat == ""
+    assert "caveat" not in out["time"].report()
+    assert out["time"].exponents["M"] == pytest.approx(3.4, abs=0.1)
 
 
 def test_series_uses_the_rouse_diagnosis_when_present(series):

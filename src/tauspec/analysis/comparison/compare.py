@@ -224,7 +224,7 @@ def compare(
         pairs.append(pc)
     ranking = tuple(sorted(range(len(pairs)), key=lambda k: (not math.isfinite(pairs[k].shape_distance),
                                                              pairs[k].shape_distance)))
-    series = series_scaling(spectra, M, c, diagnoses=diagnoses)
+    series = series_scaling(spectra, M, c, diagnoses=diagnoses, labels=names)
     samples = []
     for k, (s, u) in enumerate(zip(spectra, unc)):
         d = diagnoses[k] if diagnoses is not None else None
