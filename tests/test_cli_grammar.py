@@ -129,7 +129,7 @@ def test_units_on_every_printed_interval(sweep_file, capsys):
     assert len(intervals) >= 4
     for ln in intervals:
         name = ln.split("=")[0].strip()
-        unit = re.search(r"= \S+ (\S+), \d+ % interval \[[^\]]+\]( \S+)?$", ln)
+        unit = re.search(r"= \S+ (\S+), \d+ % interval \[[^\]]+\]( [^*\s]+)?( \*)?$", ln)  # * : window flag
         assert unit, ln
         assert unit.group(2) == f" {unit.group(1)}", ln  # the same unit on the value and on the interval
         assert name in ("η_s", "G_e", "η0", "J_e⁰", "τ_n", "τ_w", "τ_longest"), name

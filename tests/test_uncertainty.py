@@ -257,6 +257,29 @@ def test_cli_invert_bands(tmp_path, capsys):
     assert len(err) == 1 and "nowhere" in err[0]
 
 
+def test_cli_bands_mark_intervals_of_numbers_the_window_does_not_hold(tmp_path, capsys):
+    # A log-normal spectrum with σ = 2 (G_t = 10⁴ Pa, τ_m = 1 s) seen over 0.01–100 rad/s: most of τ_w =
+    # τ_m e^(3σ²/2) = 403 s (the log-normal's moments, docs/references.md) lies beyond the supported window, and
+    # resampling the noise does not move that part: the interval says nothing about it (on one noise draw it was
+    # [60.7, 239] s, missing 403 s), so it must be marked; η_s's interval is not.
+    from tauspec.cli.main import main
+
+    w = np.geomspace(0.01, 100, 41)
+    tau = np.geomspace(1e-12, 1e12, 4001)
+    sw = noisy_sweep(w, *spectrum_moduli(w, tau, lognormal_H(tau, 1e4, 1.0, 2.0)), 0.01, 5)
+    f = tmp_path / "broad.csv"
+    rows = "\n".join(f"{a:.17g},{b:.17g},{c:.17g}" for a, b, c in zip(sw.omega, sw.storage, sw.loss))
+    f.write_text(f"omega [rad/s],G' [Pa],G'' [Pa]\n{rows}\n")
+    for extra in ([], ["--no-modes"]):
+        assert main(["invert", str(f), "--bands", "--resamples", "20", "--seed", "1", *extra]) == 0
+        out = capsys.readouterr().out
+        tau_w = next(line for line in out.splitlines() if line.strip().startswith("τ_w =") and "interval" in line)
+        assert tau_w.endswith(" *")
+        eta_s = next(line for line in out.splitlines() if line.strip().startswith("η_s =") and "interval" in line)
+        assert not eta_s.endswith("*")
+        assert "the interval covers the noise only" in out
+
+
 # ----------------------------------------------------------------------------------------- bead-spring statistics
 @pytest.mark.slow
 def test_rouse_time_interval_covers_truth():

@@ -78,19 +78,25 @@ def run(args: argparse.Namespace) -> int:
         result = spectrum.to_dict()
         text, caveats = spectrum_text(spectrum)
         modes = None
+        derived: tuple = ()
         if getattr(args, "modes", True):
             from ..modes.derived import derive
 
             modes = fit_modes_for(sweep, spectrum, args)
             result.update(modes_entries(modes, spectrum))
-            for part in (modes_text(modes), derived_text(derive(modes), derive(spectrum))):
+            derived = (derive(modes), derive(spectrum))
+            for part in (modes_text(modes), derived_text(*derived)):
                 text += "\n" + part[0]
                 caveats += part[1]
         bands = None
         if band_options is not None:
             bands = run_bands(spectrum, band_options, args)
             result.update(band_fields(bands))
-            part = bands_text(bands)
+            if not derived:
+                from ..modes.derived import derive
+
+                derived = (derive(spectrum),)
+            part = bands_text(bands, derived)
             text += "\n" + part[0]
             caveats += part[1]
         out = output_dir_for(args, path)

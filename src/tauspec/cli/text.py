@@ -77,18 +77,31 @@ _STATISTIC_UNITS = {"eta_s": "eta_s", "G_e": "G_e", "eta0": "eta0", "Je0": "Je0"
                     "tau_longest": "tau_longest", "n_modes": "n_modes", "tau_R": "tau_R", "G0": "G0", "a": "a"}
 
 
-def bands_text(bands: Any) -> tuple[str, list[str]]:
-    """The confidence band in one line and every interval with its unit."""
+def bands_text(bands: Any, derived: Any = ()) -> tuple[str, list[str]]:
+    """The confidence band in one line and every interval with its unit.
+
+    ``derived`` (the :class:`~tauspec.modes.derived.Derived` of the modes and of the spectrum) marks the
+    intervals of numbers flagged there: resampling the noise does not move what lies outside the supported
+    window, so such an interval is as narrow as the others and says nothing about that part.
+    """
     n = bands.noise
+    flags = {d.basis: d.flags for d in derived}
     lines = [f"  {100 * bands.level:g} % confidence band of H(τ): {bands.n_resamples} resamples; noise G′ "
              f"{100 * n.storage:.1f} %, G″ {100 * n.loss:.1f} % ({'given' if n.given else 'from the residuals'})"]
+    marked = False
     for name, iv in bands.intervals.items():
         base = name[len("modes_"):] if name.startswith("modes_") else name
         key = _STATISTIC_UNITS.get(base, base)
         text = quantity(key, iv.estimate, (iv.lo, iv.hi))
         if base != name:
             text = "from the modes: " + text
-        lines.append(f"    {text.replace('95 % interval', f'{100 * iv.level:g} % interval')}")
+        flagged = bool(flags.get("modes" if base != name else "spectrum", {}).get(base))
+        marked |= flagged
+        text = text.replace("95 % interval", f"{100 * iv.level:g} % interval")
+        lines.append(f"    {text}" + (" *" if flagged else ""))
+    if marked:
+        lines.append("    * leans on relaxation times outside the supported window: the interval covers the noise "
+                     "only, not those times")
     caveats = []
     if bands.n_failed:
         caveats.append(f"{bands.n_failed} of {bands.n_resamples} resamples failed and were left out of the band")
