@@ -124,8 +124,8 @@ def curve_text(curve: Any, *, table: bool) -> tuple[str, list[str]]:
             y_text = number(y, 4) if math.isfinite(float(y)) else "–"
             lines.append(f"    {number(x, 4):>24}  {y_text:>36}" + ("  *" if f else ""))
         if n:
-            lines.append("    * an extrapolation: beyond the measured range, or over 5 % from outside the supported "
-                         "window")
+            lines.append("    * an extrapolation: beyond the measured range, or (in time) over 5 % from outside the "
+                         "supported window")
     return "\n".join(lines), caveats
 
 

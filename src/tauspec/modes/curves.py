@@ -19,6 +19,9 @@ __all__ = ["Curve", "relaxation_modulus", "creep_compliance", "complex_viscosity
 
 # --------------------------------------------------------------------------- curves
 
+#: Curves in the frequency domain: inside the measured range they re-express the fitted moduli.
+_FREQUENCY_DOMAIN = ("complex_viscosity", "viscosity")
+
 
 @record
 class Curve:
@@ -57,12 +60,25 @@ class Curve:
         return (self.x < lo * (1 - 1e-9)) | (self.x > hi * (1 + 1e-9))
 
     @property
-    def flags(self) -> np.ndarray:
-        """True where the curve is an extrapolation (beyond the measured range, or over 5 % from outside the window).
+    def measured_moduli(self) -> np.ndarray:
+        """True where the point only re-expresses the fitted moduli: a frequency or shear rate inside ``measured``.
 
-        More than 5 % of the value comes from outside the supported window, or the point lies beyond ``measured``.
+        There |η*| = |G*|/ω is fixed by the data (to the fit's residual) whichever modes carry it, so the share
+        of modes outside the supported window does not make it an extrapolation; in time (G(t), J(t)) it does.
         """
-        return (self.outside_share > FLAG_SHARE) | self.beyond
+        if self.quantity not in _FREQUENCY_DOMAIN or self.measured is None:
+            return np.zeros(self.x.shape, dtype=bool)
+        return ~self.beyond
+
+    @property
+    def leaning(self) -> np.ndarray:
+        """True where over 5 % of the value comes from outside the supported window and the data do not fix it."""
+        return (self.outside_share > FLAG_SHARE) & ~self.measured_moduli
+
+    @property
+    def flags(self) -> np.ndarray:
+        """True where the curve is an extrapolation: beyond the measured range, or :attr:`leaning`."""
+        return self.leaning | self.beyond
 
     def _json_out(self, d: dict[str, Any]) -> dict[str, Any]:
         d = insert_after(d, "outside_share", "beyond_measured", self.beyond.tolist())
@@ -87,7 +103,7 @@ class Curve:
             out.append(f"{far.sum()} of {self.x.size} points ({self.x_name} {number(xs.min())}–{number(xs.max())} "
                        f"{self.x_unit}) lie beyond the measured range {number(lo)}–{number(hi)} {self.x_unit}: "
                        "there the curve is an extrapolation")
-        leaning = (self.outside_share > FLAG_SHARE) & ~far
+        leaning = self.leaning & ~far
         if leaning.any():
             xs = self.x[leaning]
             out.append(f"{leaning.sum()} of {self.x.size} points ({self.x_name} {number(xs.min())}–"
@@ -99,8 +115,9 @@ class Curve:
         """Return a short description in words, including where the curve is an extrapolation."""
         lines = [f"{self.y_name} from {self.basis}: {self.x.size} points, {self.x_name} "
                  f"{self.x.min():.4g} to {self.x.max():.4g} {self.x_unit}; {self.method}"]
-        lines += self.caveats() or ["every point lies in the measured range and takes at least 95 % of its value "
-                                    "from the supported window"]
+        fixed = ("is fixed by the measured moduli" if self.measured_moduli.any() else
+                 "takes at least 95 % of its value from the supported window")
+        lines += self.caveats() or [f"every point lies in the measured range and {fixed}"]
         return "\n".join(lines)
 
 
