@@ -130,6 +130,11 @@ def test_a_failed_value_never_reads_as_its_bound():
     assert passed is False and ": 1.5703, expected ≤ 1.57 (F test, 1 %)" in text
     text, _ = evidence_line({"test": "mode_exponent", "value": 2.0, "passed": True, "expected": "2 (Rouse)"})
     assert text.endswith(": 2, expected 2 (Rouse)")  # a passed test equal to its expected value stays short
+    # a plateau of exactly one decade (the test's bound) read "1 decades, expected < 1 decade"
+    text, _ = evidence_line({"test": "plateau", "value": 1.0, "passed": False, "expected": "< 1 decade"})
+    assert text == "extent of a rubbery plateau: 1 decade, expected < 1 decade"
+    text, _ = evidence_line({"test": "plateau", "value": 1.5, "passed": False, "expected": "< 1 decade"})
+    assert text == "extent of a rubbery plateau: 1.5 decades, expected < 1 decade"
 
 
 def test_a_fractional_chain_length_says_what_it_is():

@@ -213,6 +213,8 @@ def _value_words(value: Any, unit_text: str, bounds: str = "") -> str:
         while digits < 6 and text.lstrip("-") in others:
             digits += 1
             text = number(value, digits)
+    if text == "1" and unit_text == "decades":
+        unit_text = "decade"
     return f"{text} {unit_text}" if unit_text and text != "–" else text
 
 
