@@ -534,3 +534,12 @@ def test_an_overlap_short_of_its_threshold_never_reads_as_it():
     ms = SimpleNamespace(log_a=0.0, decades=1.4996)
     enough, note, _ = _overlap_check(sp, sp, ms)
     assert not enough and "1.49 decades" in note and "1.50" not in note
+
+
+def test_a_shift_and_its_interval_end_read_apart():
+    # two replicates gave "a = 1 [0.9998, 1]": the value read as its interval's upper end at four digits
+    from tauspec.analysis.comparison.compare import _value_ci
+
+    assert _value_ci(1.00001, (0.99982, 1.00021)) == "1 [0.99982, 1.0002]"
+    assert _value_ci(3.656, (3.623, 3.689)) == "3.656 [3.623, 3.689]"
+    assert _value_ci(59.52, (math.nan, math.nan)) == "59.52 [n/a, n/a]"

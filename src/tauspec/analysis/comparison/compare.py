@@ -40,6 +40,7 @@ import numpy as np
 from ...data.record import field, record, resolve_options
 from ...data.sweep import Sweep
 from ...errors import SettingsError
+from ...rounding import telling_digits
 from ...spectrum.invert import invert
 from ...spectrum.options import InvertOptions
 from ...spectrum.result import Spectrum
@@ -102,13 +103,13 @@ class Comparison:
             moduli_p = (p.moduli or {}).get("p_value") if p.same_shape is not None else None
             decided = f", p = {_g(moduli_p)} (moduli, deciding)" if moduli_p is not None else ""
             lines.append(
-                f"  {p.b} vs {p.a}: a = {_g(p.time_shift)} [{_g(p.time_shift_ci[0])}, {_g(p.time_shift_ci[1])}], "
-                f"b = {_g(p.modulus_shift)} [{_g(p.modulus_shift_ci[0])}, {_g(p.modulus_shift_ci[1])}], "
+                f"  {p.b} vs {p.a}: a = {_value_ci(p.time_shift, p.time_shift_ci)}, "
+                f"b = {_value_ci(p.modulus_shift, p.modulus_shift_ci)}, "
                 f"D² = {_g(p.shape_distance)}, p = {_g(p.p_value)} (spectra){decided}: {verdict}")
             if p.rouse:
                 r = p.rouse
-                lines.append(f"    Rouse: τ_R ratio {_g(r['tau_R_ratio'])} {_ci(r['tau_R_ratio_ci'])}, "
-                             f"G0 ratio {_g(r['G0_ratio'])} {_ci(r['G0_ratio_ci'])}")
+                lines.append(f"    Rouse: τ_R ratio {_value_ci(r['tau_R_ratio'], r['tau_R_ratio_ci'])}, "
+                             f"G0 ratio {_value_ci(r['G0_ratio'], r['G0_ratio_ci'])}")
             lines += [f"    note: {n}" for n in p.notes]
         for fit in self.series.values():
             lines.append(fit.report())
@@ -116,12 +117,18 @@ class Comparison:
         return "\n".join(lines)
 
 
-def _g(v: Any) -> str:
-    return "n/a" if v is None or not math.isfinite(float(v)) else f"{float(v):.4g}"
+def _g(v: Any, digits: int = 4) -> str:
+    return "n/a" if v is None or not math.isfinite(float(v)) else f"{float(v):.{digits}g}"
 
 
-def _ci(ci: Sequence[float]) -> str:
-    return f"[{_g(ci[0])}, {_g(ci[1])}]"
+def _value_ci(v: Any, ci: Sequence[float]) -> str:
+    """A value and its interval, ``1 [0.9998, 1.0002]``.
+
+    Four significant figures, more where an end would read as the value (the rule of the other texts,
+    :func:`tauspec.rounding.telling_digits`).
+    """
+    d = telling_digits(v, ci, 4)
+    return f"{_g(v, d)} [{_g(ci[0], d)}, {_g(ci[1], d)}]"
 
 
 # ----------------------------------------------------------------------------------------- compare
