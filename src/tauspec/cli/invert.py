@@ -77,11 +77,11 @@ def run(args: argparse.Namespace) -> int:
         spectrum = invert(sweep, options)  # (the ω range of the options applies to the modes too)
         result = spectrum.to_dict()
         text, caveats = spectrum_text(spectrum)
+        from ..modes.derived import derive
+
         modes = None
         derived: tuple = ()
         if getattr(args, "modes", True):
-            from ..modes.derived import derive
-
             modes = fit_modes_for(sweep, spectrum, args)
             result.update(modes_entries(modes, spectrum))
             derived = (derive(modes), derive(spectrum))
@@ -92,11 +92,7 @@ def run(args: argparse.Namespace) -> int:
         if band_options is not None:
             bands = run_bands(spectrum, band_options, args)
             result.update(band_fields(bands))
-            if not derived:
-                from ..modes.derived import derive
-
-                derived = (derive(spectrum),)
-            part = bands_text(bands, derived)
+            part = bands_text(bands, derived or (derive(spectrum),))
             text += "\n" + part[0]
             caveats += part[1]
         out = output_dir_for(args, path)
