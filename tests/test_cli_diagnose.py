@@ -143,3 +143,24 @@ def test_a_fractional_chain_length_says_what_it_is():
 
     assert quantity("N", 64.5) == "N = 64.5 (a mixture of the chains of 64 and 65 modes)"
     assert quantity("N", 197.0) == "N = 197"
+
+
+def test_a_gel_by_its_equilibrium_modulus_gets_no_gel_exponent():
+    # A solid of two Maxwell modes and G_e = 500 Pa (Ferry 1980, ch. 3) is a gel by its equilibrium modulus; the
+    # critical-gel test finds no power law G' ∝ G'' ∝ ω^n (Winter & Chambon 1986) there, and the slope of its
+    # straight line was printed as "n = 0.341".  A critical gel keeps its n.
+    import numpy as np
+
+    from synthetic import noisy_sweep
+    from tauspec.analysis.diagnosis.diagnose import diagnose
+    from tauspec.cli.text import diagnosis_text
+    from tauspec.spectrum.kernels import modes_moduli
+
+    w = np.geomspace(0.01, 100, 41)
+    solid = diagnose(noisy_sweep(w, *modes_moduli(w, [1e4, 3e3], [1.0, 0.05], G_e=500.0), 0.01, 11), intervals=False)
+    assert solid.verdict == "gel" and "equilibrium modulus" in solid.reason
+    assert not any(line.strip().startswith("n =") for line in diagnosis_text(solid)[0].splitlines())
+    gel = diagnose(gel_sweep(3, 0.5)[0], intervals=False)
+    assert gel.verdict == "gel"
+    (line,) = [ln for ln in diagnosis_text(gel)[0].splitlines() if ln.strip().startswith("n =")]
+    assert float(line.split("=")[1].split(",")[0]) == pytest.approx(0.5, abs=0.05)

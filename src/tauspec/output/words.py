@@ -196,12 +196,16 @@ def evidence_line(e: Mapping[str, Any]) -> tuple[str, bool | None]:
 
 
 def gel_exponent(diag: Mapping[str, Any]) -> Any:
-    """The gel exponent n of a diagnosis: its own key ``n``, else the value of the critical-gel test."""
+    """The gel exponent n of a diagnosis: its own key ``n``, else the value of the critical-gel test.
+
+    The test's value is an exponent only where the test found one power law G′ ∝ G″ ∝ ω^n (it then fails: it
+    expects none); a gel reached by an equilibrium modulus has no such law, and its straight-line slope is no n.
+    """
     if diag.get("n") is not None:
         return diag.get("n")
     for e in diag.get("evidence") or []:
         if isinstance(e, Mapping) and e.get("test") == "critical_gel_power_law":
-            return e.get("value")
+            return e.get("value") if e.get("passed") is False else None
     return None
 
 
