@@ -75,7 +75,7 @@ def test_diagnose_text_shows_the_entangled_melt_numbers(tmp_path, capsys):
     assert main(["diagnose", str(a), "--no-spectrum"]) == 0
     text = capsys.readouterr().out
     assert "ENTANGLED" in text
-    for word in ("G_N⁰ = ", "τ_d = ", "M_e = ", "Z = M/M_e", "BSW fit"):  # in words, with units
+    for word in ("G_N⁰ = ", "τ_d = ", "M_e = ", "g/mol, 95 % interval [", "Z = ", "BSW fit"):  # words, units
         assert word in text, word
     assert main(["diagnose", str(a), "--no-spectrum", "--json"]) == 0
     obj = json.loads(capsys.readouterr().out)

@@ -145,7 +145,7 @@ def test_the_quick_estimators_are_reported_beside_the_headline(melts):
     methods = {x.method for x in d.entanglement.estimates}
     assert {"bsw_fit", "tan_delta_minimum"} <= methods
     obj = json.loads(dumps_json(d.to_dict()))
-    for key in ("GN0", "GN0_ci", "GN0_method", "tau_d", "tau_d_ci", "Me", "Z"):
+    for key in ("GN0", "GN0_ci", "GN0_method", "tau_d", "tau_d_ci", "Me", "Z", "Me_ci", "Z_ci"):
         assert key in obj
     assert obj["GN0_method"] == "bsw_fit" and obj["GN0_ci"][0] < obj["GN0"] < obj["GN0_ci"][1]
     assert any("disagree" in n for n in d.entanglement.notes)  # the tan δ minimum is 20-30 % low here
@@ -173,6 +173,13 @@ def test_me_and_z_from_the_metadata():
     assert e.Me == pytest.approx(780.0 * GAS_CONSTANT * 423.15 / e.GN0 * 1000, rel=1e-9)
     assert e.Z == pytest.approx(1e5 / e.Me, rel=1e-9)
     assert "M_e" in d.report()
+    # the G_N⁰ interval carried through M_e = ρRT/G_N⁰ and Z = M/M_e (Ferry 1980, ch. 13): ends map to ends
+    lo, hi = e.GN0_ci
+    rho_RT = 780.0 * GAS_CONSTANT * 423.15 * 1000  # g/mol · Pa
+    assert e.Me_ci == pytest.approx((rho_RT / hi, rho_RT / lo), rel=1e-9)
+    assert e.Z_ci == pytest.approx((1e5 / e.Me_ci[1], 1e5 / e.Me_ci[0]), rel=1e-9)
+    obj = json.loads(dumps_json(d.to_dict()))
+    assert obj["Me_ci"] == pytest.approx(list(e.Me_ci)) and obj["Z_ci"] == pytest.approx(list(e.Z_ci))
 
 
 def test_a_broad_branched_ldpe_melt_is_entangled():

@@ -57,9 +57,10 @@ def entanglement_lines(diag: Mapping[str, Any]) -> list[str]:
                                                f"{_estimator(x.get('method'))}" for x in others))
     if e.get("tau_d_method"):
         lines.append(f"τ_d: {plain_words(e['tau_d_method'])}")
-    if is_finite_number(diag.get("Z")) and is_finite_number(diag.get("Me")):
-        lines.append(f"Z = M/M_e = {float(diag['Z']):.3g}" + (f" (M_e {e['Me_convention']})" if e.get("Me_convention")
-                                                              else ""))
+    if is_finite_number(diag.get("Me")) and e.get("Me_convention"):
+        convention = str(e["Me_convention"]).removeprefix("M_e = ")
+        lines.append(f"M_e = {plain_words(convention)}; its interval is G_N⁰'s, with the density, temperature and "
+                     "molecular weight taken as exact")
     elif not is_finite_number(diag.get("Me")) and is_finite_number(diag.get("GN0")):
         lines.append("M_e: needs the density and the temperature in the sweep's metadata")
     return lines

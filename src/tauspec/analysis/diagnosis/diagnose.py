@@ -37,7 +37,7 @@ from ...models.chains import FORM_NAMES
 from ...models.intervals import add_intervals, jacobian_intervals
 from ...spectrum.threads import limited
 from .describe import describability_evidence
-from .entanglement import Entanglement, analyse_entanglement, bsw_estimate
+from .entanglement import Entanglement, analyse_entanglement, bsw_estimate, mass_intervals
 from .evidence import Evidence, _fmt_value, _g, _gather, best_model, entanglement_evidence
 from .options import DiagnoseOptions
 from .verdict import _STATEMENTS, decide
@@ -45,7 +45,7 @@ from .verdict import _STATEMENTS, decide
 __all__ = ["Diagnosis", "diagnose", "rouse_form_preference"]
 
 #: The entangled-melt keys of the JSON form (issue 16), derived from ``Diagnosis.entanglement``.
-_FLAT = ("GN0", "GN0_ci", "GN0_method", "tau_d", "tau_d_ci", "Me", "Z")
+_FLAT = ("GN0", "GN0_ci", "GN0_method", "tau_d", "tau_d_ci", "Me", "Z", "Me_ci", "Z_ci")
 
 
 @record(schema="tauspec.diagnosis/1")
@@ -60,8 +60,8 @@ class Diagnosis:
     ``rouse_form`` is the Rouse form the data prefer ("discrete" or "continuum") and ``rouse_form_delta_bic``
     by how much.  For an entangled sample ``entanglement`` holds the plateau modulus G_N⁰ (several estimators),
     the terminal time τ_d, M_e and Z; the JSON form also carries them flat (``GN0``, ``GN0_ci``, ``GN0_method``,
-    ``tau_d``, ``tau_d_ci``, ``Me``, ``Z``; null for other verdicts).  ``noise`` is the relative noise of the
-    data from their own roughness.
+    ``tau_d``, ``tau_d_ci``, ``Me``, ``Z``, ``Me_ci``, ``Z_ci``; null for other verdicts).  ``noise`` is the
+    relative noise of the data from their own roughness.
     """
 
     sample: str
@@ -119,7 +119,7 @@ class Diagnosis:
         if e is None:
             return {k: None for k in _FLAT}
         return {"GN0": e.GN0, "GN0_ci": list(e.GN0_ci), "GN0_method": e.GN0_method or None, "tau_d": e.tau_d,
-                "tau_d_ci": list(e.tau_d_ci), "Me": e.Me, "Z": e.Z}
+                "tau_d_ci": list(e.tau_d_ci), "Me": e.Me, "Z": e.Z, "Me_ci": list(e.Me_ci), "Z_ci": list(e.Z_ci)}
 
     @classmethod
     def _json_in(cls, d: dict[str, Any]) -> dict[str, Any]:
@@ -176,8 +176,8 @@ def _entanglement_lines(e: Entanglement) -> list[str]:
             lines.append(f"          also {x.method}: {_g(x.value)} Pa  {_ci_text(x.ci)}  ({x.source})")
     lines.append(f"  tau_d = {_g(e.tau_d)} s  {_ci_text(e.tau_d_ci)}  ({e.tau_d_method})")
     if math.isfinite(e.Me):
-        lines.append(f"  M_e   = {_g(e.Me)} g/mol  ({e.Me_convention})" +
-                     (f";  Z = M/M_e = {e.Z:.3g}" if math.isfinite(e.Z) else ""))
+        lines.append(f"  M_e   = {_g(e.Me)} g/mol  {_ci_text(e.Me_ci)}  ({e.Me_convention})" +
+                     (f";  Z = M/M_e = {e.Z:.3g}  {_ci_text(e.Z_ci)}" if math.isfinite(e.Z) else ""))
     else:
         lines.append("  M_e   = n/a (" + ("needs density and temperature in the metadata)" if math.isfinite(e.GN0)
                                          else "no plateau modulus)"))
@@ -328,12 +328,16 @@ _REACHED_CHAINS = ("a Rouse chain", "a Zimm chain", "neither the Rouse", "G' > G
 
 
 def _checked_entanglement(ent: Entanglement) -> tuple[Entanglement, list[str]]:
-    """The entanglement result with zero-width intervals withheld (and parameters at a bound flagged)."""
+    """The entanglement result with zero-width intervals withheld (and parameters at a bound flagged).
+
+    M_e's and Z's intervals follow from the G_N⁰ interval that is kept.
+    """
     bound = ent.bsw.at_bound if ent.bsw is not None and ent.GN0_method == "bsw_fit" else ()
     g_ci, n1 = checked_interval("G_N0", ent.GN0, ent.GN0_ci, "G_N" if "G_N" in bound else "")
     t_ci, n2 = checked_interval("tau_d", ent.tau_d, ent.tau_d_ci, "tau_max" if "tau_max" in bound else "")
     est = tuple(dataclasses.replace(e, ci=checked_interval(e.method, e.value, e.ci)[0]) for e in ent.estimates)
-    return dataclasses.replace(ent, GN0_ci=g_ci, tau_d_ci=t_ci, estimates=est), [n for n in (n1, n2) if n]
+    return mass_intervals(dataclasses.replace(ent, GN0_ci=g_ci, tau_d_ci=t_ci, estimates=est)), [n for n in (n1, n2)
+                                                                                               if n]
 
 
 def _recover_spectrum(sweep: Sweep, spectrum: Any, use_spectrum: bool) -> tuple[Any, str]:

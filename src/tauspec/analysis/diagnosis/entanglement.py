@@ -40,6 +40,7 @@ J. Rheol. 47, 809 (M_e with the 4/5 factor; from memory).
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable, Mapping
 from typing import Any
@@ -53,8 +54,8 @@ from ...models.signatures import SHAPE_SMOOTH, end_slopes, entangled_spectrum_sh
 from ...spectrum.kernels import quadrature_weights
 
 __all__ = ["Estimate", "Entanglement", "analyse_entanglement", "bsw_estimate", "describes", "tan_delta_minimum",
-           "loss_peak_integral",
-           "spectrum_integral", "entanglement_mass", "GAS_CONSTANT", "BOOTSTRAP"]
+           "loss_peak_integral", "spectrum_integral", "entanglement_mass", "mass_intervals", "GAS_CONSTANT",
+           "BOOTSTRAP"]
 
 #: Molar gas constant, J/(mol K) (CODATA 2018, exact since the 2019 SI).
 GAS_CONSTANT = 8.314462618
@@ -76,7 +77,11 @@ class Estimate:
 
 @record
 class Entanglement:
-    """The entanglement analysis of one sweep (all SI except ``Me`` in g/mol)."""
+    """The entanglement analysis of one sweep (all SI except ``Me`` in g/mol).
+
+    ``Me_ci`` and ``Z_ci`` carry the interval of G_N⁰ through M_e = ρRT/G_N⁰ and Z = M/M_e (a monotone map:
+    the same level), with ρ, T and M taken as exact (:func:`mass_intervals`).
+    """
 
     GN0: float
     GN0_ci: tuple[float, float] = (math.nan, math.nan)
@@ -86,8 +91,10 @@ class Entanglement:
     tau_d_ci: tuple[float, float] = (math.nan, math.nan)
     tau_d_method: str = ""
     Me: float = math.nan
+    Me_ci: tuple[float, float] = (math.nan, math.nan)
     Me_convention: str = ""
     Z: float = math.nan
+    Z_ci: tuple[float, float] = (math.nan, math.nan)
     bsw: bswmod.BSWFit | None = None
     notes: tuple[str, ...] = ()
 
@@ -355,6 +362,21 @@ def _terminal_time(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray,
         how += "; the terminal slopes are not reached, so only a lower bound"
         ci = (ci[0], math.inf)
     return t, ci, how
+
+
+def mass_intervals(ent: Entanglement) -> Entanglement:
+    """``ent`` with M_e's and Z's intervals from its G_N⁰ interval (NaN where that has none).
+
+    M_e ∝ 1/G_N⁰ and Z ∝ G_N⁰ at fixed ρ, T and M, so the ends map to the ends (swapped for M_e); the
+    uncertainty of the density, temperature and molecular weight is not included.
+    """
+    lo, hi = ent.GN0_ci
+    if not (math.isfinite(ent.Me) and math.isfinite(lo) and math.isfinite(hi) and lo > 0 and ent.GN0 > 0):
+        return dataclasses.replace(ent, Me_ci=(math.nan, math.nan), Z_ci=(math.nan, math.nan))
+    k = ent.Me * ent.GN0  # = ρRT in g/mol·Pa
+    z = ent.Z / ent.GN0 if math.isfinite(ent.Z) else math.nan
+    return dataclasses.replace(ent, Me_ci=(k / hi, k / lo), Z_ci=(z * lo, z * hi) if math.isfinite(z) else
+                               (math.nan, math.nan))
 
 
 def entanglement_mass(GN0: float, meta: Mapping[str, Any]) -> tuple[float, str, float]:
