@@ -53,3 +53,8 @@ def test_known_solvent_viscosity_reaches_the_modes(sweep_file, capsys):
     assert main(["invert", str(sweep_file), "--json", "--eta-s", "0.0"]) == 0
     d = json.loads(capsys.readouterr().out)
     assert d["modes_fit"]["eta_s"] == 0.0 and d["modes_fit"]["eta_s_se"] == 0.0
+    # the text says whose η_s it prints: the user's known value, not the fitted high-frequency contribution
+    assert main(["invert", str(sweep_file), "--eta-s", "0.0", "--no-modes"]) == 0
+    assert "η_s = 0 Pa·s (given: the solvent's viscosity)" in capsys.readouterr().out
+    assert main(["invert", str(sweep_file), "--no-modes"]) == 0
+    assert "(Newtonian high-frequency contribution: solvent plus modes" in capsys.readouterr().out

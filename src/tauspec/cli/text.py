@@ -25,13 +25,14 @@ def spectrum_text(spectrum: Any) -> tuple[str, list[str]]:
     lo, hi = spectrum.window
     window = (f"supported window τ = {number(lo)}–{number(hi)} s" if lo < hi else
               "supported window: empty (the frequency range is narrower than e^π)")
+    eta_how = ("given: the solvent's viscosity" if spectrum.options.eta_s is not None else
+               "Newtonian high-frequency contribution: solvent plus modes faster than the window")
     lines = [
         f"{spectrum.sample}: {len(w)} points, ω = {number(w[0])}–{number(w[-1])} rad/s",
         f"  spectrum: λ = {number(spectrum.strength)} ({_RULES.get(spectrum.chosen_by, spectrum.chosen_by)}), "
         f"rms residual {100 * spectrum.residual_rms:.1f} %, {window}",
-        f"            η_s = {number(spectrum.eta_s)} Pa·s (Newtonian high-frequency contribution: solvent plus "
-        f"modes faster than the window)" + (f", G_e = {number(spectrum.G_e)} Pa"
-                                           if spectrum.options.equilibrium_modulus else ""),
+        f"            η_s = {number(spectrum.eta_s)} Pa·s ({eta_how})"
+        + (f", G_e = {number(spectrum.G_e)} Pa" if spectrum.options.equilibrium_modulus else ""),
     ]
     return "\n".join(lines), list(spectrum.warnings)
 
