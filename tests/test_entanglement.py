@@ -180,6 +180,8 @@ def test_me_and_z_from_the_metadata():
     assert e.Z_ci == pytest.approx((1e5 / e.Me_ci[1], 1e5 / e.Me_ci[0]), rel=1e-9)
     obj = json.loads(dumps_json(d.to_dict()))
     assert obj["Me_ci"] == pytest.approx(list(e.Me_ci)) and obj["Z_ci"] == pytest.approx(list(e.Z_ci))
+    # the statement rounds as every other text ("G_N⁰ = 1.983e5 Pa (BSW fit)", was "1.983e+05 Pa (bsw fit)")
+    assert "e+0" not in d.statement and (e.GN0_method != "bsw_fit" or "(BSW fit)" in d.statement)
 
 
 def test_a_broad_branched_ldpe_melt_is_entangled():

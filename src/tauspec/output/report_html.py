@@ -65,7 +65,7 @@ section.sample{background:#fff;border:1px solid #e6e3da;border-radius:6px;paddin
 section.sample h3{margin:.6rem 0 .3rem;font-size:1rem}
 .figs{display:flex;flex-wrap:wrap;gap:.8rem;align-items:flex-start;margin:.6rem 0}
 .figs img{max-width:100%;height:auto;border:1px solid #eee}
-ul.numbers{list-style:none;padding:0;margin:.4rem 0;font-size:.9rem;columns:2 24em}
+ul.numbers{list-style:none;padding:0;margin:.4rem 0;font-size:.9rem;columns:2 24em}ul.numbers li{break-inside:avoid}
 ul.evidence{font-size:.84rem;list-style:none;padding-left:.4rem;margin:.3rem 0}
 ul.evidence li.fail{color:#8a2d14}ul.evidence li.none{color:#6b6f72}
 details summary{cursor:pointer;font-size:.88rem;margin-top:.4rem}

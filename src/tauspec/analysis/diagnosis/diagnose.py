@@ -282,7 +282,8 @@ def diagnose(sweep: Sweep, options: DiagnoseOptions | None = None, *, spectrum: 
     statement = _STATEMENTS[verdict].format(
         tau=_g(rep.tau1), G0=_g(rep.G0), alpha=f"{general.a:.2f}", reason=reason, form=FORM_NAMES[rep.form],
         why=_form_reason(fits, verdict), GN0=_g(ent.GN0) if ent else "n/a",
-        GN0_method=ent.GN0_method.replace("_", " ") if ent and ent.GN0_method else "no estimator applies",
+        GN0_method=(ent.GN0_method.replace("_", " ").replace("bsw", "BSW") if ent and ent.GN0_method
+                    else "no estimator applies"),
         tau_d=_g(ent.tau_d) if ent else "n/a")
     return Diagnosis(
         verdict=verdict, statement=statement, reason=reason, sample=sweep.name, source=sweep.source,

@@ -15,6 +15,7 @@ from ...models import signatures as sg
 from ...models.beadspring import ROUSE_MODELS, ZIMM_MODELS
 from ...models.chainfit import BeadSpringFit
 from ...models.chains import FORM_NAMES, NU_GOOD, power_tail
+from ...rounding import number
 from ...spectrum.kernels import quadrature_weights
 from .entanglement import describes
 
@@ -78,7 +79,7 @@ class Evidence:
 
 
 def _g(x: float) -> str:
-    return "n/a" if x is None or not math.isfinite(x) else f"{x:.4g}"
+    return "n/a" if x is None or not math.isfinite(x) else number(x, 4)
 
 
 def _fmt_value(v: Any) -> str:
