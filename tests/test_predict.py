@@ -169,3 +169,19 @@ def test_creep_of_a_set_it_cannot_be_computed_from_is_an_error():
     outside = SimpleNamespace(g=np.array([1e3]), tau=np.array([10.0]), eta_s=1.0, G_e=0.0, window=(0.01, 0.1))
     curve = creep_compliance(outside, [0.1, 1.0])
     assert np.all(np.isfinite(curve.y)) and np.all(curve.outside_share > 0.05)
+
+
+def test_a_value_starting_with_a_dash_is_explained(sweep_file, capsys):
+    # "--times -1,2": argparse reads -1,2 as a flag and said only "expected one argument"
+    from tauspec.cli.main import main
+
+    with pytest.raises(SystemExit) as stop:
+        main(["predict", str(sweep_file), "--quantity", "creep", "--times", "-1,2"])
+    assert stop.value.code == 2
+    err = capsys.readouterr().err.strip()
+    assert err.endswith("(a value that starts with '-' is written --times=VALUE)") and len(err.splitlines()) == 1
+    with pytest.raises(SystemExit):
+        main(["invert", str(sweep_file), "--out"])  # a value simply missing: no such hint
+    assert "written --out=VALUE" not in capsys.readouterr().err
+    assert main(["predict", str(sweep_file), "--quantity", "creep", "--times=-1,2"]) == 1  # the real refusal
+    assert "positive" in capsys.readouterr().err

@@ -13,6 +13,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import logging
+import re
 import sys
 import traceback
 import warnings
@@ -39,7 +40,19 @@ SUBCOMMANDS: dict[str, tuple[str, str]] = {
 
 class _Parser(argparse.ArgumentParser):
     def error(self, message: str):  # exit 2 with one line, as argparse does, but name the program
+        flag = re.fullmatch(r"argument (--[\w-]+)(?:/-\w)?: expected one argument", message)
+        if flag and _dashed_value(flag.group(1)):  # "--times -1,2": argparse took the value for a flag
+            message += f" (a value that starts with '-' is written {flag.group(1)}=VALUE)"
         self.exit(2, f"{self.prog}: error: {message}\n")
+
+
+#: The arguments being parsed (for the error message above).
+_ARGV: list[str] = []
+
+
+def _dashed_value(flag: str) -> bool:
+    """Whether ``flag`` is followed on the command line by a word starting with '-' (its intended value)."""
+    return any(a == flag and b.startswith("-") for a, b in zip(_ARGV, _ARGV[1:]))
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -67,6 +80,7 @@ def _show_warning(message, category, filename, lineno, file=None, line=None):  #
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status."""
     parser = build_parser()
+    _ARGV[:] = list(sys.argv[1:] if argv is None else argv)
     args = parser.parse_args(argv)
     if not getattr(args, "command", None):
         parser.print_help(sys.stderr)
