@@ -4,6 +4,7 @@ import dataclasses
 import hashlib
 import json
 import os
+import re
 import signal
 import subprocess
 import sys
@@ -402,3 +403,18 @@ def test_plots_are_drawn_once_and_a_rerun_with_plots_draws_missing_ones(tmp_path
         assert png[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (RFC 2083)
     assert run_batch([work], out, settings=plots).skipped == 2
     assert run_batch([work], out, settings=SMALL).skipped == 2
+
+
+def test_the_dask_cluster_does_not_talk_on_the_terminal(archive, tmp_path):
+    # distributed logs its scheduler's and nannies' start and stop at INFO: about thirty lines of "Start Nanny
+    # at ...", "Register worker ..." on the terminal of every `tauspec batch --backend dask` before; now none.
+    pytest.importorskip("distributed")
+    settings = tmp_path / "s.toml"
+    settings.write_text(f"[invert]\ngrid = {GRID}\n[modes]\nrun = false\n[diagnose]\nrun = false\n")
+    proc = subprocess.run([sys.executable, "-m", "tauspec", "batch", str(archive), "--out", str(tmp_path / "out"),
+                           "--jobs", "2", "--backend", "dask", "--settings", str(settings)],
+                          env={**os.environ, "PYTHONPATH": SRC + os.pathsep + os.environ.get("PYTHONPATH", "")},
+                          capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert "8 samples: 8 ok" in proc.stdout
+    assert not [line for line in proc.stderr.splitlines() if re.search(r"Nanny|Scheduler|[Ww]orker", line)], proc.stderr
