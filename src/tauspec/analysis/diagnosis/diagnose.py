@@ -337,8 +337,8 @@ def _checked_entanglement(ent: Entanglement) -> tuple[Entanglement, list[str]]:
     g_ci, n1 = checked_interval("G_N0", ent.GN0, ent.GN0_ci, "G_N" if "G_N" in bound else "")
     t_ci, n2 = checked_interval("tau_d", ent.tau_d, ent.tau_d_ci, "tau_max" if "tau_max" in bound else "")
     est = tuple(dataclasses.replace(e, ci=checked_interval(e.method, e.value, e.ci)[0]) for e in ent.estimates)
-    return mass_intervals(dataclasses.replace(ent, GN0_ci=g_ci, tau_d_ci=t_ci, estimates=est)), [n for n in (n1, n2)
-                                                                                               if n]
+    checked = dataclasses.replace(ent, GN0_ci=g_ci, tau_d_ci=t_ci, estimates=est)
+    return mass_intervals(checked), [n for n in (n1, n2) if n]
 
 
 def _recover_spectrum(sweep: Sweep, spectrum: Any, use_spectrum: bool) -> tuple[Any, str]:
