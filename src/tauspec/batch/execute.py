@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import contextlib
 import dataclasses
+import logging
+import os
 from collections.abc import Callable, Iterable, Iterator
 from typing import Any
 
@@ -109,26 +111,58 @@ def _run_loky(tasks: Iterable[Task], finish: Finish, settings: BatchSettings, st
 
 
 @contextlib.contextmanager
+def _quiet_cluster() -> Iterator[None]:
+    """Keep the cluster's own log off the terminal while it runs, unless tauspec logs at DEBUG (``--debug``).
+
+    distributed logs the start and stop of its scheduler, nannies and workers at INFO (about thirty lines per run),
+    and a worker may log a failed heartbeat with a traceback while the cluster shuts down.  The results do not
+    depend on those messages: a task that fails or a worker that dies reaches the batch through its future.  The
+    level of the "distributed" logger here, and the logging configuration that the local workers read when they
+    start (``DASK_LOGGING__DISTRIBUTED``), are set for the cluster's lifetime and restored after it.
+    """
+    if logging.getLogger("tauspec").isEnabledFor(logging.DEBUG):
+        yield
+        return
+    logger = logging.getLogger("distributed")
+    level, env = logger.level, os.environ.get(_WORKER_LOGGING)
+    logger.setLevel(logging.CRITICAL)
+    os.environ[_WORKER_LOGGING] = "critical"
+    try:
+        yield
+    finally:
+        logger.setLevel(level)
+        if env is None:
+            os.environ.pop(_WORKER_LOGGING, None)
+        else:
+            os.environ[_WORKER_LOGGING] = env
+
+
+#: The environment variable of dask's configuration that sets the log level of the "distributed" logger.
+_WORKER_LOGGING = "DASK_LOGGING__DISTRIBUTED"
+
+
+@contextlib.contextmanager
 def _dask_client(jobs: int, scheduler: str | None) -> Iterator[Any]:
     try:
         import dask
         from distributed import Client, LocalCluster
     except ImportError:
         raise SettingsError("--backend dask needs dask.distributed: pip install 'tauspec[cluster]'") from None
-    if scheduler:
-        try:
-            client = Client(scheduler, timeout=20)
-        except (OSError, TimeoutError, ValueError) as exc:
-            raise SettingsError(f"cannot reach the Dask scheduler at {scheduler} ({exc})") from None
-        with client:
+    with _quiet_cluster():
+        if scheduler:
+            try:
+                client = Client(scheduler, timeout=20)
+            except (OSError, TimeoutError, ValueError) as exc:
+                raise SettingsError(f"cannot reach the Dask scheduler at {scheduler} ({exc})") from None
+            with client:
+                yield client
+            return
+        # a task on a worker that dies is lost at once (no retries on other workers: the batch retries it alone)
+        with dask.config.set({"distributed.scheduler.allowed-failures": 0}):
+            cluster = LocalCluster(n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1",
+                                   dashboard_address=":0")
+        with cluster, Client(cluster) as client:
             yield client
-        return
-    # a task on a worker that dies is lost at once (no retries on other workers: the batch retries it alone)
-    with dask.config.set({"distributed.scheduler.allowed-failures": 0}):
-        cluster = LocalCluster(n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1",
-                               dashboard_address=":0")
-    with cluster, Client(cluster) as client:
-        yield client
 
 
 def _run_dask(tasks: Iterable[Task], finish: Finish, settings: BatchSettings, step: Callable[..., Any],

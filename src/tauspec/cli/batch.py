@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import argparse
 import dataclasses
-import logging
 import sys
 from collections.abc import Mapping
 from pathlib import Path
@@ -70,19 +69,6 @@ def json_row(row: Mapping[str, str]) -> dict[str, Any]:
     return out
 
 
-def _quiet_dask() -> None:
-    """Keep the cluster's start-up and shut-down messages (logged at INFO by distributed) off the terminal.
-
-    distributed sets its loggers' level when imported, so the level is lowered after importing it; --debug keeps
-    them.  Without dask installed the batch refuses the backend itself.
-    """
-    try:
-        import distributed  # noqa: F401 - imported for its logging set-up, replaced below
-    except ImportError:
-        return
-    logging.getLogger("distributed").setLevel(logging.WARNING)
-
-
 def run(args: argparse.Namespace) -> int:
     """Run the batch; print the counts (and failed files), or JSON lines; exit 1 when any file failed."""
     from ..batch.run import run_batch
@@ -102,8 +88,6 @@ def run(args: argparse.Namespace) -> int:
         limit = options_from_args(args, type(settings), only=["time_limit"]).time_limit
         settings = dataclasses.replace(settings, time_limit=limit)
     progress = not args.quiet and not args.json and sys.stderr.isatty()
-    if args.backend == "dask" and not getattr(args, "debug", False):
-        _quiet_dask()
     report = run_batch(args.paths, args.out, settings=settings, jobs=args.jobs, backend=args.backend,
                        scheduler=args.scheduler, manifest=args.manifest, force=args.force, progress=progress,
                        exclude=[args.settings] if args.settings is not None else [])
