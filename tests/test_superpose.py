@@ -116,7 +116,7 @@ def test_arrhenius_fit_exact_and_model_choice():
     assert sentence.startswith("Arrhenius fits better: AIC lower by 2")  # 3 significant figures
     # a large gap in three significant figures, not as 429561382.00
     assert compare_fits(dataclasses.replace(wlf, aic=arr.aic - 4.29561382e8), arr)[1] == (
-        "WLF fits better: AIC lower by 4.3e+08")
+        "WLF fits better: AIC lower by 4.3e8")
 
 
 def test_noise_level_of_a_smooth_curve():

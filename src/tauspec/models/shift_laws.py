@@ -40,6 +40,7 @@ import numpy as np
 from scipy import optimize
 
 from ..data.record import field, record
+from ..rounding import number
 
 __all__ = [
     "GAS_CONSTANT",
@@ -254,4 +255,4 @@ def compare_fits(wlf: WLFFit | None, arrhenius: ArrheniusFit) -> tuple[str, str]
     best, gap = ("wlf", delta) if delta > 0 else ("arrhenius", -delta)
     name = "WLF" if best == "wlf" else "Arrhenius"
     strength = " (weak: a difference below 2)" if gap < 2.0 else ""
-    return best, f"{name} fits better: AIC lower by {gap:.3g}{strength}"
+    return best, f"{name} fits better: AIC lower by {number(gap)}{strength}"

@@ -32,6 +32,7 @@ from ...data.record import field, record
 from ...data.sweep import Sweep
 from ...errors import SettingsError, TauspecError
 from ...models.shift_laws import Z95, ArrheniusFit, WLFFit, compare_fits, fit_arrhenius, fit_wlf
+from ...rounding import number
 from .check import SuperpositionCheck, superposition_check
 from .pairs import PairShift, _celsius, _chain, _Pair, _prepare, _shift_pair
 
@@ -170,7 +171,7 @@ class MasterCurve:
     def report(self) -> str:
         """Return a plain-text summary."""
         lines = [f"master curve of {self.sweep.name} at T_ref = {_celsius(self.T_ref)} "
-                 f"({len(self.sweep)} points, {self.sweep.omega[0]:.3g}–{self.sweep.omega[-1]:.3g} rad/s, "
+                 f"({len(self.sweep)} points, {number(self.sweep.omega[0])}–{number(self.sweep.omega[-1])} rad/s, "
                  f"{self.sweep.decades:.1f} decades)"]
         lines.append("  T [C]     a_T          95% interval              b_T")
         for i in np.argsort(self.temperatures):
