@@ -40,7 +40,7 @@ import numpy as np
 from ...data.record import field, record, resolve_options
 from ...data.sweep import Sweep
 from ...errors import SettingsError
-from ...rounding import telling_digits
+from ...rounding import number, telling_digits
 from ...spectrum.invert import invert
 from ...spectrum.options import InvertOptions
 from ...spectrum.result import Spectrum
@@ -118,7 +118,7 @@ class Comparison:
 
 
 def _g(v: Any, digits: int = 4) -> str:
-    return "n/a" if v is None or not math.isfinite(float(v)) else f"{float(v):.{digits}g}"
+    return "n/a" if v is None or not math.isfinite(float(v)) else number(v, digits)
 
 
 def _value_ci(v: Any, ci: Sequence[float]) -> str:
