@@ -1,7 +1,7 @@
-"""Numbers rounded for reading: the one rule of significant figures for every text tauspec prints.
+"""Numbers for reading: the one rule of significant figures, and of counts, for every text tauspec prints.
 
-Here, below every layer, so that the analysis reports (comparison, bands, superposition) and the output words
-round alike.
+Here, below every layer, so that the reader's messages, the analysis reports (comparison, bands,
+superposition) and the output words round and count alike.
 """
 
 from __future__ import annotations
@@ -10,7 +10,7 @@ import math
 from collections.abc import Sequence
 from typing import Any
 
-__all__ = ["number", "interval", "telling_digits", "is_finite_number"]
+__all__ = ["number", "interval", "telling_digits", "is_finite_number", "counted"]
 
 
 def number(value: Any, digits: int = 3) -> str:
@@ -63,3 +63,8 @@ def is_finite_number(v: Any) -> bool:
         return math.isfinite(float(v))
     except (TypeError, ValueError):
         return False
+
+
+def counted(n: int, noun: str) -> str:
+    """``n`` and the noun, in the plural unless n is one: "1 Maxwell mode", "3 Maxwell modes"."""
+    return f"{n} {noun}" if n == 1 else f"{n} {noun}s"

@@ -24,6 +24,7 @@ import dataclasses
 import io
 
 from ..errors import SweepError
+from ..rounding import counted
 from .cells import parse_cell
 from .columns import EXPECTED_HEADER, columns_of, is_header, split_unit, strip_brackets
 from .dialect import header_splits, split_fields, trim, units_splits
@@ -265,8 +266,8 @@ class _Scanner:
             at, text = self.closed_by
             raise SweepError(f"numbers after the text on line {at} ({text[:40]!r}) but no header row of their own",
                              self.source, number)
-        n = len(trim(fields))
-        raise SweepError(f"row has {n} value{'' if n == 1 else 's'} but the header names {len(block.header)} columns",
+        raise SweepError(f"row has {counted(len(trim(fields)), 'value')} but the header names {len(block.header)} "
+                         "columns",
                          self.source, number)
 
 

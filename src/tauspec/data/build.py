@@ -13,6 +13,7 @@ from collections.abc import Iterable, Mapping
 import numpy as np
 
 from ..errors import DroppedPointsWarning, SweepError
+from ..rounding import counted
 from .sweep import MIN_POINTS, MODULUS_RANGE, OMEGA_RANGE, Sweep
 
 __all__ = ["build_sweep", "line_ranges"]
@@ -77,7 +78,7 @@ def build_sweep(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray, line_n
             f"a non-positive modulus at lines {line_ranges(negative)}" if negative else "") if text)
         if keep.sum() < MIN_POINTS:
             n = int(keep.sum())
-            raise SweepError(f"only {n} point{' has' if n == 1 else 's have'} positive G' and G'' (at least "
+            raise SweepError(f"only {counted(n, 'point')} {'has' if n == 1 else 'have'} positive G' and G'' (at least "
                              f"{MIN_POINTS} needed); {reasons}", source)
         warnings.warn(f"{source}: dropped {len(negative) + len(missing)} point(s): {reasons}", DroppedPointsWarning,
                       stacklevel=5)

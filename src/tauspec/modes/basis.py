@@ -7,14 +7,13 @@ times; the derived numbers and curves take either, with the part inside the supp
 from __future__ import annotations
 
 import dataclasses
-import math
 from typing import Any
 
 import numpy as np
 
 from ..errors import SettingsError
 from ..spectrum.kernels import quadrature_weights
-from ..spectrum.window import outside_mask, supported_window
+from ..spectrum.window import measured_range, outside_mask, supported_window
 
 __all__ = ["FLAG_SHARE", "LONGEST_SHARE"]
 
@@ -94,8 +93,8 @@ def _as_set(obj: Any) -> _Set:
             window = supported_window(w)
     if window is not None:
         window = (float(window[0]), float(window[1]))
-        if measured is None:  # the window is [e^(π/2)/ω_max, e^(−π/2)/ω_min] (supported_window)
-            measured = (math.exp(-math.pi / 2) / window[1], math.exp(math.pi / 2) / window[0])
+        if measured is None:
+            measured = measured_range(window)
     order = np.argsort(tau[keep])
     return _Set(g[keep][order], tau[keep][order], eta_s, G_e, window, kind, measured)
 

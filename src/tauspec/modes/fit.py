@@ -38,6 +38,7 @@ import numpy as np
 
 from ..data.record import resolve_options
 from ..errors import DroppedPointsWarning, SettingsError, WeakResultWarning
+from ..rounding import counted
 from ..spectrum.kernels import loss_kernel, modes_moduli, quadrature_weights, storage_kernel
 from ..spectrum.lsq import levenberg_marquardt
 from ..spectrum.problem import known_solvent_caution
@@ -346,7 +347,7 @@ def fit_modes(sweep: Any, spectrum: Any = None, options: ModesOptions | None = N
             for m in range(1, opts.n_modes + 1):
                 chosen, ok = search.best_fit(m, chosen)
         if chosen is None:
-            raise SettingsError(f"no fit with {opts.n_modes} mode{'' if opts.n_modes == 1 else 's'} converged", source)
+            raise SettingsError(f"no fit with {counted(opts.n_modes, 'mode')} converged", source)
         tried = [(chosen, ok)]
     else:
         chosen, tried, limit = search.path(m_max)
@@ -412,8 +413,7 @@ def _count_notes(prob: _Problem, chosen: _Fit, m_max: int, limit: bool) -> list[
     out = []
     if limit:
         decades = math.log10(prob.omega[-1] / prob.omega[0])
-        modes = f"{m_max} mode{'' if m_max == 1 else 's'}"
-        out.append(f"the mode count reached its resolution limit ({modes} for {decades:.2g} "
+        out.append(f"the mode count reached its resolution limit ({counted(m_max, 'mode')} for {decades:.2g} "
                    f"decades); more modes might still improve the fit")
     if chosen.n_modes == 0:
         alone = " and ".join(n for n, on in (("eta_s", prob.solvent), ("G_e", prob.equilibrium_modulus)) if on)

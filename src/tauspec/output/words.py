@@ -11,7 +11,7 @@ import re
 from collections.abc import Mapping
 from typing import Any
 
-from ..rounding import interval, is_finite_number, number, telling_digits
+from ..rounding import counted, interval, is_finite_number, number, telling_digits
 
 __all__ = ["LEFT_OUT", "QUANTITIES", "EVIDENCE_WORDS", "VERDICT_WORDS", "number", "quantity", "interval",
            "telling_digits", "evidence_line",
@@ -115,11 +115,6 @@ def plain_words(text: Any) -> str:
     for pattern, repl in _SYMBOLS:
         out = re.sub(pattern, repl, out)
     return out
-
-
-def counted(n: int, noun: str) -> str:
-    """``n`` and the noun, in the plural unless n is one: "1 Maxwell mode", "3 Maxwell modes"."""
-    return f"{n} {noun}" if n == 1 else f"{n} {noun}s"
 
 
 def symbol(key: str) -> str:

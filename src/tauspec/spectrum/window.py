@@ -9,7 +9,7 @@ import numpy as np
 
 from .kernels import log_grid
 
-__all__ = ["supported_window", "outside_mask", "default_grid"]
+__all__ = ["supported_window", "measured_range", "outside_mask", "default_grid"]
 
 
 def supported_window(omega: Sequence[float] | np.ndarray) -> tuple[float, float]:
@@ -21,6 +21,11 @@ def supported_window(omega: Sequence[float] | np.ndarray) -> tuple[float, float]
     """
     w = np.asarray(omega, dtype=float)
     return (math.exp(math.pi / 2) / float(w.max()), math.exp(-math.pi / 2) / float(w.min()))
+
+
+def measured_range(window: tuple[float, float]) -> tuple[float, float]:
+    """Return (ω_min, ω_max) of the sweep whose supported window is ``window``: :func:`supported_window` inverted."""
+    return math.exp(-math.pi / 2) / window[1], math.exp(math.pi / 2) / window[0]
 
 
 def default_grid(omega: np.ndarray, n: int | None = None, margin: float = 1.0) -> np.ndarray:
