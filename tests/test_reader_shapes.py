@@ -45,6 +45,14 @@ READS = [
     # a modulus written with its argument, as a function of ω
     ("omega [rad/s]\tG'(ω) [kPa]\tG''(ω) [kPa]", body("\t"), 1.0, 1e3),
     ("w [rad/s],G'(w) [Pa],G''(omega) [Pa]", body(), 1.0, 1.0),
+    # quantity/unit headings (ISO 80000-1; IUPAC Green Book, Cohen et al. 2007, §1.4; docs/references.md)
+    ("ω/rad s⁻¹,G′/kPa,G″/kPa", body(), 1.0, 1e3),
+    ("f/Hz;G'/MPa;G''/MPa", body(";"), 2 * math.pi, 1e6),
+    ("omega/rad/s,G'/Pa,G''/Pa,T/°C", body(extra=("25",)), 1.0, 1.0),
+    # ... where a ratio of moduli is a column of its own, not G'' in the unit G'
+    ("omega [rad s^-1],G' [kPa],G''/G',G'' [kPa]", "\n".join(f"{w:g},{a:g},{b / a:g},{b:g}" for w, a, b in
+                                                           zip(W, GP, GPP)), 1.0, 1e3),
+    ("omega [rad/s],G_prime [kPa],G_double_prime [kPa]", body(), 1.0, 1e3),
 ]
 
 
@@ -57,6 +65,7 @@ def test_reads(header, rows, wf, gf):
 
 
 REFUSED = [
+    ("omega [rad/s],G''/G' [-],G' [Pa]\n" + body(), r"x.csv:1: header names no G'' column"),
     ("omega [rad/s],G' [mpa],G'' [mpa]\n" + body(), r"x.csv:1: unit 'mpa' of column G' \[mpa\] is ambiguous"),
     ("Frequency (1/s),G',G''\n" + body(), r"x.csv:1: column Frequency \(1/s\): 1/s after a frequency could be"),
     ("omega [Hz],G',G''\n" + body(), r"x.csv:1: column omega \[Hz\] is an angular frequency but its unit is Hz"),

@@ -1,7 +1,9 @@
 """Header fields: the column's name, its unit, and its role (frequency, G', G'', |G*|, δ, temperature, time).
 
-A unit is written after the name in ``(...)`` or ``[...]``, as ``... in kPa``, or in a units row under the
-header.  Every step here is a fixed number of passes over the field (``rfind``, ``split``, set look-ups): no
+A unit is written after the name in ``(...)`` or ``[...]``, as ``... in kPa``, as a quantity divided by its
+unit (``G'/kPa``, ``ω/rad s⁻¹``: the table headings of ISO 80000-1 and the IUPAC Green Book, Cohen et al.
+2007, §1.4), or in a units row under the header.
+Every step here is a fixed number of passes over the field (``rfind``, ``split``, set look-ups): no
 regular expression runs over header text, so the time is linear in the field's length whatever it holds.
 """
 
@@ -23,8 +25,8 @@ _ROLE_NAMES: dict[str, tuple[str, ...]] = {
     "frequency": ("f", "freq", "freq.", "frequency", "nu", "ν", "oscillation frequency", "osc. frequency"),
     "storage": ("g'", "gp", "g_p", "gprime", "g_prime", "g1", "g 1", "storage modulus", "storage",
                 "elastic modulus", "shear storage modulus"),
-    "loss": ("g''", "gpp", "g_pp", "gdprime", "g_dprime", "gdoubleprime", "g2", "g 2", "loss modulus", "loss",
-             "viscous modulus", "shear loss modulus"),
+    "loss": ("g''", "gpp", "g_pp", "gdprime", "g_dprime", "gdoubleprime", "g_double_prime", "g2", "g 2",
+             "loss modulus", "loss", "viscous modulus", "shear loss modulus"),
     "gstar": ("|g*|", "g*", "|g|", "gstar", "g_star", "complex modulus", "|complex modulus|",
               "complex shear modulus", "magnitude of complex modulus"),
     "delta": ("δ", "delta", "phase angle", "phase", "phase shift", "phase shift angle", "loss angle", "phase lag"),
@@ -72,7 +74,11 @@ def strip_brackets(text: str) -> str:
 
 
 def split_unit(field: str) -> tuple[str, str | None]:
-    """Split ``"Storage Modulus (kPa)"``, ``"G' [kPa]"`` or ``"Storage modulus in kPa"`` into name and unit."""
+    """Split ``"Storage Modulus (kPa)"``, ``"G' [kPa]"``, ``"Storage modulus in kPa"`` or ``"G'/kPa"``.
+
+    The quantity/unit form is taken only when the part before the first ``/`` names a column tauspec knows and
+    the part after it is a unit tauspec knows, so that a ratio such as ``G''/G'`` stays one name.
+    """
     f = field.strip()
     if f and f[-1] in ")]":
         k = f.rfind("(" if f[-1] == ")" else "[")
@@ -83,6 +89,11 @@ def split_unit(field: str) -> tuple[str, str | None]:
         tail = f[k + 4:].strip()
         if tail and len(tail.split()) == 1 and f[:k].strip():
             return f[:k].strip(), tail
+    k = f.find("/")
+    if k > 0:
+        name, unit = f[:k].strip(), f[k + 1:].strip()
+        if name and unit and unit_kind(unit) is not None and role_of(name, unit) is not None:
+            return name, unit
     return f, None
 
 

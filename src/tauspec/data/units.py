@@ -57,6 +57,7 @@ _ALIASES = {
     "rad/sec": "rad/s",
     "rad.s-1": "rad/s",
     "rads-1": "rad/s",
+    "rads^-1": "rad/s",
     "rad/s.": "rad/s",
     "rad·s-1": "rad/s",
     "rad*s-1": "rad/s",
