@@ -92,12 +92,13 @@ def test_metadata_and_sorting(tmp_path):
 
 
 def test_missing_cells_dropped_with_one_warning():
-    # A NaN, empty, "-" or "--" modulus drops its row (the issue "never a silently wrong number": a missing value is
-    # not data; it was refused as "not finite" before).
-    rows = [f"{w:g},{a:g},{b:g}" for w, a, b in zip(W, GP, GPP)] + ["500,nan,3", "600,,3", "700,4,-", "800,--,2"]
-    with pytest.warns(DroppedPointsWarning, match="a missing value at lines 9-12"):
+    # A NaN, empty, "-", "--" (or any run of dashes) or "#N/A" modulus drops its row (the issue "never a silently
+    # wrong number": a missing value is not data; it was refused as "not finite" before).
+    rows = [f"{w:g},{a:g},{b:g}" for w, a, b in zip(W, GP, GPP)] + ["500,nan,3", "600,,3", "700,4,-", "800,--,2",
+                                                                    "900,-----,2", "950,3,#N/A"]
+    with pytest.warns(DroppedPointsWarning, match="a missing value at lines 9-14"):
         s = parse_sweep_text("omega,G',G''\n" + "\n".join(rows), source="x.csv")
-    assert len(s) == 7 and s.meta["dropped_lines"] == "9-12"
+    assert len(s) == 7 and s.meta["dropped_lines"] == "9-14"
 
 
 def test_nonpositive_points_dropped_with_warning():

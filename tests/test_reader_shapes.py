@@ -53,6 +53,10 @@ READS = [
     ("omega [rad s^-1],G' [kPa],G''/G',G'' [kPa]", "\n".join(f"{w:g},{a:g},{b / a:g},{b:g}" for w, a, b in
                                                            zip(W, GP, GPP)), 1.0, 1e3),
     ("omega [rad/s],G_prime [kPa],G_double_prime [kPa]", body(), 1.0, 1e3),
+    # a rule under the header or its units row, as text tables underline their headings
+    ("omega [rad/s],G' [kPa],G'' [kPa]\n-----,-----,------", body(), 1.0, 1e3),
+    ("omega  G'  G''\nrad s⁻¹  kPa  kPa\n=====  ===  ===", body("  "), 1.0, 1e3),
+    ("omega\tG'\tG''\n-----\t---\t----\nrad/s\tPa\tPa", body("\t"), 1.0, 1.0),
 ]
 
 

@@ -5,6 +5,8 @@ One pass over the lines, never holding more than the rows it keeps.  A line is
 * blank, or a ``#`` comment (kept for the metadata);
 * a header row: it names a frequency column and a modulus column; it starts a block;
 * a units row: right after a header, no numbers, at least one unit tauspec knows;
+* a rule: dashes or equals signs (``-----  ---``, ``===,===``) between a header (or its units row) and the
+  first data row, as text tables underline their headings; skipped;
 * a data row: the header's number of fields, at least one of them a number;
 * text: before a header it is preamble (a title, ``Key: value`` metadata); after a block's data it ends the
   block and starts the next one's preamble (a title line such as ``Step 2  150 °C``).  More than
@@ -128,6 +130,16 @@ _OTHER_UNITS = frozenset({"%", "N·m", "mN·m", "µN·m", "μN·m", "N m", "mN m
                          "μNm"})
 
 
+#: What a rule under a header is drawn with, besides blanks and the separator.
+_RULE_MARKS = frozenset("-=_")
+
+
+def _is_rule(stripped: str, delimiter: str) -> bool:
+    """A line drawn with dashes, equals signs or underscores (and blanks or the separator) only, three at least."""
+    marks = sum(ch in _RULE_MARKS for ch in stripped)
+    return marks >= 3 and marks + sum(ch.isspace() or ch == delimiter for ch in stripped) == len(stripped)
+
+
 def _is_units_row(fields: list[str]) -> bool:
     """No numbers, and at least one field a unit tauspec knows (``rad/s``, ``[kPa]``, ``°C``, ``%`` ...)."""
     if any(isinstance(parse_cell(f, decimal_comma=True), float) for f in fields):
@@ -191,6 +203,8 @@ class _Scanner:
             self.pending.append((number, stripped))  # text around the tables may hold any quote
             return
         if not any(fields):  # separators only (',,' where a spreadsheet saved an empty row): a blank line
+            return
+        if block is not None and not block.rows and self.closed_by is None and _is_rule(stripped, self.delimiter):
             return
         if self.expect_units:
             self.expect_units = False

@@ -22,8 +22,9 @@ class Missing:
 
 MISSING = Missing()
 
-#: Cell texts (compared in lower case) that mean "no value here".
-_MISSING_TEXTS = frozenset({"", "nan", "-nan", "+nan", "-", "--", "n/a"})
+#: Cell texts (compared in lower case) that mean "no value here"; so does a cell of dashes only ("---", "-----",
+#: as exports pad an invalid point).
+_MISSING_TEXTS = frozenset({"", "nan", "-nan", "+nan", "n/a", "#n/a"})
 _NUMBER_CHARS = frozenset("0123456789+-.eE")
 _INFINITE = {"inf": float("inf"), "+inf": float("inf"), "-inf": float("-inf"), "infinity": float("inf"),
              "+infinity": float("inf"), "-infinity": float("-inf")}
@@ -67,7 +68,7 @@ def parse_cell(text: str, *, decimal_comma: bool) -> float | Missing | None:
     """
     t = text.strip()
     low = t.lower()
-    if low in _MISSING_TEXTS:
+    if low in _MISSING_TEXTS or not t.strip("-"):
         return MISSING
     if low in _INFINITE:
         return _INFINITE[low]
