@@ -325,6 +325,54 @@ def test_series_of_complete_spectra_has_no_window_caveat():
     assert out["time"].exponents["M"] == pytest.approx(3.4, abs=0.1)
 
 
+def _with_meta(spectra, key, texts):
+    return [dataclasses.replace(sp, meta={**sp.meta, key: t}) for sp, t in zip(spectra, texts)]
+
+
+def test_series_converts_the_units_of_the_metadata(series):
+    # M written as kg/mol, g/mol and Mg/mol (1 kg/mol = 10³ g/mol, 1 Mg/mol = 10⁶ g/mol: the SI prefixes, BIPM
+    # 2019) is one M: the exponents equal those of the numbers in one unit, and the samples carry M in g/mol.
+    # Before, the unit was dropped, and "20000 g/mol" beside "10 kg/mol" gave tau ∝ M^-0.001 for a Rouse series.
+    Ms, spectra, _ = series
+    one_unit = compare(_with_meta(spectra, "molecular_weight", [f"{M:.6g} kg/mol" for M in Ms]), replicates=4)
+    texts = [f"{M:.6g} kg/mol" for M in Ms]
+    texts[1], texts[3] = f"{Ms[1] * 1e3:.6g} g/mol", f"{Ms[3] * 1e-3:.6g} Mg/mol"
+    mixed = compare(_with_meta(spectra, "molecular_weight", texts), replicates=4)
+    assert mixed.series["time"].exponents["M"] == pytest.approx(one_unit.series["time"].exponents["M"], rel=1e-9)
+    assert mixed.series["time"].exponents["M"] == pytest.approx(2.0, abs=0.1)
+    assert [d["M"] for d in mixed.samples] == pytest.approx([1e3 * float(f"{M:.6g}") for M in Ms], rel=1e-12)
+
+
+def test_series_refuses_a_mix_of_a_unit_and_none_and_of_two_kinds_of_concentration(series):
+    _, spectra, _ = series
+    texts = ["10 kg/mol"] + ["20000"] * (len(spectra) - 1)
+    with pytest.raises(SettingsError, match=r"molecular weight of .* is '10 kg/mol' \(with a unit\) but of .* "
+                                            r"'20000' \(without a unit\)"):
+        compare(_with_meta(spectra, "molecular_weight", texts), replicates=4)
+    # a mass concentration and a mass fraction convert into each other only with the solution's density
+    texts = ["120 mg/mL"] + ["12 wt%"] * (len(spectra) - 1)
+    with pytest.raises(SettingsError, match=r"concentration of .* '120 mg/mL' \(mass concentration\) but of .* "
+                                            r"'12 wt%' \(mass fraction\)"):
+        compare(_with_meta(spectra, "concentration", texts), replicates=4)
+
+
+def test_concentration_and_molecular_weight_units():
+    from tauspec.data.units import concentration, molar_mass
+
+    # the SI prefixes (BIPM 2019): 1 g/mL = 1 g/cm³ = 10³ kg/m³, 1 mg/mL = 1 g/L = 1 kg/m³, 1 g/dL = 10 kg/m³
+    assert concentration("0.12 g/mL") == pytest.approx((120.0, "mass concentration"))
+    assert concentration("0.12 g/cm³") == pytest.approx((120.0, "mass concentration"))
+    assert concentration("120 mg/mL")[0] == concentration("120 g/L")[0] == concentration("12 g/dL")[0]
+    assert concentration("12 wt%") == pytest.approx((0.12, "mass fraction"))
+    assert concentration("12") == (12.0, "")
+    assert molar_mass("20 kg/mol") == (20000.0, True) and molar_mass("0.02 MDa") == (20000.0, True)
+    assert molar_mass("20000") == (20000.0, False)
+    with pytest.raises(ValueError, match="ambiguous"):
+        molar_mass("20 mg/mol")
+    with pytest.raises(ValueError, match="unknown unit 'mol/L'"):
+        concentration("0.1 mol/L")
+
+
 def test_series_uses_the_rouse_diagnosis_when_present(series):
     # Stand-in diagnoses carrying the Rouse τ_R = 1e-3 M² and G0 = 1e5/M of the generator (Ferry 1980, ch. 9):
     # with all samples diagnosed rouse the fit uses them (x = 2, z = −1 exactly); with some, both fits are given.
@@ -394,7 +442,7 @@ def test_cli_from_sweep_files_and_from_invert_folders(tmp_path, capsys):
     d1 = json.loads(lines[0])
     assert set(d1) >= {"schema", "samples", "pairs", "series"}
     assert d1["pairs"][0]["time_shift"] == pytest.approx(3.0, rel=0.03)
-    assert "time" in d1["series"] and [s["M"] for s in d1["samples"]] == [20.0, 40.0]
+    assert "time" in d1["series"] and [s["M"] for s in d1["samples"]] == [20000.0, 40000.0]  # g/mol
 
     # archived results: `invert --out` folders and a result.json give the same comparison without re-inverting
     assert main(["invert", str(fa), str(fb), "--out", str(tmp_path / "res")]) == 0

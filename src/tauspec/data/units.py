@@ -23,6 +23,8 @@ __all__ = [
     "number_end",
     "density_kg_m3",
     "molar_mass_g_mol",
+    "molar_mass",
+    "concentration",
 ]
 
 _TWO_PI = 2.0 * math.pi
@@ -256,7 +258,15 @@ def temperature_kelvin(text: str) -> float:
 
 _DENSITY = {"kg/m3": 1.0, "kg/m^3": 1.0, "kg/m³": 1.0, "g/cm3": 1e3, "g/cm^3": 1e3, "g/cm³": 1e3, "g/ml": 1e3,
             "g/cc": 1e3, "kg/l": 1e3, "g/l": 1.0}
-_MOLAR_MASS = {"g/mol": 1.0, "da": 1.0, "kg/mol": 1e3, "kda": 1e3, "mg/mol": 1e-3}
+_MOLAR_MASS = {"g/mol": 1.0, "da": 1.0, "kg/mol": 1e3, "kda": 1e3}
+#: Molecular-weight units where case decides between milli and mega (as for the moduli): the mega ones are read,
+#: any other spelling of them is refused (a milligram per mole is no polymer's molecular weight).
+_MOLAR_MASS_CASED = {"Mg/mol": 1e6, "MDa": 1e6}
+#: Mass concentrations, to kg/m³ (= g/L = mg/mL).
+_MASS_CONCENTRATION = {"kg/m3": 1.0, "g/l": 1.0, "mg/ml": 1.0, "g/ml": 1e3, "g/cm3": 1e3, "g/dl": 10.0,
+                       "mg/l": 1e-3, "µg/ml": 1e-3, "ug/ml": 1e-3}
+#: Mass fractions, to a fraction.
+_MASS_FRACTION = {"%": 1e-2, "wt%": 1e-2, "wt.%": 1e-2, "w%": 1e-2, "%w/w": 1e-2, "w/w%": 1e-2, "ppm": 1e-6}
 
 
 def _with_unit(text: str, table: Mapping[str, float], what: str, units: str) -> tuple[float, bool]:
@@ -300,7 +310,56 @@ def molar_mass_g_mol(text: str) -> float:
     ValueError
         When the text is not a positive number with a known unit.
     """
-    value, _ = _with_unit(text, _MOLAR_MASS, "molecular_weight", "g/mol or kg/mol")
+    return molar_mass(text)[0]
+
+
+def molar_mass(text: str) -> tuple[float, bool]:
+    """A molecular weight in g/mol from metadata text, and whether a unit was written (without one: g/mol).
+
+    g/mol, Da, kg/mol, kDa, Mg/mol and MDa; ``mg/mol`` and ``mDa`` are refused (milli or mega?).
+
+    Raises
+    ------
+    ValueError
+        When the text is not a positive number with a known unit.
+    """
+    value, unit = parse_quantity(text)
+    compact = unit.replace(" ", "")
+    if compact in _MOLAR_MASS_CASED:
+        value, given = value * _MOLAR_MASS_CASED[compact], True
+    elif compact.lower() in ("mg/mol", "mda"):
+        raise ValueError(f"metadata molecular_weight {text!r}: {unit!r} is ambiguous (milli or mega?); write "
+                         "g/mol, kg/mol or Mg/mol")
+    else:
+        value, given = _with_unit(text, _MOLAR_MASS, "molecular_weight", "g/mol, kg/mol or Mg/mol")
     if not (value > 0 and math.isfinite(value)):
         raise ValueError(f"metadata molecular_weight {text!r} is not a positive number")
-    return value
+    return value, given
+
+
+def concentration(text: str) -> tuple[float, str]:
+    """A concentration from metadata text, and its kind.
+
+    Returns a mass concentration in kg/m³ (g/mL, mg/mL, g/L, g/dL, kg/m³ …) with the kind
+    ``"mass concentration"``, a mass fraction (wt%, %, ppm) as a fraction with ``"mass fraction"``, or the
+    number as written with ``""`` when no unit is given.  The two kinds do not convert into each other
+    without the solution's density.
+
+    Raises
+    ------
+    ValueError
+        When the text is not a positive number with a known unit.
+    """
+    value, unit = parse_quantity(text)
+    u = unit.lower().replace(" ", "").replace("³", "3").replace("^3", "3")
+    kind = ""
+    if u in _MASS_CONCENTRATION:
+        value, kind = value * _MASS_CONCENTRATION[u], "mass concentration"
+    elif u in _MASS_FRACTION:
+        value, kind = value * _MASS_FRACTION[u], "mass fraction"
+    elif u:
+        raise ValueError(f"metadata concentration {text!r}: unknown unit {unit!r} (use g/mL, mg/mL, g/L, kg/m3 "
+                         "or wt%)")
+    if not (value > 0 and math.isfinite(value)):
+        raise ValueError(f"metadata concentration {text!r} is not a positive number")
+    return value, kind

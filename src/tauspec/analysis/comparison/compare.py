@@ -39,6 +39,7 @@ import numpy as np
 
 from ...data.record import field, record, resolve_options
 from ...data.sweep import Sweep
+from ...data.units import concentration, molar_mass
 from ...errors import SettingsError
 from ...rounding import number, telling_digits
 from ...spectrum.invert import invert
@@ -173,8 +174,9 @@ def compare(
     reference : int or str, optional
         Compare every sample against this one (index or label) instead of all pairs.
     metadata : sequence of mappings, optional
-        Per sample ``{"M": .., "c": .., "T": ..}``; missing entries are read from the metadata of the sweep
-        (``molecular_weight``, ``concentration``, ``temperature``).
+        Per sample ``{"M": .., "c": .., "T": ..}`` (M in g/mol, c as written, T in K); missing entries are read
+        from the metadata of the sweep (``molecular_weight``, ``concentration``, ``temperature``), their units
+        converted.
     diagnose : bool
         Run the bead-spring diagnosis on every sample for the Rouse ratios and the series; ``diagnoses`` gives
         them precomputed instead.
@@ -269,14 +271,52 @@ def _reference_index(reference: int | str | None, names: Sequence[str]) -> int |
 
 def _series_variables(spectra: Sequence[Spectrum], metadata: Sequence[Mapping[str, float | None]] | None
                       ) -> tuple[list[Any], list[Any], list[Any]]:
-    """M, c and T (K) of every sample: given in ``metadata``, else from the sweep's metadata lines."""
+    """M (g/mol), c and T (K) of every sample: given in ``metadata``, else from the sweep's metadata lines.
+
+    ``metadata`` gives M in g/mol and c as written.  Units written in the sweeps' metadata are converted
+    (``10 kg/mol`` and ``10000 g/mol`` are one M), and a series whose samples mix a unit with none, or a mass
+    concentration with a mass fraction, is refused: only the exponents are fitted, so numbers without a unit
+    serve when every sample gives them alike.
+    """
     meta = [dict(m or {}) for m in metadata] if metadata is not None else [{} for _ in spectra]
     if len(meta) != len(spectra):
         raise SettingsError("metadata must have one mapping per sample")
     M, c, T = [], [], []
+    how: dict[str, list[tuple[str, str, str]]] = {"M": [], "c": []}  # (kind, text, sample) of each value given
     for s, md in zip(spectra, meta):
         sw = s.as_sweep()
-        M.append(md.get("M") if md.get("M") is not None else sw.meta_number("molecular_weight"))
-        c.append(md.get("c") if md.get("c") is not None else sw.meta_number("concentration"))
+        src = sw.source or sw.name
+        for key, meta_key, convert, out in (("M", "molecular_weight", _molar_mass, M),
+                                            ("c", "concentration", _concentration, c)):
+            if md.get(key) is not None:  # M in g/mol; c as given (the manifest's columns)
+                out.append(md[key])
+                how[key].append(("with a unit" if key == "M" else "without a unit",
+                                 f"{md[key]:g}" + (" g/mol" if key == "M" else ""), src))
+            elif sw.meta.get(meta_key) is not None:
+                try:
+                    value, kind = convert(sw.meta[meta_key])
+                except ValueError as exc:
+                    raise SettingsError(str(exc), src) from None
+                out.append(value)
+                how[key].append((kind, sw.meta[meta_key], src))
+            else:
+                out.append(None)
         T.append(md.get("T") if md.get("T") is not None else sw.meta_number("temperature", kind="temperature"))
+    for key, what in (("M", "molecular weight"), ("c", "concentration")):
+        kinds = {k for k, _, _ in how[key]}
+        if len(kinds) > 1:
+            (k1, t1, n1), (k2, t2, n2) = (next(h for h in how[key] if h[0] == k) for k in sorted(kinds)[:2])
+            raise SettingsError(f"the {what} of {n1} is {t1!r} ({k1}) but of {n2} {t2!r} ({k2}): a series needs "
+                                f"them in one kind to be compared; write every sample's {what} alike (or give "
+                                f"{key} of every file in --manifest)")
     return M, c, T
+
+
+def _molar_mass(text: str) -> tuple[float, str]:
+    value, given = molar_mass(text)
+    return value, "with a unit" if given else "without a unit"
+
+
+def _concentration(text: str) -> tuple[float, str]:
+    value, kind = concentration(text)
+    return value, kind or "without a unit"
