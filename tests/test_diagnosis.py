@@ -298,3 +298,28 @@ def test_a_two_decade_sweep_exported_rounded_spans_two_decades():
     d = diagnose(Sweep(omega=w, storage=1e3 * w**2 / (1 + w**2), loss=1e3 * w / (1 + w**2), name="short"),
                  intervals=False)
     assert d.verdict == "inconclusive" and "at least 2 are needed" in d.reason
+
+
+@pytest.mark.parametrize("N,tau1,shown,reach", [(40, 0.6, True, 0.88), (10, 0.15, False, 3.1)])
+def test_a_rouse_chain_whose_modes_run_out_near_omega_max_has_its_entanglement_like_signature_explained(N, tau1, shown,
+                                                                                                        reach):
+    # The exact discrete Rouse chain (Rouse 1953; Ferry 1980, ch. 9: G' = G0 Σ x²/(1 + x²), G'' = G0 Σ x/(1 + x²),
+    # x = ωτ_p) with G0 = 6e5/N Pa.  At N = 40 and τ_1 = 0.6 s its shortest mode τ_N = τ_1 sin²(π/82)/
+    # sin²(40π/82) = 8.8e-4 s lies at 1/ω_max: G' levels off towards N G0 and stays above a rising G'' over more
+    # than a decade on the model itself, before any noise.  The test of that entanglement signature then fails on
+    # a Rouse sample, and a note must say that the fitted chain shows it too.  At N = 10, τ_1 = 0.15 s the modes
+    # run out inside the window (ω_max τ_N = 3.1), G'' falls beyond them, the test passes and no note is written.
+    from synthetic import noisy_sweep, rouse_times
+    from tauspec.models.signatures import storage_dominated_rise
+
+    w = np.geomspace(0.01, 1000, 41)
+    tau = rouse_times(tau1, N)
+    x = np.outer(w, tau)
+    gp, gpp = 6e5 / N * (x**2 / (1 + x**2)).sum(axis=1), 6e5 / N * (x / (1 + x**2)).sum(axis=1)
+    assert w[-1] * tau[-1] == pytest.approx(reach, abs=0.05)
+    assert (storage_dominated_rise(w, gp, gpp) >= 1.0) is shown
+    d = diagnose(noisy_sweep(w, gp, gpp, 0.015, N, name=f"rouse-{N}"))
+    assert d.verdict == "rouse"
+    failed = {e.test for e in d.evidence if e.passed is False}
+    assert ("storage_dominated" in failed) is shown
+    assert any("is shown by the fitted chain too" in n and "speaks for the chain" in n for n in d.notes) is shown

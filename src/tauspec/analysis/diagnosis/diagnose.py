@@ -35,10 +35,11 @@ from ...models.bounds import checked_interval
 from ...models.chainfit import BeadSpringFit
 from ...models.chains import FORM_NAMES
 from ...models.intervals import add_intervals, jacobian_intervals
+from ...rounding import number
 from ...spectrum.threads import limited
 from .describe import describability_evidence
 from .entanglement import Entanglement, analyse_entanglement, bsw_estimate, mass_intervals
-from .evidence import Evidence, _fmt_value, _g, _gather, best_model, entanglement_evidence
+from .evidence import THRESHOLDS, Evidence, _fmt_value, _g, _gather, best_model, entanglement_evidence
 from .options import DiagnoseOptions
 from .verdict import _STATEMENTS, decide
 
@@ -276,6 +277,8 @@ def diagnose(sweep: Sweep, options: DiagnoseOptions | None = None, *, spectrum: 
         ent, more = _checked_entanglement(ent)
         notes.extend(more)
     notes.extend(_fit_notes(verdict, rep, general, reported, w, intervals))
+    if verdict in ("rouse", "zimm"):
+        notes.extend(_signature_of_the_chain(evidence, rep, w))
     (tau_ci, G0_ci, a_ci), more = _checked_fit_intervals(rep, general, w)
     notes.extend(more)
     form, dbic = rouse_form_preference(fits)
@@ -293,6 +296,26 @@ def diagnose(sweep: Sweep, options: DiagnoseOptions | None = None, *, spectrum: 
         spectrum_used=spectrum is not None, notes=tuple(notes), omega=w, storage=gp, loss=gpp, spectrum=spectrum,
         options=opts, rouse_form=form, rouse_form_delta_bic=dbic, entanglement=ent, noise=noise,
     )
+
+
+def _signature_of_the_chain(evidence: Sequence[Evidence], rep: BeadSpringFit, w: np.ndarray) -> list[str]:
+    """Why a failed "G' > G'' with a rising G''" test does not speak against a Rouse or Zimm verdict.
+
+    A finite chain shows that signature of entanglement itself where its modes run out near ω_max (G' levels
+    off at N G0; models/signatures.py): when the reported chain fit shows it too, over at least the test's
+    threshold, the note says so with the chain's shortest mode time.
+    """
+    e = next((x for x in evidence if x.test == "storage_dominated" and x.passed is False), None)
+    if e is None or rep.storage_fit is None:
+        return []
+    fitted = sg.storage_dominated_rise(w, rep.storage_fit, rep.loss_fit)
+    if fitted < THRESHOLDS["storage_decades"]:
+        return []
+    tau_n = float(rep.mode_times()[-1])
+    return [f"G' above G'' with a rising G'' over {e.value:.2f} decades, a sign of entanglement in other samples, "
+            f"is shown by the fitted chain too ({fitted:.2f} decades): its modes run out near the highest "
+            f"frequency (shortest mode time {_g(tau_n)} s, ω_max τ_N = {number(w[-1] * tau_n, 2)}), so here it "
+            "speaks for the chain, not against it"]
 
 
 def _reported_fit(fits: Mapping[str, BeadSpringFit], verdict: str, data: tuple, solvent: bool,
