@@ -418,3 +418,28 @@ def test_the_dask_cluster_does_not_talk_on_the_terminal(archive, tmp_path):
     assert proc.returncode == 0, proc.stderr
     assert "8 samples: 8 ok" in proc.stdout
     assert not [line for line in proc.stderr.splitlines() if re.search(r"Nanny|Scheduler|[Ww]orker", line)], proc.stderr
+
+
+@pytest.mark.parametrize("verdict,shown", [
+    ("rouse", {"tau_R": 0.6, "G0": 1.5e4, "alpha": 2.0}),
+    ("zimm", {"tau_R": 0.5, "G0": 7.9, "alpha": 1.76}),
+    ("entangled", {"GN0": 2e5, "tau_d": 8.0}),
+    ("gel", {"gel_n": 0.5}),
+    ("other", {}),
+    ("inconclusive", {}),
+])
+def test_summary_gives_each_verdict_its_own_numbers(verdict, shown):
+    # A bead-spring fit's τ_R, G0 and a are written for a Rouse or Zimm sample only; an entangled melt gets G_N⁰
+    # and τ_d, a gel its exponent n (as the text of the diagnosis shows them; docs/batch.md).  Before, every
+    # verdict carried the bead-spring numbers, and an entangled melt's "tau_R" sat in the column beside the Rouse
+    # samples' ones.
+    from tauspec.batch.summary import summary_row
+
+    zimm = verdict == "zimm"
+    diagnosis = {"verdict": verdict, "tau_R": 0.5 if zimm else 0.6, "G0": 7.9 if zimm else 1.5e4,
+                 "alpha": 1.76 if zimm else 2.0, "N": 39.4, "GN0": 2e5, "tau_d": 8.0,
+                 "n": 0.5 if verdict == "gel" else None}
+    row = summary_row({"file": "a.csv", "status": "ok", "diagnosis": diagnosis}, "a.csv")
+    for column in ("tau_R", "G0", "alpha", "GN0", "tau_d", "gel_n"):
+        assert row[column] == (repr(float(shown[column])) if column in shown else ""), column
+    assert list(row) == list(SUMMARY_COLUMNS)

@@ -17,15 +17,18 @@ from typing import Any
 
 from ..data.write import atomic_write_text
 from ..output.text import spreadsheet_cell, spreadsheet_value
+from ..output.words import key_numbers
 from .inputs import Input
 from .store import _load_json
 
 __all__ = ["SUMMARY_COLUMNS", "TEXT_COLUMNS", "summary_row", "summary_rows", "write_summary", "read_summary"]
 
 
-#: Columns of ``summary.csv``, in order.
+#: Columns of ``summary.csv``, in order.  The verdict's numbers: τ_R, G0 and the mode exponent a for a Rouse or
+#: Zimm sample, G_N⁰ and τ_d for an entangled one, the gel exponent n for a gel (blank for the other verdicts: a
+#: bead-spring fit's τ_R means nothing for an entangled melt); the last three came later and follow ``error``.
 SUMMARY_COLUMNS = ("file", "status", "sample", "verdict", "tau_R", "G0", "alpha", "eta0", "lambda", "eta_s",
-                   "residual_rms", "n_modes", "warnings", "error")
+                   "residual_rms", "n_modes", "warnings", "error", "GN0", "tau_d", "gel_n")
 #: The columns that hold text (the others hold numbers, written as ``repr(float)``).
 TEXT_COLUMNS = ("file", "status", "sample", "verdict", "error")
 
@@ -57,14 +60,15 @@ def summary_row(result: Mapping[str, Any] | None, file: str) -> dict[str, str]:
     derived = result.get("derived") or {}
     modes = result.get("modes") or {}
     warn = list(result.get("notes") or [])  # every warning of every step (the spectrum's are among them)
+    key = {k: v for k, v, _ in key_numbers(diagnosis)} if diagnosis else {}
     row = {
         "file": file,
         "status": str(result.get("status", "error")),
         "sample": str(result.get("sample") or ""),
         "verdict": str(diagnosis.get("verdict") or ""),
-        "tau_R": _num(diagnosis.get("tau_R")),
-        "G0": _num(diagnosis.get("G0")),
-        "alpha": _num(diagnosis.get("alpha")),
+        "tau_R": _num(key.get("tau_R")),
+        "G0": _num(key.get("G0")),
+        "alpha": _num(key.get("alpha")),
         "eta0": _num(derived.get("eta0")),
         "lambda": _num(spectrum.get("lambda")),
         "eta_s": _num(spectrum.get("eta_s")),
@@ -72,6 +76,9 @@ def summary_row(result: Mapping[str, Any] | None, file: str) -> dict[str, str]:
         "n_modes": str(len(modes["g"])) if "g" in modes else "",
         "warnings": str(len(warn)) if result.get("status") == "ok" else "",
         "error": str(result.get("error") or ""),
+        "GN0": _num(key.get("GN0")),
+        "tau_d": _num(key.get("tau_d")),
+        "gel_n": _num(key.get("n")),
     }
     return row
 
