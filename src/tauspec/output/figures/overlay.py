@@ -82,16 +82,22 @@ def overlay_figure(comparison: Comparison) -> Any:
     return fig
 
 
-def _m_unit(comparison: Comparison) -> str:
-    """The unit of the molecular weight as the sweep files give it (``kg/mol``), or ``as given``."""
+def _m_scale(comparison: Comparison) -> tuple[float, str]:
+    """The factor from the samples' M to the axis, and the axis unit.
+
+    The comparison holds M in g/mol when the sweeps' metadata write a unit (and from a manifest, whose M is in
+    g/mol): the axis shows kg/mol.  Numbers written without a unit are drawn as given.
+    """
     for sp in comparison.spectra:
         text = (sp.meta or {}).get("molecular_weight")
         if text:
             try:
-                return parse_quantity(text)[1].strip() or "as given"
+                if not parse_quantity(text)[1].strip():
+                    return 1.0, "as given"
             except ValueError:
                 continue
-    return "as given"
+            break
+    return 1e-3, "kg/mol"
 
 
 def plot_series(comparison: Comparison, ax: Any = None) -> Any | None:
@@ -116,14 +122,16 @@ def plot_series(comparison: Comparison, ax: Any = None) -> Any | None:
     t = np.array([p[1] for p in pts], dtype=float)
     x = fit.exponents["M"]
     lo, hi = fit.intervals["M"]
+    scale, unit = _m_scale(comparison)
     with styled():
-        ax.plot(M, t, "o", color="C0", label=r"$\tau_R$ of each sample" if use_rouse else r"$\tau_w$ of each sample")
+        ax.plot(M * scale, t, "o", color="C0",
+                label=r"$\tau_R$ of each sample" if use_rouse else r"$\tau_w$ of each sample")
         grid = np.geomspace(M.min() / 1.3, M.max() * 1.3, 50)
-        line = fit.prefactor * grid**x
+        line = fit.prefactor * grid**x  # the fit is in the samples' M
         ci = f", 95 % [{lo:.2f}, {hi:.2f}]" if math.isfinite(lo) and math.isfinite(hi) else ""
-        ax.plot(grid, line, "-", color=NEUTRAL, lw=1, label=f"fit: τ ∝ $M^{{{x:.2f}}}${ci}")
-        log_axes(ax, [grid], [t, line])
-        ax.set_xlabel(f"molecular weight M [{_m_unit(comparison)}]")
+        ax.plot(grid * scale, line, "-", color=NEUTRAL, lw=1, label=f"fit: τ ∝ $M^{{{x:.2f}}}${ci}")
+        log_axes(ax, [grid * scale], [t, line])
+        ax.set_xlabel(f"molecular weight M [{unit}]")
         ax.set_ylabel(r"Rouse time $\tau_R$ [s]" if use_rouse else r"weight-average time $\tau_w$ [s]")
         set_title(ax, "series scaling of the relaxation time")
         legend(ax, loc="upper left")
