@@ -443,3 +443,16 @@ def test_summary_gives_each_verdict_its_own_numbers(verdict, shown):
     for column in ("tau_R", "G0", "alpha", "GN0", "tau_d", "gel_n"):
         assert row[column] == (repr(float(shown[column])) if column in shown else ""), column
     assert list(row) == list(SUMMARY_COLUMNS)
+
+
+@pytest.mark.parametrize("side,flagged,kept", [("long", True, False), ("short", True, True), ("long", False, True)])
+def test_summary_leaves_out_a_zero_shear_viscosity_the_terminal_zone_does_not_determine(side, flagged, kept):
+    # η0 = η_s + Σ g τ (Ferry 1980, ch. 3) needs the terminal zone: when the flagged share of it comes from times
+    # longer than the supported window (a critical gel's η0 diverges, Winter & Chambon 1986) the column is blank;
+    # a share from shorter times is taken up by η_s and the number stays.
+    from tauspec.batch.summary import summary_row
+
+    derived = {"eta0": 1.7e4, "flags": {"eta0": flagged}, "outside_side": {"eta0": side},
+               "outside_share": {"eta0": 0.92}}
+    row = summary_row({"file": "a.csv", "status": "ok", "derived": derived}, "a.csv")
+    assert row["eta0"] == ("17000.0" if kept else "")

@@ -136,6 +136,11 @@ def test_demo_in_a_terminal_with_only_the_required_dependencies(bare, tmp_path, 
         assert float(row["eta0"]) == pytest.approx(s.truth["eta_s"] + s.truth["G0"] * taus.sum(), rel=0.05)
         assert int(row["n_modes"]) == len(stored["modes"]["g"]) >= 1
         assert (tmp_path / "results" / "series" / f"{s.name}.csv" / "modes.csv").exists()
+    # the critical gel G' ∝ G'' ∝ ω^n (Winter & Chambon 1986): its exponent in the summary, and no η0 (it diverges)
+    gel = next(s for s in demo_samples() if s.kind == "gel")
+    row = rows[f"retains/{gel.name}.csv"]
+    assert row["verdict"] == "gel" and float(row["gel_n"]) == pytest.approx(gel.truth["n"], abs=0.03)
+    assert row["eta0"] == "" and row["tau_R"] == ""
     # and it resumes: nothing is computed twice
     assert main(["demo", "--out", str(tmp_path), "--jobs", "2"]) == 0
     assert "0 computed, 9 already current" in capsys.readouterr().out

@@ -17,7 +17,7 @@ from typing import Any
 
 from ..data.write import atomic_write_text
 from ..output.text import spreadsheet_cell, spreadsheet_value
-from ..output.words import key_numbers
+from ..output.words import key_numbers, zero_shear_viscosity
 from .inputs import Input
 from .store import _load_json
 
@@ -69,7 +69,7 @@ def summary_row(result: Mapping[str, Any] | None, file: str) -> dict[str, str]:
         "tau_R": _num(key.get("tau_R")),
         "G0": _num(key.get("G0")),
         "alpha": _num(key.get("alpha")),
-        "eta0": _num(derived.get("eta0")),
+        "eta0": _num(zero_shear_viscosity(derived)[0]),
         "lambda": _num(spectrum.get("lambda")),
         "eta_s": _num(spectrum.get("eta_s")),
         "residual_rms": _num(spectrum.get("residual_rms")),

@@ -27,6 +27,7 @@ from .words import (
     plain_words,
     quantity,
     telling_digits,
+    zero_shear_viscosity,
 )
 from .words import is_finite_number as _finite
 
@@ -211,9 +212,9 @@ def row_html(row: Mapping[str, str], result: Mapping[str, Any], href: str) -> st
     else:
         cells += [_cell(None, None), _cell(None, None)]
     cells.append(_third_cell(diag))
-    eta0 = (result.get("derived") or {}).get("eta0")
+    eta0, why = zero_shear_viscosity(result.get("derived") or {})
     cells.append(f'<td class="num" data-sort="{float(eta0)!r}">{number(eta0)}</td>' if _finite(eta0)
-                 else '<td class="num" data-sort=""></td>')
+                 else f'<td class="num" data-sort="" title="{html.escape(why)}"></td>')
     rms = row.get("residual_rms")
     cells.append(f'<td class="num" data-sort="{html.escape(rms)}">{100 * float(rms):.1f}</td>' if _finite(rms)
                  else '<td class="num" data-sort=""></td>')
@@ -307,9 +308,11 @@ def section_html(anchor: str, row: Mapping[str, str], result: Mapping[str, Any],
     if diag.get("statement"):
         parts.append(f"<p>{text(plain_words(diag['statement']))}</p>")
     numbers = [quantity(k, v, ci) for k, v, ci in key_numbers(diag) if _finite(v)] + entanglement_lines(diag)
-    eta0 = (result.get("derived") or {}).get("eta0")
+    eta0, why = zero_shear_viscosity(result.get("derived") or {})
     if _finite(eta0):
         numbers.append(quantity("eta0", eta0))
+    elif why:
+        numbers.append(why)
     if numbers:
         parts.append('<ul class="numbers">' + "".join(f"<li>{html.escape(n)}</li>" for n in numbers) + "</ul>")
     parts.append(figures_html(figures) or f'<p class="muted">{html.escape(figures_note)}</p>')

@@ -15,7 +15,7 @@ from ..rounding import counted, interval, is_finite_number, number, telling_digi
 
 __all__ = ["LEFT_OUT", "QUANTITIES", "EVIDENCE_WORDS", "VERDICT_WORDS", "number", "quantity", "interval",
            "telling_digits", "evidence_line",
-           "symbol", "unit", "words", "plain_words", "key_numbers", "gel_exponent",
+           "symbol", "unit", "words", "plain_words", "key_numbers", "gel_exponent", "zero_shear_viscosity",
            "is_finite_number", "error_words", "counted"]
 
 #: The status of a batch row whose block is not a frequency sweep (an amplitude, time or temperature sweep in
@@ -188,6 +188,25 @@ def evidence_line(e: Mapping[str, Any]) -> tuple[str, bool | None]:
             text += f", expected {expected}"
     passed = e.get("passed")
     return text, passed if isinstance(passed, bool) else None
+
+
+def zero_shear_viscosity(derived: Mapping[str, Any]) -> tuple[Any, str]:
+    """η0 of a result's derived numbers when the data determine it, else None and why not.
+
+    η0 = η_s + Σ g τ needs the terminal zone: when more than the flag's share of it comes from relaxation times
+    longer than the supported window (a gel, whose η0 diverges, or a fluid whose terminal zone lies below
+    ω_min), the number is the extrapolated modes', not the data's.  A share from shorter times is kept: η_s
+    takes up the modes faster than the window.
+    """
+    eta0 = derived.get("eta0")
+    if not is_finite_number(eta0):
+        return None, ""
+    if (derived.get("flags") or {}).get("eta0") and (derived.get("outside_side") or {}).get("eta0") == "long":
+        share = (derived.get("outside_share") or {}).get("eta0")
+        part = f"{100 * share:.0f} % of the modes' value" if is_finite_number(share) and share <= 1 else "most of it"
+        return None, (f"η0 not determined by the data: {part} comes from relaxation times longer than the "
+                      "supported window (the terminal zone is not in the sweep)")
+    return eta0, ""
 
 
 def gel_exponent(diag: Mapping[str, Any]) -> Any:
