@@ -344,11 +344,17 @@ def test_series_converts_the_units_of_the_metadata(series):
 
 
 def test_series_refuses_a_mix_of_a_unit_and_none_and_of_two_kinds_of_concentration(series):
-    _, spectra, _ = series
+    Ms, spectra, _ = series
     texts = ["10 kg/mol"] + ["20000"] * (len(spectra) - 1)
     with pytest.raises(SettingsError, match=r"molecular weight of .* is '10 kg/mol' \(with a unit\) but of .* "
                                             r"'20000' \(without a unit\)"):
         compare(_with_meta(spectra, "molecular_weight", texts), replicates=4)
+    # a manifest's M for some samples beside the sweeps' own for the others: which unit the manifest meant is
+    # not known (it says g/mol; a lab writing kg/mol there would get a wrong exponent without a word)
+    texts = [f"{M:.6g} kg/mol" for M in Ms]
+    metadata = [{"M": 10.0}] + [{}] * (len(spectra) - 1)
+    with pytest.raises(SettingsError, match=r"'10' \(given in the manifest\) but of .* \(with a unit\)"):
+        compare(_with_meta(spectra, "molecular_weight", texts), metadata=metadata, replicates=4)
     # a mass concentration and a mass fraction convert into each other only with the solution's density
     texts = ["120 mg/mL"] + ["12 wt%"] * (len(spectra) - 1)
     with pytest.raises(SettingsError, match=r"concentration of .* '120 mg/mL' \(mass concentration\) but of .* "

@@ -273,10 +273,11 @@ def _series_variables(spectra: Sequence[Spectrum], metadata: Sequence[Mapping[st
                       ) -> tuple[list[Any], list[Any], list[Any]]:
     """M (g/mol), c and T (K) of every sample: given in ``metadata``, else from the sweep's metadata lines.
 
-    ``metadata`` gives M in g/mol and c as written.  Units written in the sweeps' metadata are converted
-    (``10 kg/mol`` and ``10000 g/mol`` are one M), and a series whose samples mix a unit with none, or a mass
-    concentration with a mass fraction, is refused: only the exponents are fitted, so numbers without a unit
-    serve when every sample gives them alike.
+    ``metadata`` (the manifest's columns) gives M in g/mol and c as written.  Units written in the sweeps'
+    metadata are converted (``10 kg/mol`` and ``10000 g/mol`` are one M), and a series whose samples mix a
+    unit with none, a mass concentration with a mass fraction, or values of the manifest with values of the
+    sweeps' metadata, is refused: only the exponents are fitted, so numbers without a unit serve when every
+    sample gives them alike.
     """
     meta = [dict(m or {}) for m in metadata] if metadata is not None else [{} for _ in spectra]
     if len(meta) != len(spectra):
@@ -290,8 +291,7 @@ def _series_variables(spectra: Sequence[Spectrum], metadata: Sequence[Mapping[st
                                             ("c", "concentration", _concentration, c)):
             if md.get(key) is not None:  # M in g/mol; c as given (the manifest's columns)
                 out.append(md[key])
-                how[key].append(("with a unit" if key == "M" else "without a unit",
-                                 f"{md[key]:g}" + (" g/mol" if key == "M" else ""), src))
+                how[key].append(("given in the manifest", f"{md[key]:g}", src))
             elif sw.meta.get(meta_key) is not None:
                 try:
                     value, kind = convert(sw.meta[meta_key])
