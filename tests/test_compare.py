@@ -597,3 +597,22 @@ def test_a_shift_and_its_interval_end_read_apart():
     assert _value_ci(1.00001, (0.99982, 1.00021)) == "1 [0.99982, 1.0002]"
     assert _value_ci(3.656, (3.623, 3.689)) == "3.656 [3.623, 3.689]"
     assert _value_ci(59.52, (math.nan, math.nan)) == "59.52 [n/a, n/a]"
+
+
+def test_rouse_chains_of_different_length_differ_at_their_shortest_modes():
+    # Rouse scaling at fixed concentration (Ferry 1980, ch. 9): N ∝ M, τ_1 ∝ M², G0 = cRT/M.  Shifted by a = 4,
+    # b = 1/2 the chain of 2N modes is the chain of N plus its modes p > N, which relax faster than τ_1/N² (here
+    # inside the window: ω_max τ_N ≈ 3): the shifted moduli differ there only, so most of the misfit lies in the
+    # highest third of the overlap, and the note says so.
+    w = np.geomspace(0.01, 1000, 41)
+    sweeps = []
+    for k, (N, tau1, G0) in enumerate([(20, 0.15, 1e4), (40, 0.6, 5e3)]):
+        x = np.outer(w, rouse_times(tau1, N))
+        gp, gpp = G0 * (x**2 / (1 + x**2)).sum(axis=1), G0 * (x / (1 + x**2)).sum(axis=1)
+        sweeps.append(noisy_sweep(w, gp, gpp, 0.01, 40 + k, name=f"N{N}"))
+    p = compare(sweeps, replicates=4).pairs[0]
+    assert p.same_shape is False
+    shares = p.moduli["misfit_thirds"]
+    assert sum(shares) == pytest.approx(1.0) and shares[2] > 0.6
+    note = next(n for n in p.notes if n.startswith("most of that misfit"))
+    assert f"({100 * shares[2]:.0f} %) lies in the highest third of the overlap" in note

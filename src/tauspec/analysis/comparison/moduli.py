@@ -56,6 +56,10 @@ class ModuliShift:
     p_value: float
     decades: float
     noise: tuple[float, float]
+    #: share of χ² in the lowest, middle and highest third of the overlap (in ln ω), and B's frequencies at the
+    #: two cuts between them: where the shifted moduli differ
+    misfit_thirds: tuple[float, float, float] = (math.nan, math.nan, math.nan)
+    cuts: tuple[float, float] = (math.nan, math.nan)
 
     @staticmethod
     def interval(log_value: float, se: float, level: float = 0.95) -> tuple[float, float]:
@@ -71,7 +75,8 @@ class ModuliShift:
         return {"time_shift": a, "time_shift_ci": list(self.interval(self.log_a, self.log_a_se)),
                 "modulus_shift": b, "modulus_shift_ci": list(self.interval(self.log_b, self.log_b_se)),
                 "chi2": self.chi2, "n_points": self.n, "dof": self.n - 2, "p_value": self.p_value,
-                "overlap_decades": self.decades, "noise": list(self.noise)}
+                "overlap_decades": self.decades, "noise": list(self.noise),
+                "misfit_thirds": list(self.misfit_thirds)}
 
 
 def _splines(omega: np.ndarray, storage: np.ndarray, loss: np.ndarray):
@@ -132,12 +137,29 @@ def fit_moduli_shift(a_data: Data, b_data: Data,
     x = xb + best
     m = (x >= xa_lo) & (x <= xa_hi)
     decades = float((x[m].max() - x[m].min()) / math.log(10)) if np.count_nonzero(m) >= 2 else 0.0
+    thirds, cuts = _misfit_thirds(x[(x >= xa_lo - 1e-12) & (x <= xa_hi + 1e-12)], r, best)
     # σ_A, σ_B are themselves estimated (a MAD of the pseudo-residuals, worth about 37 % of as many Gaussian
     # degrees of freedom: Rousseeuw & Croux 1993, from memory), so the statistic is read as an F ratio
     nu = max(MAD_EFFICIENCY * (len(wa) - 4 + len(wb) - 4), 1.0)
     p = float(stats.f.sf(chi2 / max(n - 2, 1), max(n - 2, 1), nu))
     return ModuliShift(log_a=best, log_b=beta, log_a_se=se_a, log_b_se=se_b, chi2=chi2, n=n, p_value=p,
-                       decades=decades, noise=(sa, sb))
+                       decades=decades, noise=(sa, sb), misfit_thirds=thirds, cuts=cuts)
+
+
+def _misfit_thirds(x: np.ndarray, r: np.ndarray, log_a: float) -> tuple[tuple[float, float, float],
+                                                                       tuple[float, float]]:
+    """Shares of Σr² in the three equal thirds (in ln ω) of the overlap, and B's ω at the two cuts.
+
+    ``x`` are B's shifted ln ω inside the overlap and ``r`` the residuals of G' then G'' at them.
+    """
+    lo, hi = (float(x.min()), float(x.max())) if x.size else (math.nan, math.nan)
+    total = float(r @ r)
+    if not (hi > lo and total > 0):
+        return (math.nan, math.nan, math.nan), (math.nan, math.nan)
+    k = np.minimum(((np.concatenate([x, x]) - lo) / (hi - lo) * 3).astype(int), 2)
+    shares = tuple(float(np.sum(r[k == j] ** 2) / total) for j in range(3))
+    cut = (lo + (hi - lo) / 3, lo + 2 * (hi - lo) / 3)
+    return shares, (math.exp(cut[0] - log_a), math.exp(cut[1] - log_a))  # type: ignore[return-value]
 
 
 def weight_fraction(spectrum: Any, tau_lo: float, tau_hi: float) -> float:

@@ -11,6 +11,7 @@ import numpy as np
 from scipy import stats
 
 from ...data.record import field, record
+from ...rounding import number
 from ...spectrum.result import Spectrum
 from ..uncertainty.noise import MIN_POINTS_PER_DECADE, density_words, points_per_decade, too_sparse
 from .moduli import MIN_DECADES, MIN_WEIGHT, ModuliShift, fit_moduli_shift, weight_fraction
@@ -177,11 +178,38 @@ def _moduli_decision(spectra: tuple[Spectrum, Spectrum], fit: ShiftFit, shifts: 
     if not decided:
         notes.append(f"the shifted moduli differ beyond their noise (chi2 = {ms.chi2:.4g} on {ms.n - 2} degrees of "
                      f"freedom, p = {ms.p_value:.3g})")
+        notes += _where_they_differ(ms, sb.sample)
     elif same is False:
         notes.append(f"the spectra differ beyond their replicate spread (p = {p:.3g}) while the shifted moduli agree "
                      f"within their noise (p = {ms.p_value:.3g}): the difference lies in the inversion (its bias "
                      "depends on where the features sit in each window), not in the data")
     return moduli, decided, new_shifts, notes
+
+
+#: Share of the misfit in one third of the overlap above which the note says where the moduli differ (a third
+#: of it would be an even spread; our choice).
+MISFIT_CONCENTRATED = 0.6
+
+
+def _where_they_differ(ms: ModuliShift, name_b: str) -> list[str]:
+    """Where in the overlap the shifted moduli differ, when most of the misfit lies in one third of it.
+
+    Two samples that relax alike but for one end of the spectrum differ there only: chains of different length
+    (N ∝ M) superpose with the Rouse shifts except at their shortest modes (Ferry 1980, ch. 9), so their
+    misfit sits at the high-frequency end.
+    """
+    shares = ms.misfit_thirds
+    if not all(math.isfinite(v) for v in shares):
+        return []
+    k = int(np.argmax(shares))
+    if shares[k] < MISFIT_CONCENTRATED:
+        return []
+    lo, hi = (number(c) for c in ms.cuts)
+    where = (f"lowest third of the overlap ({name_b} below {lo} rad/s): the samples differ at long times",
+             f"middle third of the overlap ({name_b} between {lo} and {hi} rad/s)",
+             f"highest third of the overlap ({name_b} above {hi} rad/s): the samples differ at short times, as "
+             "chains of different length do at their shortest modes")[k]
+    return [f"most of that misfit ({100 * shares[k]:.0f} %) lies in the {where}"]
 
 
 def _compare_pair(name_a: str, name_b: str, ua: SampleUncertainty, ub: SampleUncertainty, null: np.ndarray,
