@@ -68,7 +68,7 @@ def parse_cell(text: str, *, decimal_comma: bool) -> float | Missing | None:
     """
     t = text.strip()
     low = t.lower()
-    if low in _MISSING_TEXTS or not t.strip("-"):
+    if low in _MISSING_TEXTS or (t[:1] == "-" and not t.strip("-")):
         return MISSING
     if low in _INFINITE:
         return _INFINITE[low]

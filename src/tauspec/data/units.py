@@ -256,8 +256,7 @@ def temperature_kelvin(text: str) -> float:
     raise ValueError(f"temperature unit {unit!r} not understood (use C or K)")
 
 
-_DENSITY = {"kg/m3": 1.0, "kg/m^3": 1.0, "kg/m³": 1.0, "g/cm3": 1e3, "g/cm^3": 1e3, "g/cm³": 1e3, "g/ml": 1e3,
-            "g/cc": 1e3, "kg/l": 1e3, "g/l": 1.0}
+_DENSITY = {"kg/m3": 1.0, "g/cm3": 1e3, "g/ml": 1e3, "g/cc": 1e3, "kg/l": 1e3, "g/l": 1.0}
 _MOLAR_MASS = {"g/mol": 1.0, "da": 1.0, "kg/mol": 1e3, "kda": 1e3}
 #: Molecular-weight units where case decides between milli and mega (as for the moduli): the mega ones are read,
 #: any other spelling of them is refused (a milligram per mole is no polymer's molecular weight).
@@ -267,17 +266,27 @@ _MASS_CONCENTRATION = {"kg/m3": 1.0, "g/l": 1.0, "mg/ml": 1.0, "g/ml": 1e3, "g/c
                        "mg/l": 1e-3, "µg/ml": 1e-3, "ug/ml": 1e-3}
 #: Mass fractions, to a fraction.
 _MASS_FRACTION = {"%": 1e-2, "wt%": 1e-2, "wt.%": 1e-2, "w%": 1e-2, "%w/w": 1e-2, "w/w%": 1e-2, "ppm": 1e-6}
+_CONCENTRATION = {**_MASS_CONCENTRATION, **_MASS_FRACTION}
 
 
-def _with_unit(text: str, table: Mapping[str, float], what: str, units: str) -> tuple[float, bool]:
-    """(value converted by the table, whether a unit was given); a unit not in the table is refused."""
+def _with_unit(text: str, table: Mapping[str, float], what: str, units: str,
+               cased: Mapping[str, float] | None = None) -> tuple[float, str]:
+    """(value converted by the table, the unit's key in it or "" when none is written); other units are refused.
+
+    Keys are lower case without blanks (``³`` and ``^3`` written ``3``).  ``cased`` holds the spellings where
+    case decides between milli and mega, as :func:`to_si` does for the moduli: written exactly they are read,
+    any other spelling of them is refused as ambiguous.
+    """
     value, unit = parse_quantity(text)
-    u = unit.strip().lower().replace(" ", "")
-    if not u:
-        return value, False
-    if u not in table:
+    compact = unit.replace(" ", "")
+    if cased and compact in cased:
+        return value * cased[compact], compact
+    key = compact.lower().replace("³", "3").replace("^3", "3")
+    if cased and any(key == spelled.lower() for spelled in cased):
+        raise ValueError(f"metadata {what} {text!r}: {unit!r} is ambiguous (milli or mega?); write {units}")
+    if key and key not in table:
         raise ValueError(f"metadata {what}: unknown unit {unit!r} (use {units})")
-    return value * table[u], True
+    return value * table.get(key, 1.0), key
 
 
 def density_kg_m3(text: str) -> float:
@@ -323,18 +332,10 @@ def molar_mass(text: str) -> tuple[float, bool]:
     ValueError
         When the text is not a positive number with a known unit.
     """
-    value, unit = parse_quantity(text)
-    compact = unit.replace(" ", "")
-    if compact in _MOLAR_MASS_CASED:
-        value, given = value * _MOLAR_MASS_CASED[compact], True
-    elif compact.lower() in ("mg/mol", "mda"):
-        raise ValueError(f"metadata molecular_weight {text!r}: {unit!r} is ambiguous (milli or mega?); write "
-                         "g/mol, kg/mol or Mg/mol")
-    else:
-        value, given = _with_unit(text, _MOLAR_MASS, "molecular_weight", "g/mol, kg/mol or Mg/mol")
+    value, key = _with_unit(text, _MOLAR_MASS, "molecular_weight", "g/mol, kg/mol or Mg/mol", _MOLAR_MASS_CASED)
     if not (value > 0 and math.isfinite(value)):
         raise ValueError(f"metadata molecular_weight {text!r} is not a positive number")
-    return value, given
+    return value, bool(key)
 
 
 def concentration(text: str) -> tuple[float, str]:
@@ -350,16 +351,7 @@ def concentration(text: str) -> tuple[float, str]:
     ValueError
         When the text is not a positive number with a known unit.
     """
-    value, unit = parse_quantity(text)
-    u = unit.lower().replace(" ", "").replace("³", "3").replace("^3", "3")
-    kind = ""
-    if u in _MASS_CONCENTRATION:
-        value, kind = value * _MASS_CONCENTRATION[u], "mass concentration"
-    elif u in _MASS_FRACTION:
-        value, kind = value * _MASS_FRACTION[u], "mass fraction"
-    elif u:
-        raise ValueError(f"metadata concentration {text!r}: unknown unit {unit!r} (use g/mL, mg/mL, g/L, kg/m3 "
-                         "or wt%)")
+    value, key = _with_unit(text, _CONCENTRATION, "concentration", "g/mL, mg/mL, g/L, kg/m3 or wt%")
     if not (value > 0 and math.isfinite(value)):
         raise ValueError(f"metadata concentration {text!r} is not a positive number")
-    return value, kind
+    return value, ("mass fraction" if key in _MASS_FRACTION else "mass concentration") if key else ""

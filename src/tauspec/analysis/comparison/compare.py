@@ -303,9 +303,9 @@ def _series_variables(spectra: Sequence[Spectrum], metadata: Sequence[Mapping[st
                 out.append(None)
         T.append(md.get("T") if md.get("T") is not None else sw.meta_number("temperature", kind="temperature"))
     for key, what in (("M", "molecular weight"), ("c", "concentration")):
-        kinds = {k for k, _, _ in how[key]}
-        if len(kinds) > 1:
-            (k1, t1, n1), (k2, t2, n2) = (next(h for h in how[key] if h[0] == k) for k in sorted(kinds)[:2])
+        other = next((h for h in how[key] if h[0] != how[key][0][0]), None)
+        if other is not None:
+            (k1, t1, n1), (k2, t2, n2) = how[key][0], other
             raise SettingsError(f"the {what} of {n1} is {t1!r} ({k1}) but of {n2} {t2!r} ({k2}): a series needs "
                                 f"them in one kind to be compared; write every sample's {what} alike (or give "
                                 f"{key} of every file in --manifest)")

@@ -108,16 +108,16 @@ def fit_moduli_shift(a_data: Data, b_data: Data,
     if hi_shift < lo_shift:
         return None
 
-    def resid(log_a: float) -> tuple[np.ndarray, float, int]:
+    def resid(log_a: float) -> tuple[np.ndarray, float, np.ndarray]:
         x = xb + log_a
         m = (x >= xa_lo - 1e-12) & (x <= xa_hi + 1e-12)
         r = np.concatenate([np.log(pb[m]) - sp_a(x[m]), np.log(qb[m]) - sq_a(x[m])])
         beta = float(np.mean(r)) if len(r) else 0.0
-        return r - beta, beta, int(np.count_nonzero(m))
+        return r - beta, beta, x[m]
 
     def score(log_a: float) -> float:
-        r, _, k = resid(log_a)
-        return float(r @ r) / max(len(r), 1) if k >= 3 else math.inf
+        r, _, xm = resid(log_a)
+        return float(r @ r) / max(len(r), 1) if xm.size >= 3 else math.inf
 
     step = float(np.min(np.diff(xb))) / 10
     grid = np.append(np.arange(lo_shift, hi_shift + step / 2, step), min(max(log_a0, lo_shift), hi_shift))
@@ -126,7 +126,7 @@ def fit_moduli_shift(a_data: Data, b_data: Data,
                                    method="bounded", options={"xatol": 1e-7})
     if res.success and res.fun <= score(best):
         best = float(res.x)
-    r, beta, k = resid(best)
+    r, beta, x_in = resid(best)
     chi2 = float(r @ r) / var
     n = len(r)
     # standard errors from the curvature of χ²(ln a) (ln b solved inside) and of the mean for ln b
@@ -137,7 +137,7 @@ def fit_moduli_shift(a_data: Data, b_data: Data,
     x = xb + best
     m = (x >= xa_lo) & (x <= xa_hi)
     decades = float((x[m].max() - x[m].min()) / math.log(10)) if np.count_nonzero(m) >= 2 else 0.0
-    thirds, cuts = _misfit_thirds(x[(x >= xa_lo - 1e-12) & (x <= xa_hi + 1e-12)], r, best)
+    thirds, cuts = _misfit_thirds(x_in, r, best)
     # σ_A, σ_B are themselves estimated (a MAD of the pseudo-residuals, worth about 37 % of as many Gaussian
     # degrees of freedom: Rousseeuw & Croux 1993, from memory), so the statistic is read as an F ratio
     nu = max(MAD_EFFICIENCY * (len(wa) - 4 + len(wb) - 4), 1.0)
@@ -156,10 +156,9 @@ def _misfit_thirds(x: np.ndarray, r: np.ndarray, log_a: float) -> tuple[tuple[fl
     total = float(r @ r)
     if not (hi > lo and total > 0):
         return (math.nan, math.nan, math.nan), (math.nan, math.nan)
-    k = np.minimum(((np.concatenate([x, x]) - lo) / (hi - lo) * 3).astype(int), 2)
-    shares = tuple(float(np.sum(r[k == j] ** 2) / total) for j in range(3))
-    cut = (lo + (hi - lo) / 3, lo + 2 * (hi - lo) / 3)
-    return shares, (math.exp(cut[0] - log_a), math.exp(cut[1] - log_a))  # type: ignore[return-value]
+    third = np.minimum(((np.concatenate([x, x]) - lo) / (hi - lo) * 3).astype(int), 2)
+    low, mid, high = (float(np.sum(r[third == j] ** 2) / total) for j in range(3))
+    return (low, mid, high), (math.exp(lo + (hi - lo) / 3 - log_a), math.exp(lo + 2 * (hi - lo) / 3 - log_a))
 
 
 def weight_fraction(spectrum: Any, tau_lo: float, tau_hi: float) -> float:

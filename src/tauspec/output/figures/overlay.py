@@ -89,14 +89,11 @@ def _m_scale(comparison: Comparison) -> tuple[float, str]:
     g/mol): the axis shows kg/mol.  Numbers written without a unit are drawn as given.
     """
     for sp in comparison.spectra:
-        text = (sp.meta or {}).get("molecular_weight")
-        if text:
-            try:
-                if not parse_quantity(text)[1].strip():
-                    return 1.0, "as given"
-            except ValueError:
-                continue
-            break
+        try:
+            unit = parse_quantity((sp.meta or {}).get("molecular_weight") or "")[1]
+        except ValueError:  # no text (or no number): the next sample's
+            continue
+        return (1e-3, "kg/mol") if unit.strip() else (1.0, "as given")
     return 1e-3, "kg/mol"
 
 
